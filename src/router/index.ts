@@ -1,0 +1,118 @@
+import { createRouter, createWebHistory, type RouteRecordRaw } from 'vue-router';
+import { ApiError } from '../api/http';
+import { signInUrl, type Role } from '../api/me';
+import { useSessionStore } from '../stores/session';
+import { canOpen } from './access';
+
+declare module 'vue-router' {
+  interface RouteMeta {
+    title: string;
+    /** Who may open the screen; empty means anyone signed in. */
+    roles: Role[];
+    /** Reachable without signing in. */
+    public?: boolean;
+    /** Set on the screens that belong in the navigation, in the order they appear there. */
+    nav?: boolean;
+  }
+}
+
+/** The product screens, in navigation order; each person sees only those their roles open. */
+export const screenRoutes: RouteRecordRaw[] = [
+  {
+    path: '/pre-alert',
+    name: 'new-pre-alert',
+    component: () => import('../views/NewPreAlertView.vue'),
+    meta: { title: 'New pre-alert', roles: ['paramedic'], nav: true },
+  },
+  {
+    path: '/board',
+    name: 'inbound-board',
+    component: () => import('../views/InboundBoardView.vue'),
+    meta: { title: 'Inbound board', roles: ['charge_nurse'], nav: true },
+  },
+  {
+    path: '/review',
+    name: 'activation-review',
+    component: () => import('../views/ActivationReviewView.vue'),
+    meta: { title: 'Activation review', roles: ['trauma_lead', 'admin'], nav: true },
+  },
+  {
+    path: '/quality',
+    name: 'triage-quality',
+    component: () => import('../views/TriageQualityView.vue'),
+    meta: { title: 'Triage quality', roles: ['quality', 'admin', 'trauma_lead'], nav: true },
+  },
+  {
+    path: '/policies',
+    name: 'policies',
+    component: () => import('../views/PoliciesView.vue'),
+    meta: { title: 'Policies', roles: ['admin', 'trauma_lead'], nav: true },
+  },
+  {
+    path: '/people',
+    name: 'people-places',
+    component: () => import('../views/PeoplePlacesView.vue'),
+    meta: { title: 'People & places', roles: ['admin'], nav: true },
+  },
+  {
+    path: '/mail',
+    name: 'mail-sent',
+    component: () => import('../views/MailSentView.vue'),
+    meta: { title: 'Mail sent', roles: ['admin'], nav: true },
+  },
+];
+
+const routes: RouteRecordRaw[] = [
+  {
+    path: '/',
+    name: 'home',
+    component: () => import('../views/HomeView.vue'),
+    meta: { title: 'Home', roles: [] },
+    // The global guard has loaded the session by now; HomeView is only for someone with no role.
+    beforeEnter: () => useSessionStore().homeRoute ?? true,
+  },
+  ...screenRoutes,
+  {
+    path: '/signed-out',
+    name: 'signed-out',
+    component: () => import('../views/SignedOutView.vue'),
+    meta: { title: 'Signed out', roles: [], public: true },
+  },
+  {
+    path: '/:pathMatch(.*)*',
+    name: 'not-found',
+    component: () => import('../views/NotFoundView.vue'),
+    meta: { title: 'Page not found', roles: [], public: true },
+  },
+];
+
+export const router = createRouter({
+  history: createWebHistory(import.meta.env.BASE_URL),
+  routes,
+  scrollBehavior: (_to, _from, saved) => saved ?? { top: 0 },
+});
+
+router.beforeEach(async (to) => {
+  if (to.meta.public) return true;
+  const session = useSessionStore();
+  try {
+    await session.load();
+  } catch (error) {
+    if (error instanceof ApiError && error.status === 401) {
+      // Sign-in is a server round trip through the identity provider, not a client route.
+      window.location.assign(signInUrl(to.fullPath));
+      return false;
+    }
+    // Any other failure is kept in the store and shown by the shell with a way to retry.
+  }
+  return true;
+});
+
+// A screen the person's roles do not open keeps its address and shows ForbiddenView in place
+// (see AppShell), so the title says so too.
+router.afterEach((to) => {
+  const session = useSessionStore();
+  const denied = !to.meta.public && session.me !== null && !canOpen(to.meta, session.roles);
+  const title = denied ? 'Not open to your roles' : to.meta.title;
+  document.title = title ? `${title} · Plumbline` : 'Plumbline';
+});

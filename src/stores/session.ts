@@ -1,0 +1,52 @@
+import { defineStore } from 'pinia';
+import { computed, ref } from 'vue';
+import { getMe, type MeResponse, type Role } from '../api/me';
+
+// When a person holds several roles, the first match decides where "/" takes them: the role
+// with the most time-critical work comes first.
+const HOME_BY_ROLE: ReadonlyArray<readonly [Role, string]> = [
+  ['paramedic', '/pre-alert'],
+  ['charge_nurse', '/board'],
+  ['trauma_lead', '/review'],
+  ['quality', '/quality'],
+  ['admin', '/people'],
+];
+
+export const useSessionStore = defineStore('session', () => {
+  const me = ref<MeResponse | null>(null);
+  const loadError = ref<Error | null>(null);
+  let pending: Promise<MeResponse> | null = null;
+
+  const user = computed(() => me.value?.user ?? null);
+  const roles = computed<Role[]>(() => me.value?.roles ?? []);
+  const memberships = computed(() => me.value?.memberships ?? []);
+  const homeRoute = computed<string | null>(
+    () => HOME_BY_ROLE.find(([role]) => roles.value.includes(role))?.[1] ?? null,
+  );
+
+  /** Fetches who is signed in once; concurrent callers share the same request. */
+  function load(): Promise<MeResponse> {
+    if (me.value) return Promise.resolve(me.value);
+    pending ??= getMe()
+      .then((answer) => {
+        me.value = answer;
+        loadError.value = null;
+        return answer;
+      })
+      .catch((error: unknown) => {
+        loadError.value = error instanceof Error ? error : new Error(String(error));
+        throw error;
+      })
+      .finally(() => {
+        // A failed load must be retryable, so the promise is not kept once settled.
+        pending = null;
+      });
+    return pending;
+  }
+
+  function hasRole(...wanted: Role[]): boolean {
+    return wanted.some((role) => roles.value.includes(role));
+  }
+
+  return { me, user, roles, memberships, homeRoute, loadError, load, hasRole };
+});
