@@ -1,0 +1,65 @@
+import { existsSync } from 'node:fs';
+import { resolve } from 'node:path';
+import express, { type Express, type Router } from 'express';
+import { pinoHttp } from 'pino-http';
+import type { ViteDevServer } from 'vite';
+import type { AppDeps } from './deps';
+import { errorHandler, notFoundHandler } from './errors';
+import { sameOriginOnly, securityHeaders } from './security';
+import { createSignInRouter } from './auth/sign-in';
+import { apiRouters } from './routes';
+import { messagePage } from './idp/pages';
+
+export interface CreateAppOptions extends AppDeps {
+  issuer: string;
+  /** The built-in identity provider's routes, when no outside issuer is configured. */
+  idpRouter?: Router;
+  /** In development, Vite serves the client with hot reload. */
+  vite?: ViteDevServer;
+  clientDir?: string;
+}
+
+export const defaultClientDir = resolve(import.meta.dirname ?? '.', '../dist/client');
+
+/** Builds the whole HTTP application without listening, so tests can mount it on port 0. */
+export function createApp(opts: CreateAppOptions): Express {
+  const { db, logger, config, publicUrl } = opts;
+  const secure = publicUrl.startsWith('https://');
+  const publicOrigin = new URL(publicUrl).origin;
+  const issuerOrigin = new URL(opts.issuer).origin;
+  const app = express();
+  app.disable('x-powered-by');
+  if (secure) app.set('trust proxy', 1);
+
+  app.use(pinoHttp({ logger, autoLogging: { ignore: (req) => /^\/(assets|idp-assets|@|src|node_modules)\//.test(req.url ?? '') } }));
+  app.use(securityHeaders({ secure, extraFormActions: issuerOrigin === publicOrigin ? [] : [issuerOrigin] }));
+
+  if (opts.idpRouter) app.use(opts.idpRouter);
+
+  app.use(['/api', '/auth'], opts.sessionMiddleware, sameOriginOnly(publicOrigin));
+  app.use('/api', express.json({ limit: '256kb' }));
+  app.use(createSignInRouter({ db, logger, publicUrl, issuer: opts.issuer, clientId: config.oidc.clientId, clientSecret: config.oidc.clientSecret }));
+  for (const router of apiRouters) app.use(router(opts));
+  app.use('/api', notFoundHandler);
+
+  if (opts.vite) {
+    app.use(opts.vite.middlewares);
+  } else {
+    const clientDir = opts.clientDir ?? defaultClientDir;
+    app.use('/assets', express.static(resolve(clientDir, 'assets'), { immutable: true, maxAge: '365d', fallthrough: false }));
+    app.use(express.static(clientDir, { index: false, maxAge: '1h' }));
+    const indexFile = resolve(clientDir, 'index.html');
+    // Every other page is the single-page client; its router decides what to show.
+    app.get(/^\/(?!api\/|auth\/|idp\/|idp-assets\/).*/, (_req, res) => {
+      if (!existsSync(indexFile)) {
+        res.status(503).type('html').send(messagePage('Client not built', 'Run npm run build (npm start does it for you), then reload.'));
+        return;
+      }
+      res.set('Cache-Control', 'no-cache').sendFile(indexFile);
+    });
+  }
+
+  app.use(notFoundHandler);
+  app.use(errorHandler(logger));
+  return app;
+}

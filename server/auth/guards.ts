@@ -1,0 +1,51 @@
+import type { NextFunction, Request, Response } from 'express';
+import type { Knex } from 'knex';
+import type { Me, Role } from '../../shared/roles';
+import { forbidden, unauthenticated } from '../errors';
+import { describeUser, findUserById } from '../services/users';
+
+declare global {
+  // eslint-disable-next-line @typescript-eslint/no-namespace
+  namespace Express {
+    interface Request { me?: Me }
+  }
+}
+
+/** Loads the signed-in person on every request, so a deactivated user or a changed role counts at once. */
+export async function loadMe(db: Knex, userId: number | undefined, claimedRoles?: Role[]): Promise<Me | null> {
+  if (!userId) return null;
+  const user = await findUserById(db, userId);
+  if (!user || !user.active) return null;
+  return describeUser(db, user, claimedRoles);
+}
+
+export function requireUser(db: Knex) {
+  return async (req: Request, _res: Response, next: NextFunction) => {
+    const me = await loadMe(db, req.session?.userId, req.session?.claimedRoles);
+    if (!me) return next(unauthenticated());
+    req.me = me;
+    next();
+  };
+}
+
+export function requireRole(...roles: Role[]) {
+  return (req: Request, _res: Response, next: NextFunction) => {
+    const me = req.me;
+    if (!me) return next(unauthenticated());
+    if (!me.roles.some((role) => roles.includes(role))) return next(forbidden(`This needs one of these roles: ${roles.join(', ')}.`));
+    next();
+  };
+}
+
+export const hospitalIdsOf = (me: Me) => me.memberships.filter((m) => m.kind === 'hospital').map((m) => m.id);
+export const agencyIdsOf = (me: Me) => me.memberships.filter((m) => m.kind === 'agency').map((m) => m.id);
+
+export function assertHospital(me: Me, hospitalId: number): void {
+  if (!hospitalIdsOf(me).includes(hospitalId)) throw forbidden('That hospital is not one of yours.');
+}
+
+export function assertAgency(me: Me, agencyId: number): void {
+  if (!agencyIdsOf(me).includes(agencyId)) throw forbidden('That ambulance agency is not one of yours.');
+}
+
+export const hasRole = (me: Me, ...roles: Role[]) => me.roles.some((role) => roles.includes(role));

@@ -1,0 +1,89 @@
+import { existsSync } from 'node:fs';
+import { loadConfig } from '../config';
+import { createDb, migrate } from '../db';
+import { systemClock } from '../deps';
+import { DEMO_PASSWORD, demoAccounts, isEmpty, seedDemo } from '../services/seed';
+
+const usage = `Usage: plumbline <command>
+
+  start                 run the server (builds the client first when it is missing)
+  dev                   run the server with the client served by Vite, with hot reload
+  migrate               bring the database up to the latest migration
+  seed                  load the invented demo scenario into an empty database
+  evaluate [--set field-2021|field-2011] [--policy ID]
+                        JSON Lines of clinical inputs on stdin, one result per line on stdout
+  cribari               CSV (activation,iss[,nfti]) on stdin, the matrix and rates as JSON
+  iss                   {"injuries":[{"region","ais"}]} on stdin, {"iss","niss"} on stdout
+`;
+
+const io = { stdin: process.stdin, stdout: process.stdout, stderr: process.stderr };
+
+export async function main(argv: string[]): Promise<number> {
+  const [command, ...args] = argv;
+  switch (command) {
+    case 'start':
+    case 'dev':
+      return serve(command === 'dev');
+    case 'migrate': {
+      const db = createDb(loadConfig().databaseFile);
+      const applied = await migrate(db);
+      console.log(applied.length ? `Applied ${applied.length} migration(s): ${applied.join(', ')}` : 'The database is up to date.');
+      await db.destroy();
+      return 0;
+    }
+    case 'seed': {
+      const db = createDb(loadConfig().databaseFile);
+      await migrate(db);
+      if (!(await isEmpty(db))) {
+        console.error('The database already has people in it; the demo scenario loads only into an empty one.');
+        await db.destroy();
+        return 1;
+      }
+      await seedDemo(db, systemClock);
+      console.log('Loaded the demo scenario.');
+      await db.destroy();
+      return 0;
+    }
+    case 'evaluate':
+    case 'cribari':
+    case 'iss': {
+      const engine = await import('./engine-commands');
+      const run = { evaluate: engine.evaluateCommand, cribari: engine.cribariCommand, iss: engine.issCommand }[command];
+      return run(args, io);
+    }
+    case undefined:
+    case 'help':
+    case '--help':
+      console.log(usage);
+      return command ? 0 : 1;
+    default:
+      console.error(`Unknown command "${command}".\n\n${usage}`);
+      return 1;
+  }
+}
+
+async function serve(dev: boolean): Promise<number> {
+  const config = loadConfig(process.env, { dev });
+  if (!dev && !existsSync('dist/client/index.html')) {
+    console.log('Building the client (first start)…');
+    const { build } = await import('vite');
+    await build({ logLevel: 'warn' });
+  }
+  const { startServer } = await import('../server');
+  const server = await startServer(config, { dev });
+  const local = !config.oidc.issuer;
+  console.log(`\nPlumbline is running at ${server.url}${dev ? ' (development, hot reload)' : ''}`);
+  console.log(`Data: ${config.dataDir}${server.mailer.local ? '  ·  mail: built-in SMTP fake (read it on the Mail sent page)' : ''}`);
+  if (local) {
+    console.log(`\nDemo sign-ins (password "${DEMO_PASSWORD}"):`);
+    for (const account of demoAccounts) console.log(`  ${account.email.padEnd(26)} ${account.label}`);
+  }
+  console.log('');
+  const stop = async () => {
+    await server.close();
+    process.exit(0);
+  };
+  process.once('SIGINT', stop);
+  process.once('SIGTERM', stop);
+  return new Promise<number>(() => {});
+}

@@ -1,0 +1,57 @@
+import { randomBytes } from 'node:crypto';
+import { existsSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs';
+import { join, resolve } from 'node:path';
+
+export interface Config {
+  port: number;
+  host: string;
+  dataDir: string;
+  databaseFile: string;
+  uploadsDir: string;
+  /** The origin users reach; when unset it is derived from the listening port. */
+  publicUrl: string | null;
+  sessionSecret: string;
+  oidc: { issuer: string | null; clientId: string; clientSecret: string };
+  smtpUrl: string | null;
+  mailFrom: string;
+  logLevel: string;
+  dev: boolean;
+  seedDemo: boolean;
+}
+
+function readSecret(dataDir: string): string {
+  const file = join(dataDir, 'session-secret');
+  if (existsSync(file)) return readFileSync(file, 'utf8').trim();
+  const secret = randomBytes(32).toString('base64url');
+  writeFileSync(file, secret, { mode: 0o600 });
+  return secret;
+}
+
+export function loadConfig(env: NodeJS.ProcessEnv = process.env, overrides: Partial<Config> = {}): Config {
+  const dataDir = resolve(overrides.dataDir ?? env.DATA_DIR ?? './data');
+  mkdirSync(join(dataDir, 'uploads'), { recursive: true });
+  const port = overrides.port ?? Number(env.PORT ?? 3000);
+  if (!Number.isInteger(port) || port < 0 || port > 65535) throw new Error(`PORT must be a port number, got "${env.PORT}"`);
+  const publicUrl = overrides.publicUrl ?? (env.PUBLIC_URL ? env.PUBLIC_URL.replace(/\/$/, '') : null);
+  return {
+    port,
+    host: env.HOST ?? '0.0.0.0',
+    dataDir,
+    databaseFile: join(dataDir, 'plumbline.sqlite'),
+    uploadsDir: join(dataDir, 'uploads'),
+    publicUrl,
+    sessionSecret: env.SESSION_SECRET || readSecret(dataDir),
+    oidc: {
+      issuer: env.OIDC_ISSUER || null,
+      clientId: env.OIDC_CLIENT_ID || 'plumbline-web',
+      // The local provider's client secret is only ever used inside this process.
+      clientSecret: env.OIDC_CLIENT_SECRET || (env.OIDC_ISSUER ? '' : readSecret(dataDir) + '-local-client'),
+    },
+    smtpUrl: env.SMTP_URL || null,
+    mailFrom: env.MAIL_FROM || 'Plumbline <plumbline@plumbline.test>',
+    logLevel: env.LOG_LEVEL || (env.NODE_ENV === 'test' ? 'silent' : 'info'),
+    dev: false,
+    seedDemo: env.SEED_DEMO !== 'false',
+    ...overrides,
+  };
+}

@@ -1,0 +1,20 @@
+import type { RequestHandler } from 'express';
+import type { Knex } from 'knex';
+import type { Logger } from 'pino';
+import type { Config } from './config';
+import type { Mailer } from './mail';
+
+export interface Clock { now(): number }
+export const systemClock: Clock = { now: () => Date.now() };
+
+/** Everything a router, socket feature or background job needs; tests build their own. */
+export interface AppDeps {
+  config: Config;
+  db: Knex;
+  logger: Logger;
+  clock: Clock;
+  mailer: Mailer;
+  /** The origin people reach, without a trailing slash. */
+  publicUrl: string;
+  sessionMiddleware: RequestHandler;
+}

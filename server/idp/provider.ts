@@ -1,0 +1,157 @@
+import { generateKeyPairSync } from 'node:crypto';
+import { existsSync, readFileSync, writeFileSync } from 'node:fs';
+import { dirname, join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import express, { Router, type Request, type Response } from 'express';
+import rateLimit from 'express-rate-limit';
+import Provider, { type Configuration, type KoaContextWithOIDC } from 'oidc-provider';
+import type { Knex } from 'knex';
+import type { Logger } from 'pino';
+import { verifyPassword } from '../auth/passwords';
+import { findUserByEmail, findUserById } from '../services/users';
+import { messagePage, signInPage, signOutPage } from './pages';
+
+export interface LocalIdpOptions {
+  issuer: string;
+  db: Knex;
+  logger: Logger;
+  dataDir: string;
+  cookieSecret: string;
+  client: { id: string; secret: string; redirectUri: string; postLogoutRedirectUri: string };
+  signInAttemptsPerWindow?: number;
+}
+
+const here = dirname(fileURLToPath(import.meta.url));
+const fontFiles = join(dirname(fileURLToPath(import.meta.resolve('@fontsource/atkinson-hyperlegible/package.json'))), 'files');
+
+function signingKeys(dataDir: string) {
+  const file = join(dataDir, 'idp-signing-key.json');
+  if (existsSync(file)) return JSON.parse(readFileSync(file, 'utf8'));
+  const { privateKey } = generateKeyPairSync('rsa', { modulusLength: 2048 });
+  const jwk = { ...privateKey.export({ format: 'jwk' }), use: 'sig', alg: 'RS256', kid: `plumbline-${Date.now()}` };
+  writeFileSync(file, JSON.stringify({ keys: [jwk] }), { mode: 0o600 });
+  return { keys: [jwk] };
+}
+
+/** The identity provider that runs inside Plumbline when no outside issuer is configured. */
+export function createLocalIdp(opts: LocalIdpOptions): { provider: Provider; router: Router } {
+  const { db, logger } = opts;
+  const configuration: Configuration = {
+    clients: [
+      {
+        client_id: opts.client.id,
+        client_secret: opts.client.secret,
+        redirect_uris: [opts.client.redirectUri],
+        post_logout_redirect_uris: [opts.client.postLogoutRedirectUri],
+        response_types: ['code'],
+        grant_types: ['authorization_code'],
+        token_endpoint_auth_method: 'client_secret_post',
+      },
+    ],
+    jwks: signingKeys(opts.dataDir),
+    cookies: { keys: [opts.cookieSecret] },
+    claims: { openid: ['sub'], email: ['email', 'email_verified'], profile: ['name'] },
+    pkce: { required: () => true },
+    features: {
+      devInteractions: { enabled: false },
+      rpInitiatedLogout: {
+        enabled: true,
+        logoutSource: async (ctx: KoaContextWithOIDC, form: string) => {
+          ctx.type = 'html';
+          ctx.body = signOutPage(form);
+        },
+        postLogoutSuccessSource: async (ctx: KoaContextWithOIDC) => {
+          ctx.type = 'html';
+          ctx.body = messagePage('Signed out', 'You are signed out of Plumbline.', { href: '/', label: 'Sign in again' });
+        },
+      },
+    },
+    interactions: { url: (_ctx, interaction) => `/idp/interaction/${interaction.uid}` },
+    ttl: {
+      AccessToken: 3600,
+      AuthorizationCode: 120,
+      IdToken: 3600,
+      Interaction: 1800,
+      Session: 12 * 3600,
+      Grant: 12 * 3600,
+    },
+    renderError: async (ctx, out) => {
+      ctx.type = 'html';
+      ctx.body = messagePage('Sign-in problem', String(out.error_description ?? out.error ?? 'The sign-in request could not be completed.'), { href: '/', label: 'Start again' });
+    },
+    async findAccount(_ctx, sub) {
+      const user = await findUserById(db, Number(sub));
+      if (!user || !user.active) return undefined;
+      return {
+        accountId: String(user.id),
+        claims: async () => ({ sub: String(user.id), email: user.email, email_verified: true, name: user.name }),
+      };
+    },
+  };
+
+  const provider = new Provider(opts.issuer, configuration);
+  provider.on('server_error', (_ctx: unknown, err: Error) => logger.error({ err }, 'identity provider error'));
+
+  const router = Router();
+  router.use('/idp-assets/fonts', express.static(fontFiles, { immutable: true, maxAge: '365d' }));
+  router.use('/idp-assets', express.static(join(here, 'assets'), { maxAge: '1h' }));
+
+  const attempts = rateLimit({
+    windowMs: 10 * 60_000,
+    limit: opts.signInAttemptsPerWindow ?? 20,
+    standardHeaders: 'draft-8',
+    legacyHeaders: false,
+    handler: (_req, res) => {
+      res.status(429).type('html').send(messagePage('Too many attempts', 'Too many sign-in attempts from this device. Wait a few minutes and try again.'));
+    },
+  });
+
+  const noStore = (_req: Request, res: Response, next: () => void) => {
+    res.set('Cache-Control', 'no-store');
+    next();
+  };
+
+  router.get('/idp/interaction/:uid', noStore, async (req, res, next) => {
+    try {
+      const details = await provider.interactionDetails(req, res);
+      if (details.prompt.name === 'login') {
+        res.type('html').send(signInPage({ action: `/idp/interaction/${details.uid}/login`, demo: true }));
+        return;
+      }
+      // Plumbline is the only client of this provider, so consent is given on the person's behalf.
+      const grant = details.grantId ? await provider.Grant.find(details.grantId) : new provider.Grant({ accountId: details.session!.accountId, clientId: String(details.params.client_id) });
+      if (!grant) throw new Error('grant not found');
+      const missing = details.prompt.details as { missingOIDCScope?: string[]; missingOIDCClaims?: string[] };
+      if (missing.missingOIDCScope) grant.addOIDCScope(missing.missingOIDCScope.join(' '));
+      if (missing.missingOIDCClaims) grant.addOIDCClaims(missing.missingOIDCClaims);
+      const grantId = await grant.save();
+      await provider.interactionFinished(req, res, { consent: { grantId } }, { mergeWithLastSubmission: true });
+    } catch (err) {
+      next(err);
+    }
+  });
+
+  router.post('/idp/interaction/:uid/login', noStore, attempts, express.urlencoded({ extended: false, limit: '4kb' }), async (req, res, next) => {
+    try {
+      const details = await provider.interactionDetails(req, res);
+      const email = String(req.body?.email ?? '').trim();
+      const password = String(req.body?.password ?? '');
+      const action = `/idp/interaction/${details.uid}/login`;
+      if (!email || !password) {
+        res.status(400).type('html').send(signInPage({ action, email, demo: true, error: !email ? 'Enter your email address.' : 'Enter your password.' }));
+        return;
+      }
+      const user = await findUserByEmail(db, email);
+      if (!user || !user.active || !(await verifyPassword(password, user.password_hash))) {
+        res.status(401).type('html').send(signInPage({ action, email, demo: true, error: 'That email and password do not match an active account.' }));
+        return;
+      }
+      await provider.interactionFinished(req, res, { login: { accountId: String(user.id) } }, { mergeWithLastSubmission: false });
+    } catch (err) {
+      next(err);
+    }
+  });
+
+  router.use('/idp', provider.callback());
+  return { provider, router };
+}

@@ -1,0 +1,73 @@
+import type { Server as HttpServer, IncomingMessage } from 'node:http';
+import { Server, type Socket } from 'socket.io';
+import type { RequestHandler } from 'express';
+import type { Knex } from 'knex';
+import type { Logger } from 'pino';
+import type { Me } from '../../shared/roles';
+import { roomOfAgency, roomOfHospital, roomOfUser, type ClientToServerEvents, type ServerToClientEvents } from '../../shared/realtime/events';
+import { loadMe } from '../auth/guards';
+import { AppError } from '../errors';
+
+export interface SocketData { me: Me }
+export type RealtimeServer = Server<ClientToServerEvents, ServerToClientEvents, Record<string, never>, SocketData>;
+export type RealtimeSocket = Socket<ClientToServerEvents, ServerToClientEvents, Record<string, never>, SocketData>;
+
+/** A feature adds its socket events through one of these, given each authenticated connection. */
+export type SocketFeature = (io: RealtimeServer, socket: RealtimeSocket) => void;
+
+export function roomsOf(me: Me): string[] {
+  return [roomOfUser(me.user.id), ...me.memberships.map((m) => (m.kind === 'hospital' ? roomOfHospital(m.id) : roomOfAgency(m.id)))];
+}
+
+/** Only allow-listed error details reach a client; anything else is logged and answered generically. */
+export function ackError(err: unknown, logger: Logger) {
+  if (err instanceof AppError) {
+    return { ok: false as const, error: { code: err.code, message: err.message, ...(err.issues?.[0] ? { field: err.issues[0].field, issues: err.issues } : {}) } };
+  }
+  logger.error({ err }, 'socket handler failed');
+  return { ok: false as const, error: { code: 'internal', message: 'Something went wrong on our side. It has been logged.' } };
+}
+
+export function createRealtime(opts: {
+  httpServer: HttpServer;
+  sessionMiddleware: RequestHandler;
+  db: Knex;
+  logger: Logger;
+  publicOrigin: string;
+  features: SocketFeature[];
+}): RealtimeServer {
+  const io: RealtimeServer = new Server(opts.httpServer, {
+    serveClient: false,
+    // Recovery replays what a briefly disconnected client missed; the session is checked again.
+    connectionStateRecovery: { maxDisconnectionDuration: 2 * 60_000, skipMiddlewares: false },
+    allowRequest: (req, callback) => {
+      const origin = req.headers.origin;
+      // Browsers always send Origin; a page of another site must not ride on the session cookie.
+      callback(null, origin === undefined || origin === opts.publicOrigin);
+    },
+  });
+  io.engine.use(opts.sessionMiddleware);
+  io.use(async (socket, next) => {
+    const request = socket.request as IncomingMessage & { session?: { userId?: number; claimedRoles?: Me['roles'] } };
+    try {
+      const me = await loadMe(opts.db, request.session?.userId, request.session?.claimedRoles);
+      if (!me) return next(new Error('unauthenticated'));
+      socket.data.me = me;
+      next();
+    } catch (err) {
+      opts.logger.error({ err }, 'socket authentication failed');
+      next(new Error('unauthenticated'));
+    }
+  });
+  io.on('connection', (socket) => {
+    const rooms = roomsOf(socket.data.me);
+    socket.join(rooms);
+    socket.emit('session:ready', { userId: socket.data.me.user.id, rooms });
+    socket.on('session:rooms', (ack) => {
+      if (typeof ack !== 'function') return;
+      ack({ ok: true, data: { rooms: [...socket.rooms].filter((room) => room !== socket.id) } });
+    });
+    for (const feature of opts.features) feature(io, socket);
+  });
+  return io;
+}

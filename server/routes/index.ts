@@ -1,0 +1,8 @@
+import type { Router } from 'express';
+import type { AppDeps } from '../deps';
+import { healthRouter } from './health';
+import { meRouter } from './me';
+import { mailRouter } from './mail';
+
+/** Every API router, in mounting order. A new resource adds its router here. */
+export const apiRouters: Array<(deps: AppDeps) => Router> = [healthRouter, meRouter, mailRouter];

@@ -1,0 +1,42 @@
+import helmet from 'helmet';
+import type { RequestHandler } from 'express';
+import { AppError } from './errors';
+
+/** Headers for every response: a Content-Security-Policy that names no outside origin. */
+export function securityHeaders(opts: { secure: boolean; extraFormActions: string[] }): RequestHandler {
+  return helmet({
+    contentSecurityPolicy: {
+      useDefaults: false,
+      directives: {
+        defaultSrc: ["'self'"],
+        scriptSrc: ["'self'"],
+        // PrimeVue writes its theme into <style> elements at run time.
+        styleSrc: ["'self'", "'unsafe-inline'"],
+        imgSrc: ["'self'", 'data:'],
+        fontSrc: ["'self'"],
+        connectSrc: ["'self'"],
+        mediaSrc: ["'self'", 'data:'],
+        objectSrc: ["'none'"],
+        baseUri: ["'self'"],
+        frameAncestors: ["'none'"],
+        // The sign-out form is followed through the identity provider, which may live elsewhere.
+        formAction: ["'self'", ...opts.extraFormActions],
+        ...(opts.secure ? { upgradeInsecureRequests: [] } : {}),
+      },
+    },
+    strictTransportSecurity: opts.secure,
+    crossOriginEmbedderPolicy: false,
+  });
+}
+
+const SAFE_METHODS = new Set(['GET', 'HEAD', 'OPTIONS']);
+
+/** Refuses a state-changing request that did not come from a page of this site. */
+export function sameOriginOnly(publicOrigin: string): RequestHandler {
+  return (req, _res, next) => {
+    if (SAFE_METHODS.has(req.method)) return next();
+    const origin = req.get('origin') ?? (req.get('referer') ? new URL(req.get('referer')!).origin : undefined);
+    if (origin === publicOrigin) return next();
+    next(new AppError(403, 'cross_site', 'This request did not come from a Plumbline page.'));
+  };
+}

@@ -1,0 +1,108 @@
+import { createServer, type Server as HttpServer } from 'node:http';
+import type { AddressInfo } from 'node:net';
+import pino, { type Logger } from 'pino';
+import type { Knex } from 'knex';
+import type { ViteDevServer } from 'vite';
+import { createApp } from './app';
+import type { Config } from './config';
+import { createDb, migrate } from './db';
+import { systemClock, type AppDeps, type Clock } from './deps';
+import { createSessionMiddleware } from './auth/session';
+import { createLocalIdp } from './idp/provider';
+import { createMailer, type Mailer } from './mail';
+import { createRealtime, type RealtimeServer } from './realtime';
+import { socketFeatures } from './realtime/features';
+import { backgroundJobs } from './services/jobs';
+import { isEmpty, seedDemo } from './services/seed';
+
+export interface RunningServer {
+  url: string;
+  port: number;
+  db: Knex;
+  io: RealtimeServer;
+  mailer: Mailer;
+  logger: Logger;
+  http: HttpServer;
+  deps: AppDeps;
+  close(): Promise<void>;
+}
+
+export interface StartOptions {
+  clock?: Clock;
+  logger?: Logger;
+  mailer?: Mailer;
+  db?: Knex;
+  /** Serve the client through Vite with hot reload instead of the built files. */
+  dev?: boolean;
+}
+
+/** Starts the whole product in this process: database, identity provider, mail, HTTP and sockets. */
+export async function startServer(config: Config, opts: StartOptions = {}): Promise<RunningServer> {
+  const logger = opts.logger ?? pino({ level: config.logLevel, base: undefined });
+  const clock = opts.clock ?? systemClock;
+  const db = opts.db ?? createDb(config.databaseFile);
+  const applied = await migrate(db);
+  if (applied.length) logger.info({ applied }, 'database migrated');
+  if (config.seedDemo && (await isEmpty(db))) {
+    await seedDemo(db, clock);
+    logger.info('demo data loaded');
+  }
+
+  const http = createServer();
+  await new Promise<void>((resolve, reject) => {
+    http.once('error', reject);
+    http.listen(config.port, config.host, () => resolve());
+  });
+  const port = (http.address() as AddressInfo).port;
+  const publicUrl = config.publicUrl ?? `http://localhost:${port}`;
+  const issuer = config.oidc.issuer ?? `${publicUrl}/idp`;
+
+  const mailer = opts.mailer ?? (await createMailer({ smtpUrl: config.smtpUrl, from: config.mailFrom, db, logger, clock }));
+  const sessionMiddleware = createSessionMiddleware({ db, secret: config.sessionSecret, secure: publicUrl.startsWith('https://') });
+  const deps: AppDeps = { config, db, logger, clock, mailer, publicUrl, sessionMiddleware };
+
+  const idp = config.oidc.issuer
+    ? undefined
+    : createLocalIdp({
+        issuer,
+        db,
+        logger,
+        dataDir: config.dataDir,
+        cookieSecret: config.sessionSecret,
+        client: { id: config.oidc.clientId, secret: config.oidc.clientSecret, redirectUri: `${publicUrl}/auth/callback`, postLogoutRedirectUri: `${publicUrl}/signed-out` },
+      });
+  if (idp && publicUrl.startsWith('https://')) idp.provider.proxy = true;
+
+  let vite: ViteDevServer | undefined;
+  if (opts.dev) {
+    const { createServer: createVite } = await import('vite');
+    vite = await createVite({ server: { middlewareMode: true, hmr: { server: http } }, appType: 'spa' });
+  }
+
+  const app = createApp({ ...deps, issuer, idpRouter: idp?.router, vite });
+  http.on('request', app);
+  const io = createRealtime({ httpServer: http, sessionMiddleware, db, logger, publicOrigin: new URL(publicUrl).origin, features: socketFeatures(deps) });
+  const jobs = backgroundJobs({ ...deps, io });
+
+  let closed = false;
+  return {
+    url: publicUrl,
+    port,
+    db,
+    io,
+    mailer,
+    logger,
+    http,
+    deps,
+    async close() {
+      if (closed) return;
+      closed = true;
+      jobs.stop();
+      await new Promise<void>((resolve) => io.close(() => resolve()));
+      http.closeAllConnections?.();
+      await vite?.close();
+      await mailer.close();
+      if (!opts.db) await db.destroy();
+    },
+  };
+}

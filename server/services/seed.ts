@@ -1,0 +1,69 @@
+import type { Knex } from 'knex';
+import type { Role } from '../../shared/roles';
+import { hashPassword } from '../auth/passwords';
+import type { Clock } from '../deps';
+
+// The invented demo scenario: Alderwick County, one Level I trauma centre, one community
+// hospital, one county ambulance service. Every name here is made up.
+export const DEMO_PASSWORD = 'demo';
+
+export const demoAccounts: Array<{ email: string; name: string; roles: Role[]; label: string }> = [
+  { email: 'paramedic@plumbline.test', name: 'Robin Vasquez-Hale', roles: ['paramedic'], label: 'paramedic, Alderwick County Ambulance' },
+  { email: 'nurse@plumbline.test', name: 'Morgan Achterberg', roles: ['charge_nurse'], label: 'charge nurse, Alderwick General' },
+  { email: 'lead@plumbline.test', name: 'Dr. Sasha Imbert', roles: ['trauma_lead'], label: 'trauma lead, Alderwick General' },
+  { email: 'quality@plumbline.test', name: 'Jules Oyelaran', roles: ['quality'], label: 'quality team, Alderwick General' },
+  { email: 'admin@plumbline.test', name: 'Kit Marchetti', roles: ['admin'], label: 'administrator, all of Alderwick County' },
+];
+
+export async function isEmpty(db: Knex): Promise<boolean> {
+  const row = await db('users').count({ n: '*' }).first();
+  return Number(row?.n ?? 0) === 0;
+}
+
+export interface DemoIds { hospitals: { general: number; community: number }; agency: number; units: number[]; users: Record<string, number> }
+
+export async function seedDemo(db: Knex, clock: Clock): Promise<DemoIds> {
+  const at = clock.now();
+  const passwordHash = await hashPassword(DEMO_PASSWORD);
+  return db.transaction(async (trx) => {
+    const [general] = await trx('hospitals')
+      .insert({ name: 'Alderwick General Hospital', short_name: 'Alderwick General', trauma_level: 'I', height_unit: 'ft', escalation_minutes: 2, created_at: at })
+      .returning('id');
+    const [community] = await trx('hospitals')
+      .insert({ name: 'Fenmoor Community Hospital', short_name: 'Fenmoor Community', trauma_level: 'none', height_unit: 'm', escalation_minutes: 3, created_at: at })
+      .returning('id');
+    const [agency] = await trx('agencies').insert({ name: 'Alderwick County Ambulance Service', created_at: at }).returning('id');
+    const hospitals = { general: general.id as number, community: community.id as number };
+    await trx('agency_hospitals').insert([
+      { agency_id: agency.id, hospital_id: hospitals.general },
+      { agency_id: agency.id, hospital_id: hospitals.community },
+    ]);
+    const units: number[] = [];
+    for (const callSign of ['Medic 11', 'Medic 12', 'Medic 14', 'Medic 21', 'Rescue 3']) {
+      const [unit] = await trx('units').insert({ agency_id: agency.id, call_sign: callSign, active: true }).returning('id');
+      units.push(unit.id);
+    }
+    const users: Record<string, number> = {};
+    for (const account of demoAccounts) {
+      const [user] = await trx('users').insert({ email: account.email, name: account.name, password_hash: passwordHash, active: true, created_at: at }).returning('id');
+      users[account.email] = user.id;
+      await trx('user_roles').insert(account.roles.map((role) => ({ user_id: user.id, role })));
+    }
+    const member = (email: string, place: { hospital_id?: number; agency_id?: number }) => ({ user_id: users[email], hospital_id: null, agency_id: null, ...place });
+    await trx('memberships').insert([
+      member('paramedic@plumbline.test', { agency_id: agency.id }),
+      member('nurse@plumbline.test', { hospital_id: hospitals.general }),
+      member('lead@plumbline.test', { hospital_id: hospitals.general }),
+      member('quality@plumbline.test', { hospital_id: hospitals.general }),
+      member('admin@plumbline.test', { hospital_id: hospitals.general }),
+      member('admin@plumbline.test', { hospital_id: hospitals.community }),
+      member('admin@plumbline.test', { agency_id: agency.id }),
+    ]);
+    const ids: DemoIds = { hospitals, agency: agency.id, units, users };
+    for (const extend of demoExtensions) await extend(trx, ids, clock);
+    return ids;
+  });
+}
+
+/** Later features add their demo records (past cases, outcomes, policies) through these. */
+export const demoExtensions: Array<(db: Knex, ids: DemoIds, clock: Clock) => Promise<void>> = [];

@@ -1,0 +1,23 @@
+import { mkdtempSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { loadConfig, type Config } from '../../server/config';
+import { startServer, type RunningServer, type StartOptions } from '../../server/server';
+
+export interface TestServer extends RunningServer { dataDir: string; config: Config }
+
+/** The real product on an ephemeral port with a temporary SQLite file and the demo scenario. */
+export async function startTestServer(overrides: Partial<Config> = {}, opts: StartOptions = {}): Promise<TestServer> {
+  const dataDir = mkdtempSync(join(tmpdir(), 'plumbline-test-'));
+  const config = loadConfig({ NODE_ENV: 'test' }, { port: 0, host: '127.0.0.1', dataDir, logLevel: 'silent', ...overrides });
+  const server = await startServer(config, opts);
+  return {
+    ...server,
+    dataDir,
+    config,
+    async close() {
+      await server.close();
+      rmSync(dataDir, { recursive: true, force: true });
+    },
+  };
+}
