@@ -1,4 +1,4 @@
-// The only module that talks to the network; every other client file goes through these helpers
+// The only module that reaches the network; every other client file goes through these helpers
 // so that credentials, headers and error shapes stay the same everywhere.
 
 export interface ApiIssue {
