@@ -1,0 +1,3 @@
+export * from './fall';
+export * from './surfaces';
+export * from './impact';

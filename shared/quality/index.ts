@@ -1,0 +1,4 @@
+export * from './wilson';
+export * from './nfti';
+export * from './iss';
+export * from './cribari';

@@ -1,0 +1,45 @@
+import type { Criterion, CriterionCategory, CriterionSetId, NemsisCode, RiskTier, CriteriaSet, CriteriaSetId } from './criteria';
+import { FIELD_2011 } from './field-2011';
+import { FIELD_2021 } from './field-2021';
+import { POLICY_CRITERIA } from './policy-criteria';
+import { compileCriterion, type CompiledCriterion } from './compile-criteria';
+
+export const CRITERIA_SETS: Readonly<Record<CriteriaSetId, CriteriaSet>> = {
+  'field-2021': FIELD_2021,
+  'field-2011': FIELD_2011,
+};
+export const DEFAULT_SET: CriteriaSetId = 'field-2021';
+
+const ALL: readonly Criterion[] = [...FIELD_2021.criteria, ...FIELD_2011.criteria, ...POLICY_CRITERIA];
+
+export interface CatalogEntry {
+  id: string;
+  set: CriterionSetId;
+  category: CriterionCategory;
+  tier: RiskTier | null;
+  label: string;
+  source: string;
+  nemsis: NemsisCode | null;
+  note?: string;
+}
+
+/** Every criterion a policy rule may name, for the Policies screen: both guideline sets and the policy conditions. */
+export const CRITERION_CATALOG: readonly CatalogEntry[] = ALL.map(({ when: _when, ...entry }) => Object.freeze(entry));
+
+const COMPILED: readonly CompiledCriterion[] = ALL.map(compileCriterion);
+const INDEX = new Map<string, number>(ALL.map((c, i) => [c.id, i]));
+if (INDEX.size !== ALL.length) throw new Error('criterion ids must be unique');
+
+export function findCriterion(id: string): CatalogEntry | undefined {
+  const i = INDEX.get(id);
+  return i === undefined ? undefined : CRITERION_CATALOG[i];
+}
+
+export function compiledCriterion(id: string): CompiledCriterion | undefined {
+  const i = INDEX.get(id);
+  return i === undefined ? undefined : COMPILED[i];
+}
+
+export function isCriteriaSetId(id: string): id is CriteriaSetId {
+  return Object.prototype.hasOwnProperty.call(CRITERIA_SETS, id);
+}

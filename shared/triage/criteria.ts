@@ -1,0 +1,62 @@
+import type { Consideration, Finding } from '../schemas/clinical-options';
+
+// Criteria are data: a condition tree over the clinical input, read by compile-criteria.ts.
+// Conditions are three-valued (met, not met, unknown) so that an unknown value never passes as normal.
+
+export type CriteriaSetId = 'field-2021' | 'field-2011';
+/** Where a criterion belongs: a guideline set, or `policy`, the conditions policies may add. */
+export type CriterionSetId = CriteriaSetId | 'policy';
+export type RiskTier = 'high' | 'moderate';
+export type CriterionCategory = 'physiologic' | 'anatomic' | 'mechanism' | 'special';
+
+/** Quantities compared as numbers; GCS ones may be known only as a range (parts, or a bare total). */
+export type Quantity = 'sbp' | 'hr' | 'rr' | 'heightM' | 'gcsTotal' | 'gcsMotor';
+export type Flag = 'anticoagulant' | 'intubated' | 'respiratorySupport' | 'respiratoryDistress' | 'headImpact';
+
+export type Condition =
+  /** quantity < value (+ perYearOfAge × completed years of age) */
+  | { kind: 'below'; quantity: Quantity; value: number; perYearOfAge?: number; display?: string }
+  /** quantity > value */
+  | { kind: 'above'; quantity: Quantity; value: number; display?: string }
+  /** quantity ≤ value */
+  | { kind: 'at-most'; quantity: Quantity; value: number; display?: string }
+  /** one quantity greater than another (HR > SBP) */
+  | { kind: 'exceeds'; quantity: Quantity; other: Quantity }
+  /** completed years of age in [from, below) */
+  | { kind: 'age'; from?: number; below?: number; label: string }
+  | { kind: 'flag'; flag: Flag }
+  | { kind: 'finding'; finding: Finding }
+  | { kind: 'consideration'; consideration: Consideration }
+  /** pulse oximetry on room air below value; a reading on oxygen is not a room-air reading */
+  | { kind: 'room-air-spo2-below'; value: number }
+  /** pregnancy beyond the given weeks; not asked of a male patient or outside ages 10–59 */
+  | { kind: 'pregnancy-above'; weeks: number }
+  | { kind: 'any'; of: readonly Condition[] }
+  | { kind: 'all'; of: readonly Condition[] };
+
+export interface NemsisCode {
+  element: 'eInjury.03' | 'eInjury.04';
+  code: string;
+}
+
+export interface Criterion {
+  /** Stable and unique across sets and the policy catalog: `<set>:<name>`. */
+  id: string;
+  set: CriterionSetId;
+  category: CriterionCategory;
+  /** The guideline's risk block; null for policy-catalog conditions, which carry no field risk. */
+  tier: RiskTier | null;
+  label: string;
+  source: string;
+  /** Only where CLINICAL.md gives the code; never guessed. */
+  nemsis: NemsisCode | null;
+  when: Condition;
+  note?: string;
+}
+
+export interface CriteriaSet {
+  id: CriteriaSetId;
+  name: string;
+  source: string;
+  criteria: readonly Criterion[];
+}

@@ -1,0 +1,166 @@
+import type { ClinicalInput } from '../schemas/clinical';
+import { fallImpact, type Impact } from '../physics/impact';
+import { CRITERIA_SETS, DEFAULT_SET, compiledCriterion } from './catalog';
+import type { CompiledCriterion } from './compile-criteria';
+import type { CriteriaSetId, CriterionSetId, NemsisCode, RiskTier } from './criteria';
+import { MET, UNKNOWN, createFacts, readFacts } from './facts';
+import { MISSING_INPUTS, type MissingInput } from './missing-inputs';
+import { EXAMPLE_POLICY, type LevelId, type Policy } from './policy';
+
+export type FieldRisk = RiskTier | 'none';
+
+export interface FiredCriterion {
+  id: string;
+  set: CriterionSetId;
+  /** The guideline's risk block; null for a policy-catalog condition. */
+  tier: RiskTier | null;
+  label: string;
+  /** The recorded values that met it: "SBP 84 < 90, age 34 (10–64)". */
+  because: string;
+  source: string;
+  /** The level the policy's first rule naming this criterion calls; null when the policy does not name it. */
+  calls: LevelId | null;
+  nemsis: NemsisCode | null;
+}
+
+export interface Evaluation {
+  set: CriteriaSetId;
+  fieldRisk: FieldRisk;
+  activation: LevelId;
+  /** The policy's display name for the level. */
+  activationName: string;
+  /** Met criteria of the chosen set, then met criteria the policy names from elsewhere. */
+  criteria: FiredCriterion[];
+  /**
+   * Unknown inputs that could raise the result: each belongs to a criterion left unknown whose
+   * tier is above the current fieldRisk, or that a rule above the matching one names. An unknown
+   * that could only add reasons at the level already reached is not listed.
+   */
+  missing: MissingInput[];
+  impact: Impact;
+  policy: { id: string; version: number; example: boolean };
+}
+
+export interface EvaluateOptions {
+  set?: CriteriaSetId;
+  /** Any policy, a draft included: a what-if is this call over past inputs. Treat it as immutable. */
+  policy?: Policy;
+}
+
+interface Plan {
+  members: CompiledCriterion[];
+  setCount: number;
+  calls: (LevelId | null)[];
+  /** Per member, the index of the first rule naming it; rules.length when none does. */
+  firstRule: Int32Array;
+  ruleMembers: Int32Array[];
+  ruleLevel: LevelId[];
+  levelName: Record<LevelId, string>;
+  policyRef: Evaluation['policy'];
+  states: Uint8Array;
+}
+
+// Compiled once per policy object and set; a policy edited in place would keep its old plan.
+const plans = new WeakMap<Policy, Partial<Record<CriteriaSetId, Plan>>>();
+
+function buildPlan(setId: CriteriaSetId, policy: Policy): Plan {
+  const set = CRITERIA_SETS[setId];
+  if (!set) throw new Error(`unknown criteria set ${setId}`);
+  const members: CompiledCriterion[] = set.criteria.map((c) => compiledCriterion(c.id)!);
+  const position = new Map(members.map((m, i) => [m.criterion.id, i]));
+  const setCount = members.length;
+  const ruleMembers = policy.rules.map((rule) =>
+    Int32Array.from(rule.criteria, (id) => {
+      let i = position.get(id);
+      if (i === undefined) {
+        const compiled = compiledCriterion(id);
+        if (!compiled) throw new Error(`policy ${policy.id} version ${policy.version}: unknown criterion id ${id}`);
+        i = members.push(compiled) - 1;
+        position.set(id, i);
+      }
+      return i;
+    }),
+  );
+  const firstRule = new Int32Array(members.length).fill(policy.rules.length);
+  const calls: (LevelId | null)[] = members.map(() => null);
+  for (let r = ruleMembers.length - 1; r >= 0; r--) {
+    for (const i of ruleMembers[r]) {
+      firstRule[i] = r;
+      calls[i] = policy.rules[r].level;
+    }
+  }
+  const levelName = { full: 'full', limited: 'limited', consult: 'consult', none: 'none' } as Record<LevelId, string>;
+  for (const level of policy.levels) levelName[level.id] = level.name;
+  return {
+    members, setCount, calls, firstRule, ruleMembers,
+    ruleLevel: policy.rules.map((r) => r.level),
+    levelName,
+    policyRef: Object.freeze({ id: policy.id, version: policy.version, example: policy.example }),
+    states: new Uint8Array(members.length),
+  };
+}
+
+function planFor(setId: CriteriaSetId, policy: Policy): Plan {
+  let bySet = plans.get(policy);
+  if (!bySet) plans.set(policy, (bySet = {}));
+  return (bySet[setId] ??= buildPlan(setId, policy));
+}
+
+const facts = createFacts();
+const RISK: readonly FieldRisk[] = ['none', 'moderate', 'high'];
+
+/** The input is trusted to have passed ClinicalInput; parse at the boundary, not here. */
+export function evaluate(input: ClinicalInput, options: EvaluateOptions = {}): Evaluation {
+  const plan = planFor(options.set ?? DEFAULT_SET, options.policy ?? EXAMPLE_POLICY);
+  const f = readFacts(input, facts);
+  const { members, states, setCount, ruleMembers, firstRule, calls } = plan;
+  const n = members.length;
+
+  let risk = 0;
+  for (let i = 0; i < n; i++) {
+    const s = members[i].test(f);
+    states[i] = s;
+    if (s === MET && i < setCount && members[i].tierRank > risk) risk = members[i].tierRank;
+  }
+
+  let matched = ruleMembers.length;
+  search: for (let r = 0; r < ruleMembers.length; r++) {
+    const rule = ruleMembers[r];
+    for (let k = 0; k < rule.length; k++) {
+      if (states[rule[k]] === MET) {
+        matched = r;
+        break search;
+      }
+    }
+  }
+  const activation: LevelId = matched < ruleMembers.length ? plan.ruleLevel[matched] : 'none';
+
+  const criteria: FiredCriterion[] = [];
+  let missingBits = 0;
+  for (let i = 0; i < n; i++) {
+    const s = states[i];
+    if (s === MET) {
+      if (i >= setCount && calls[i] === null) continue;
+      const m = members[i];
+      const c = m.criterion;
+      criteria.push({
+        id: c.id, set: c.set, tier: c.tier, label: c.label, because: m.explain(f), source: c.source, calls: calls[i], nemsis: c.nemsis,
+      });
+    } else if (s === UNKNOWN && ((i < setCount && members[i].tierRank > risk) || firstRule[i] < matched)) {
+      missingBits |= members[i].missing(f);
+    }
+  }
+  const missing: MissingInput[] = [];
+  for (let b = 0; missingBits !== 0; b++, missingBits >>>= 1) if (missingBits & 1) missing.push(MISSING_INPUTS[b]);
+
+  return {
+    set: options.set ?? DEFAULT_SET,
+    fieldRisk: RISK[risk],
+    activation,
+    activationName: plan.levelName[activation],
+    criteria,
+    missing,
+    impact: fallImpact(input.fall.heightM, input.fall.surface, input.weightKg),
+    policy: plan.policyRef,
+  };
+}
