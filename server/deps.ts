@@ -3,6 +3,7 @@ import type { Knex } from 'knex';
 import type { Logger } from 'pino';
 import type { Config } from './config';
 import type { Mailer } from './mail';
+import type { RealtimeServer } from './realtime';
 
 export interface Clock { now(): number }
 export const systemClock: Clock = { now: () => Date.now() };
@@ -17,4 +18,6 @@ export interface AppDeps {
   /** The origin people reach, without a trailing slash. */
   publicUrl: string;
   sessionMiddleware: RequestHandler;
+  /** socket.io, for broadcasting to hospital and agency rooms after a change commits. */
+  io: RealtimeServer;
 }

@@ -10,7 +10,7 @@ import { systemClock, type AppDeps, type Clock } from './deps';
 import { createSessionMiddleware } from './auth/session';
 import { createLocalIdp } from './idp/provider';
 import { createMailer, type Mailer } from './mail';
-import { createRealtime, type RealtimeServer } from './realtime';
+import { attachSocketFeatures, createRealtime, type RealtimeServer } from './realtime';
 import { socketFeatures } from './realtime/features';
 import { backgroundJobs } from './services/jobs';
 import { isEmpty, seedDemo } from './services/seed';
@@ -59,7 +59,9 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
 
   const mailer = opts.mailer ?? (await createMailer({ smtpUrl: config.smtpUrl, from: config.mailFrom, db, logger, clock }));
   const sessionMiddleware = createSessionMiddleware({ db, secret: config.sessionSecret, secure: publicUrl.startsWith('https://') });
-  const deps: AppDeps = { config, db, logger, clock, mailer, publicUrl, sessionMiddleware };
+  const io = createRealtime({ httpServer: http, sessionMiddleware, db, logger, publicOrigin: new URL(publicUrl).origin });
+  const deps: AppDeps = { config, db, logger, clock, mailer, publicUrl, sessionMiddleware, io };
+  attachSocketFeatures(io, socketFeatures(deps));
 
   const idp = config.oidc.issuer
     ? undefined
@@ -81,8 +83,7 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
 
   const app = createApp({ ...deps, issuer, idpRouter: idp?.router, vite });
   http.on('request', app);
-  const io = createRealtime({ httpServer: http, sessionMiddleware, db, logger, publicOrigin: new URL(publicUrl).origin, features: socketFeatures(deps) });
-  const jobs = backgroundJobs({ ...deps, io });
+  const jobs = backgroundJobs(deps);
 
   let closed = false;
   return {

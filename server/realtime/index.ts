@@ -34,7 +34,6 @@ export function createRealtime(opts: {
   db: Knex;
   logger: Logger;
   publicOrigin: string;
-  features: SocketFeature[];
 }): RealtimeServer {
   const io: RealtimeServer = new Server(opts.httpServer, {
     serveClient: false,
@@ -67,7 +66,13 @@ export function createRealtime(opts: {
       if (typeof ack !== 'function') return;
       ack({ ok: true, data: { rooms: [...socket.rooms].filter((room) => room !== socket.id) } });
     });
-    for (const feature of opts.features) feature(io, socket);
   });
   return io;
+}
+
+/** Features register after the dependencies exist; each sees every authenticated connection. */
+export function attachSocketFeatures(io: RealtimeServer, features: SocketFeature[]): void {
+  io.on('connection', (socket) => {
+    for (const feature of features) feature(io, socket);
+  });
 }

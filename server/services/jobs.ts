@@ -1,10 +1,9 @@
 import type { AppDeps } from '../deps';
-import type { RealtimeServer } from '../realtime';
 
 export interface Job { stop(): void }
 
 /** Work the server does on its own clock (escalations, say). Each job returns a way to stop it. */
-export function backgroundJobs(_deps: AppDeps & { io: RealtimeServer }): Job {
+export function backgroundJobs(_deps: AppDeps): Job {
   const jobs: Job[] = [];
   return { stop: () => jobs.forEach((job) => job.stop()) };
 }
