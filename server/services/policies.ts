@@ -1,8 +1,8 @@
 import type { Knex } from 'knex';
 import { EXAMPLE_POLICY, Policy } from '../../shared/triage/policy';
 
-// A published version never changes, so its parsed form can be kept; the engine compiles a
-// policy once per object, and this keeps it the same object.
+// The engine compiles a policy once per object; keyed by the stored text, the same version
+// stays the same object across evaluations.
 const publishedCache = new Map<string, Policy>();
 
 /**
@@ -14,12 +14,12 @@ export async function policyInForce(db: Knex, hospitalId: number, at: number): P
     .where({ hospital_id: hospitalId, status: 'published' })
     .andWhere('effective_from', '<=', at)
     .orderBy([{ column: 'effective_from', order: 'desc' }, { column: 'version', order: 'desc' }])
-    .first('id', 'document');
+    .first('document');
   if (!row) return EXAMPLE_POLICY;
-  let policy = publishedCache.get(String(row.id));
+  let policy = publishedCache.get(row.document);
   if (!policy) {
     policy = Policy.parse(JSON.parse(row.document));
-    publishedCache.set(String(row.id), policy);
+    publishedCache.set(row.document, policy);
   }
   return policy;
 }
