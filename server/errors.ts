@@ -5,7 +5,9 @@ import { messagePage } from './idp/pages';
 
 const pageFor = (error: AppError) => messagePage(error.status === 404 ? 'Not found' : 'Something went wrong', error.message, { href: '/', label: 'Back to Plumbline' });
 
-export interface FieldIssue { field: string; message: string }
+import { describeIssues, type FieldIssue } from '../shared/schemas/issues';
+
+export type { FieldIssue };
 
 /** An error whose code and message are safe to show to the user. */
 export class AppError extends Error {
@@ -24,12 +26,7 @@ export const forbidden = (why = 'Your role does not allow this.') => new AppErro
 export const notFound = (what = 'That record') => new AppError(404, 'not_found', `${what} was not found.`);
 export const conflict = (message: string) => new AppError(409, 'conflict', message);
 
-export function zodIssues(error: z.ZodError): FieldIssue[] {
-  return error.issues.map((issue) => ({
-    field: issue.path.map(String).join('.') || '(body)',
-    message: issue.message,
-  }));
-}
+export const zodIssues = (error: z.ZodError): FieldIssue[] => describeIssues(error);
 
 export function invalid(issues: FieldIssue[]): AppError {
   const first = issues[0];

@@ -3,6 +3,7 @@ import type { AppDeps } from '../deps';
 import { healthRouter } from './health';
 import { meRouter } from './me';
 import { mailRouter } from './mail';
+import { casesRouter } from './cases';
 
 /** Every API router, in mounting order. A new resource adds its router here. */
-export const apiRouters: Array<(deps: AppDeps) => Router> = [healthRouter, meRouter, mailRouter];
+export const apiRouters: Array<(deps: AppDeps) => Router> = [healthRouter, meRouter, mailRouter, casesRouter];

@@ -1,0 +1,61 @@
+import type { z } from 'zod';
+import { CaseCancel, CaseRedirect, PreAlert, PreAlertUpdate } from '../../shared/schemas/cases';
+import type { Ack } from '../../shared/realtime/events';
+import type { AppDeps } from '../deps';
+import { forbidden, parseOr400 } from '../errors';
+import { hasRole } from '../auth/guards';
+import { cancelCase, caseSummary, redirectCase, reviseCase, submitPreAlert } from '../services/cases';
+import { ackError, type SocketFeature } from './index';
+import { announceCase, announceRemoved } from './broadcast';
+
+/** The ambulance's commands: every one checks the role, validates with the shared schema, and acknowledges. */
+export function caseCommands(deps: AppDeps): SocketFeature {
+  const { db, clock, logger } = deps;
+  return (io, socket) => {
+    function command<S extends z.ZodType, T>(event: string, schema: S, run: (payload: z.infer<S>) => Promise<T>) {
+      socket.on(event as never, (async (raw: unknown, ack: Ack<T>) => {
+        if (typeof ack !== 'function') return;
+        try {
+          const me = socket.data.me;
+          if (!hasRole(me, 'paramedic')) throw forbidden('Only a paramedic sends pre-alerts and updates.');
+          ack({ ok: true, data: await run(parseOr400(schema, raw)) });
+        } catch (err) {
+          ack(ackError(err, logger));
+        }
+      }) as never);
+    }
+    const actor = () => ({ me: socket.data.me, role: 'paramedic' as const });
+
+    command('case:submit', PreAlert, async (payload) => {
+      const { caseId, created } = await submitPreAlert(db, clock, actor(), payload);
+      const summary = await caseSummary(db, caseId);
+      // Committed before the acknowledgement; announced after it, once.
+      if (created) queueMicrotask(() => announceCase(io, summary, 'submitted'));
+      return { caseId, caseNumber: summary.caseNumber, created, summary };
+    });
+
+    command('case:update', PreAlertUpdate, async (payload) => {
+      const { caseId, rose } = await reviseCase(db, clock, actor(), payload);
+      const summary = await caseSummary(db, caseId);
+      queueMicrotask(() => announceCase(io, summary, { kind: 'revised', at: summary.updatedAt, by: socket.data.me.user.name, rose }));
+      return { summary, rose };
+    });
+
+    command('case:cancel', CaseCancel, async (payload) => {
+      const { caseId } = await cancelCase(db, clock, actor(), payload);
+      const summary = await caseSummary(db, caseId);
+      queueMicrotask(() => announceCase(io, summary, { kind: 'cancelled', at: summary.updatedAt, by: socket.data.me.user.name }));
+      return { summary };
+    });
+
+    command('case:redirect', CaseRedirect, async (payload) => {
+      const { caseId, fromHospitalId } = await redirectCase(db, clock, actor(), payload);
+      const summary = await caseSummary(db, caseId);
+      queueMicrotask(() => {
+        announceRemoved(io, fromHospitalId, summary, `Redirected to ${summary.hospital.name}: ${payload.reason}`);
+        announceCase(io, summary, 'submitted');
+      });
+      return { summary };
+    });
+  };
+}

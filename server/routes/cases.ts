@@ -1,0 +1,29 @@
+import { Router } from 'express';
+import { z } from 'zod';
+import { OPEN_STATES } from '../../shared/schemas/cases';
+import type { AppDeps } from '../deps';
+import { agencyIdsOf, hospitalIdsOf, requireRole, requireUser } from '../auth/guards';
+import { parseOr400 } from '../errors';
+import { caseEvents, caseForReader, caseRevisions, caseSummary, listCaseSummaries } from '../services/cases';
+
+const CaseListQuery = z.object({ state: z.enum(['open', 'all']).default('open') });
+const CaseId = z.object({ id: z.coerce.number({ error: 'must be a case number' }).int().positive() });
+
+// Crews read their agency's cases; ED staff read their hospital's. Writes go over the socket.
+const readers = ['paramedic', 'charge_nurse', 'trauma_lead', 'quality', 'admin'] as const;
+
+export function casesRouter({ db, clock }: AppDeps): Router {
+  const router = Router();
+  router.get('/api/cases', requireUser(db), requireRole(...readers), async (req, res) => {
+    const { state } = parseOr400(CaseListQuery, req.query);
+    const me = req.me!;
+    const cases = await listCaseSummaries(db, { hospitalIds: hospitalIdsOf(me), agencyIds: agencyIdsOf(me), states: state === 'open' ? OPEN_STATES : undefined });
+    res.json({ cases, at: clock.now() });
+  });
+  router.get('/api/cases/:id', requireUser(db), requireRole(...readers), async (req, res) => {
+    const { id } = parseOr400(CaseId, req.params);
+    await caseForReader(db, req.me!, id);
+    res.json({ case: await caseSummary(db, id), revisions: await caseRevisions(db, id), events: await caseEvents(db, id) });
+  });
+  return router;
+}

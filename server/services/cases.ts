@@ -1,0 +1,341 @@
+import type { Knex } from 'knex';
+import type { Me, Role } from '../../shared/roles';
+import type { CaseCancel, CaseEventView, CaseRedirect, CaseState, CaseSummary, PreAlert, PreAlertUpdate } from '../../shared/schemas/cases';
+import type { ClinicalInput } from '../../shared/schemas/clinical';
+import { evaluate, type Evaluation } from '../../shared/triage/evaluate';
+import { LEVEL_RANK, type LevelId } from '../../shared/triage/policy';
+import { agencyIdsOf, hospitalIdsOf } from '../auth/guards';
+import type { Clock } from '../deps';
+import { conflict, forbidden, invalid, notFound } from '../errors';
+import { recordCaseEvent, type Actor } from './audit';
+import { policyInForce } from './policies';
+
+export interface CaseActor { me: Me; role: Role }
+const actorOf = (a: CaseActor): Actor => ({ id: a.me.user.id, role: a.role });
+
+interface CaseRow {
+  id: number; case_number: string; client_id: string; agency_id: number; unit_id: number | null; hospital_id: number;
+  created_by: number; state: CaseState; current_revision: number; eta_at: number | null; field_risk: string;
+  recommended_level: LevelId; level_rose: number | boolean; decided_level: LevelId | null; decided_reason: string | null;
+  decided_by: number | null; decided_at: number | null; acknowledged_by: number | null; acknowledged_at: number | null;
+  bay: string | null; paged_at: number | null; arrived_at: number | null; team_at_bedside_at: number | null;
+  closed_at: number | null; cancelled_at: number | null; cancel_reason: string | null; overdue_at: number | null;
+  policy_id: string; policy_version: number; created_at: number; updated_at: number; row_version: number;
+}
+
+const num = (v: unknown) => (v == null ? null : Number(v));
+
+export const caseNumberOf = (id: number, createdAt: number) => `P${String(new Date(createdAt).getUTCFullYear()).slice(2)}-${String(id).padStart(5, '0')}`;
+
+/** Who may read a case: the destination hospital's people and the sending agency's people. */
+export function canRead(me: Me, row: Pick<CaseRow, 'hospital_id' | 'agency_id'>): boolean {
+  return hospitalIdsOf(me).includes(row.hospital_id) || agencyIdsOf(me).includes(row.agency_id);
+}
+
+export async function loadCaseRow(db: Knex, caseId: number): Promise<CaseRow> {
+  const row = await db<CaseRow>('cases').where({ id: caseId }).first();
+  if (!row) throw notFound('That case');
+  return row;
+}
+
+/** The case, if this person may read it: 404 when there is none, 403 when it is another's. */
+export async function caseForReader(db: Knex, me: Me, caseId: number): Promise<CaseRow> {
+  const row = await loadCaseRow(db, caseId);
+  if (!canRead(me, row)) throw forbidden('That case belongs to another hospital or agency.');
+  return row;
+}
+
+/** The case, if it is this paramedic's agency's and still open. */
+async function caseForCrew(db: Knex, me: Me, caseId: number): Promise<CaseRow> {
+  const row = await loadCaseRow(db, caseId);
+  if (!agencyIdsOf(me).includes(row.agency_id)) throw forbidden('That case belongs to another ambulance agency.');
+  if (row.state === 'closed' || row.state === 'cancelled') throw conflict(`Case ${row.case_number} is ${row.state}; it can no longer be changed.`);
+  return row;
+}
+
+async function agencyForDestination(db: Knex, me: Me, hospitalId: number, unitId: number | null | undefined): Promise<{ agencyId: number }> {
+  const agencies = agencyIdsOf(me);
+  if (!agencies.length) throw forbidden('You are not a member of any ambulance agency.');
+  const served = await db('agency_hospitals').whereIn('agency_id', agencies).andWhere({ hospital_id: hospitalId }).select('agency_id');
+  if (!served.length) throw invalid([{ field: 'hospitalId', message: 'is not a destination of your agency' }]);
+  const candidates = served.map((row) => row.agency_id as number);
+  if (unitId != null) {
+    const unit = await db('units').where({ id: unitId }).first('agency_id', 'active');
+    if (!unit || !candidates.includes(unit.agency_id) || !unit.active) throw invalid([{ field: 'unitId', message: 'is not an active unit of your agency' }]);
+    return { agencyId: unit.agency_id };
+  }
+  return { agencyId: candidates[0] };
+}
+
+async function evaluateFor(db: Knex, hospitalId: number, clinical: ClinicalInput, at: number): Promise<Evaluation> {
+  return evaluate(clinical, { policy: await policyInForce(db, hospitalId, at) });
+}
+
+const isUniqueViolation = (err: unknown) => /UNIQUE constraint failed|duplicate key value/i.test(String((err as Error)?.message));
+
+/**
+ * Stores a new pre-alert and its first revision, evaluated under the destination's policy in
+ * force. The same clientId again returns the case already made: a retry never makes a second.
+ */
+export async function submitPreAlert(db: Knex, clock: Clock, actor: CaseActor, payload: PreAlert): Promise<{ caseId: number; created: boolean }> {
+  const existing = await db('cases').where({ client_id: payload.clientId }).first('id', 'agency_id');
+  if (existing) {
+    if (!agencyIdsOf(actor.me).includes(existing.agency_id)) throw conflict('That pre-alert id is already in use.');
+    return { caseId: existing.id, created: false };
+  }
+  const { agencyId } = await agencyForDestination(db, actor.me, payload.hospitalId, payload.unitId);
+  const at = clock.now();
+  const result = await evaluateFor(db, payload.hospitalId, payload.clinical, at);
+  try {
+    const caseId = await db.transaction(async (trx) => {
+      const [inserted] = await trx('cases')
+        .insert({
+          case_number: payload.clientId,
+          client_id: payload.clientId,
+          agency_id: agencyId,
+          unit_id: payload.unitId ?? null,
+          hospital_id: payload.hospitalId,
+          created_by: actor.me.user.id,
+          state: 'en-route',
+          current_revision: 1,
+          eta_at: payload.etaMinutes == null ? null : at + payload.etaMinutes * 60_000,
+          field_risk: result.fieldRisk,
+          recommended_level: result.activation,
+          level_rose: false,
+          policy_id: result.policy.id,
+          policy_version: result.policy.version,
+          created_at: at,
+          updated_at: at,
+        })
+        .returning('id');
+      const id = inserted.id as number;
+      await trx('cases').where({ id }).update({ case_number: caseNumberOf(id, at) });
+      await insertRevision(trx, id, 1, payload.clinical, result, payload.etaMinutes ?? null, payload.notes ?? null, actor.me.user.id, at);
+      await recordCaseEvent(trx, {
+        caseId: id,
+        kind: 'received',
+        actor: actorOf(actor),
+        at,
+        data: { revision: 1, fieldRisk: result.fieldRisk, activation: result.activation, criteria: result.criteria.map((c) => c.id), hospitalId: payload.hospitalId, etaMinutes: payload.etaMinutes ?? null },
+        policy: result.policy,
+      });
+      return id;
+    });
+    return { caseId, created: true };
+  } catch (err) {
+    // Two sends of the same pre-alert raced; the first one made the case.
+    if (isUniqueViolation(err)) {
+      const raced = await db('cases').where({ client_id: payload.clientId }).first('id');
+      if (raced) return { caseId: raced.id, created: false };
+    }
+    throw err;
+  }
+}
+
+async function insertRevision(db: Knex, caseId: number, revision: number, input: ClinicalInput, result: Evaluation, etaMinutes: number | null, notes: string | null, userId: number, at: number) {
+  await db('case_revisions').insert({
+    case_id: caseId,
+    revision,
+    input: JSON.stringify(input),
+    result: JSON.stringify(result),
+    criteria_set: result.set,
+    policy_id: result.policy.id,
+    policy_version: result.policy.version,
+    field_risk: result.fieldRisk,
+    activation: result.activation,
+    eta_minutes: etaMinutes,
+    notes,
+    created_by: userId,
+    created_at: at,
+  });
+}
+
+/** An update en route: a new revision, evaluated again; a rising recommendation is flagged. */
+export async function reviseCase(db: Knex, clock: Clock, actor: CaseActor, payload: PreAlertUpdate): Promise<{ caseId: number; rose: boolean; from: LevelId; to: LevelId }> {
+  const row = await caseForCrew(db, actor.me, payload.caseId);
+  const at = clock.now();
+  const result = await evaluateFor(db, row.hospital_id, payload.clinical, at);
+  const from = row.recommended_level;
+  const rose = LEVEL_RANK[result.activation] > LEVEL_RANK[from];
+  await db.transaction(async (trx) => {
+    const revision = row.current_revision + 1;
+    const changed = await trx('cases')
+      .where({ id: row.id, row_version: row.row_version })
+      .update({
+        current_revision: revision,
+        field_risk: result.fieldRisk,
+        recommended_level: result.activation,
+        level_rose: rose || Boolean(row.level_rose),
+        eta_at: payload.etaMinutes === undefined ? row.eta_at : payload.etaMinutes === null ? null : at + payload.etaMinutes * 60_000,
+        policy_id: result.policy.id,
+        policy_version: result.policy.version,
+        updated_at: at,
+        row_version: row.row_version + 1,
+      });
+    if (!changed) throw conflict('The case changed while this update was sent; send it again.');
+    await insertRevision(trx, row.id, revision, payload.clinical, result, payload.etaMinutes ?? null, payload.notes ?? null, actor.me.user.id, at);
+    await recordCaseEvent(trx, {
+      caseId: row.id,
+      kind: 'revised',
+      actor: actorOf(actor),
+      at,
+      data: { revision, from, to: result.activation, rose, fieldRisk: result.fieldRisk, criteria: result.criteria.map((c) => c.id), etaMinutes: payload.etaMinutes ?? null },
+      policy: result.policy,
+    });
+  });
+  return { caseId: row.id, rose, from, to: result.activation };
+}
+
+export async function cancelCase(db: Knex, clock: Clock, actor: CaseActor, payload: CaseCancel): Promise<{ caseId: number }> {
+  const row = await caseForCrew(db, actor.me, payload.caseId);
+  const at = clock.now();
+  await db.transaction(async (trx) => {
+    const changed = await trx('cases').where({ id: row.id, row_version: row.row_version }).update({ state: 'cancelled', cancelled_at: at, cancel_reason: payload.reason, updated_at: at, row_version: row.row_version + 1 });
+    if (!changed) throw conflict('The case changed at the same moment; look again before cancelling.');
+    await recordCaseEvent(trx, { caseId: row.id, kind: 'cancelled', actor: actorOf(actor), at, before: { state: row.state }, data: { state: 'cancelled', reason: payload.reason } });
+  });
+  return { caseId: row.id };
+}
+
+/** Sends the case to another ED: a fresh start there (not acknowledged), evaluated under its policy. */
+export async function redirectCase(db: Knex, clock: Clock, actor: CaseActor, payload: CaseRedirect): Promise<{ caseId: number; fromHospitalId: number }> {
+  const row = await caseForCrew(db, actor.me, payload.caseId);
+  if (row.hospital_id === payload.hospitalId) throw invalid([{ field: 'hospitalId', message: 'is already this case’s destination' }]);
+  const served = await db('agency_hospitals').where({ agency_id: row.agency_id, hospital_id: payload.hospitalId }).first();
+  if (!served) throw invalid([{ field: 'hospitalId', message: 'is not a destination of your agency' }]);
+  const latest = await db('case_revisions').where({ case_id: row.id, revision: row.current_revision }).first('input', 'eta_minutes', 'notes');
+  const input = JSON.parse(latest.input) as ClinicalInput;
+  const at = clock.now();
+  const result = await evaluateFor(db, payload.hospitalId, input, at);
+  await db.transaction(async (trx) => {
+    const revision = row.current_revision + 1;
+    const changed = await trx('cases').where({ id: row.id, row_version: row.row_version }).update({
+      hospital_id: payload.hospitalId,
+      state: 'en-route',
+      current_revision: revision,
+      field_risk: result.fieldRisk,
+      recommended_level: result.activation,
+      level_rose: false,
+      decided_level: null, decided_reason: null, decided_by: null, decided_at: null,
+      acknowledged_by: null, acknowledged_at: null, bay: null, paged_at: null, overdue_at: null,
+      policy_id: result.policy.id,
+      policy_version: result.policy.version,
+      updated_at: at,
+      row_version: row.row_version + 1,
+    });
+    if (!changed) throw conflict('The case changed at the same moment; look again before redirecting.');
+    await insertRevision(trx, row.id, revision, input, result, latest.eta_minutes, latest.notes, actor.me.user.id, at);
+    await recordCaseEvent(trx, {
+      caseId: row.id,
+      kind: 'redirected',
+      actor: actorOf(actor),
+      at,
+      before: { hospitalId: row.hospital_id, state: row.state },
+      data: { hospitalId: payload.hospitalId, reason: payload.reason, revision, activation: result.activation },
+      policy: result.policy,
+    });
+  });
+  return { caseId: row.id, fromHospitalId: row.hospital_id };
+}
+
+export interface CaseFilter {
+  hospitalIds?: number[];
+  agencyIds?: number[];
+  states?: readonly CaseState[];
+  ids?: number[];
+  limit?: number;
+}
+
+/** Case summaries in arrival order (no ETA last), in three queries whatever the count. */
+export async function listCaseSummaries(db: Knex, filter: CaseFilter): Promise<CaseSummary[]> {
+  const query = db('cases as c')
+    .join('hospitals as h', 'h.id', 'c.hospital_id')
+    .join('agencies as a', 'a.id', 'c.agency_id')
+    .leftJoin('units as u', 'u.id', 'c.unit_id')
+    .leftJoin('users as ack', 'ack.id', 'c.acknowledged_by')
+    .leftJoin('users as dec', 'dec.id', 'c.decided_by')
+    .select('c.*', 'h.name as hospital_name', 'h.height_unit', 'a.name as agency_name', 'u.call_sign', 'ack.name as acknowledged_by_name', 'dec.name as decided_by_name');
+  if (filter.ids) query.whereIn('c.id', filter.ids);
+  if (filter.states) query.whereIn('c.state', filter.states as CaseState[]);
+  if (filter.hospitalIds || filter.agencyIds) {
+    query.where((w) => {
+      if (filter.hospitalIds) w.orWhereIn('c.hospital_id', filter.hospitalIds);
+      if (filter.agencyIds) w.orWhereIn('c.agency_id', filter.agencyIds);
+    });
+  }
+  query.orderByRaw('c.eta_at IS NULL, c.eta_at, c.created_at').limit(filter.limit ?? 500);
+  const rows = await query;
+  if (!rows.length) return [];
+  const ids = rows.map((r) => r.id as number);
+  const revisions = await db('case_revisions as r')
+    .join('cases as c', function () {
+      this.on('c.id', '=', 'r.case_id').andOn(function () {
+        this.on('r.revision', '=', 'c.current_revision').orOn('r.revision', '=', db.raw('1'));
+      });
+    })
+    .leftJoin('users as by', 'by.id', 'r.created_by')
+    .whereIn('r.case_id', ids)
+    .select('r.case_id', 'r.revision', 'r.input', 'r.result', 'r.eta_minutes', 'r.notes', 'r.created_at', 'by.name as created_by_name', 'c.current_revision');
+  const latest = new Map<number, (typeof revisions)[number]>();
+  const first = new Map<number, (typeof revisions)[number]>();
+  for (const rev of revisions) {
+    if (rev.revision === rev.current_revision) latest.set(rev.case_id, rev);
+    if (rev.revision === 1) first.set(rev.case_id, rev);
+  }
+  return rows.map((row) => {
+    const rev = latest.get(row.id)!;
+    const result = JSON.parse(rev.result) as Evaluation;
+    const firstInput = JSON.parse((first.get(row.id) ?? rev).input) as ClinicalInput;
+    return {
+      id: row.id,
+      caseNumber: row.case_number,
+      clientId: row.client_id,
+      state: row.state,
+      hospital: { id: row.hospital_id, name: row.hospital_name, heightUnit: row.height_unit },
+      agency: { id: row.agency_id, name: row.agency_name },
+      unit: row.unit_id == null ? null : { id: row.unit_id, callSign: row.call_sign },
+      createdAt: Number(row.created_at),
+      updatedAt: Number(row.updated_at),
+      etaAt: num(row.eta_at),
+      revision: row.current_revision,
+      latest: { revision: rev.revision, input: JSON.parse(rev.input), result, etaMinutes: rev.eta_minutes, notes: rev.notes, createdAt: Number(rev.created_at), createdBy: rev.created_by_name },
+      firstVitals: firstInput.vitals ?? null,
+      fieldRisk: row.field_risk,
+      recommendedLevel: row.recommended_level,
+      levelRose: Boolean(row.level_rose),
+      decidedLevel: row.decided_level,
+      decidedReason: row.decided_reason,
+      decidedAt: num(row.decided_at),
+      decidedBy: row.decided_by_name ?? null,
+      acknowledgedAt: num(row.acknowledged_at),
+      acknowledgedBy: row.acknowledged_by_name ?? null,
+      bay: row.bay,
+      pagedAt: num(row.paged_at),
+      arrivedAt: num(row.arrived_at),
+      teamAtBedsideAt: num(row.team_at_bedside_at),
+      closedAt: num(row.closed_at),
+      cancelledAt: num(row.cancelled_at),
+      cancelReason: row.cancel_reason,
+      overdueAt: num(row.overdue_at),
+      policy: { id: row.policy_id, version: row.policy_version, example: result.policy.example },
+      rowVersion: row.row_version,
+    } satisfies CaseSummary;
+  });
+}
+
+export async function caseSummary(db: Knex, caseId: number): Promise<CaseSummary> {
+  const [summary] = await listCaseSummaries(db, { ids: [caseId] });
+  if (!summary) throw notFound('That case');
+  return summary;
+}
+
+export async function caseRevisions(db: Knex, caseId: number) {
+  const rows = await db('case_revisions as r').leftJoin('users as u', 'u.id', 'r.created_by').where('r.case_id', caseId).orderBy('r.revision').select('r.*', 'u.name as created_by_name');
+  return rows.map((r) => ({ revision: r.revision, input: JSON.parse(r.input) as ClinicalInput, result: JSON.parse(r.result) as Evaluation, etaMinutes: r.eta_minutes, notes: r.notes, createdAt: Number(r.created_at), createdBy: r.created_by_name }));
+}
+
+export async function caseEvents(db: Knex, caseId: number): Promise<CaseEventView[]> {
+  const rows = await db('case_events as e').leftJoin('users as u', 'u.id', 'e.actor_id').where('e.case_id', caseId).orderBy([{ column: 'e.at' }, { column: 'e.id' }]).select('e.*', 'u.name as actor_name');
+  return rows.map((r) => ({ id: r.id, kind: r.kind, at: Number(r.at), actor: r.actor_name ?? null, actorRole: r.actor_role, data: r.data ? JSON.parse(r.data) : null }));
+}
+

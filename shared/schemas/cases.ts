@@ -1,0 +1,97 @@
+import { z } from 'zod';
+import { ClinicalInput } from './clinical';
+import type { Evaluation } from '../triage/evaluate';
+import type { LevelId } from '../triage/policy';
+
+export const CASE_STATES = ['en-route', 'acknowledged', 'arrived', 'closed', 'cancelled'] as const;
+export type CaseState = (typeof CASE_STATES)[number];
+export const OPEN_STATES: readonly CaseState[] = ['en-route', 'acknowledged', 'arrived'];
+
+const id = (what: string) => z.number({ error: `must be the ${what}'s number` }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' });
+const eta = z.number({ error: 'must be a number of minutes' }).int({ error: 'must be whole minutes' }).min(0, { error: 'must be at least 0' }).max(600, { error: 'must be at most 600 minutes' });
+const notes = z.string({ error: 'must be text' }).max(2000, { error: 'must be at most 2000 characters' });
+const reason = z.string({ error: 'must be text' }).trim().min(3, { error: 'needs a few words' }).max(500, { error: 'must be at most 500 characters' });
+
+/** A new pre-alert from the ambulance; clientId is made in the browser so a retry is harmless. */
+export const PreAlert = z.object({
+  clientId: z.uuid({ error: 'must be a UUID made by the sending device' }),
+  hospitalId: id('destination hospital'),
+  unitId: id('unit').nullable().optional(),
+  etaMinutes: eta.nullable().optional(),
+  notes: notes.optional(),
+  clinical: ClinicalInput,
+});
+export type PreAlert = z.infer<typeof PreAlert>;
+
+/** New vitals, findings or ETA en route: a new revision, evaluated again. */
+export const PreAlertUpdate = z.object({
+  caseId: id('case'),
+  etaMinutes: eta.nullable().optional(),
+  notes: notes.optional(),
+  clinical: ClinicalInput,
+});
+export type PreAlertUpdate = z.infer<typeof PreAlertUpdate>;
+
+export const CaseCancel = z.object({ caseId: id('case'), reason });
+export type CaseCancel = z.infer<typeof CaseCancel>;
+
+export const CaseRedirect = z.object({ caseId: id('case'), hospitalId: id('destination hospital'), reason });
+export type CaseRedirect = z.infer<typeof CaseRedirect>;
+
+export interface CaseRevisionView {
+  revision: number;
+  input: ClinicalInput;
+  result: Evaluation;
+  etaMinutes: number | null;
+  notes: string | null;
+  createdAt: number;
+  createdBy: string;
+}
+
+/** What a board row and the paramedic's case card show; one shape for REST and socket. */
+export interface CaseSummary {
+  id: number;
+  caseNumber: string;
+  clientId: string;
+  state: CaseState;
+  hospital: { id: number; name: string; heightUnit: 'm' | 'ft' | 'storeys' };
+  agency: { id: number; name: string };
+  unit: { id: number; callSign: string } | null;
+  createdAt: number;
+  updatedAt: number;
+  etaAt: number | null;
+  revision: number;
+  latest: CaseRevisionView;
+  /** The first revision's vitals, for the trend since the first report. */
+  firstVitals: ClinicalInput['vitals'];
+  fieldRisk: Evaluation['fieldRisk'];
+  recommendedLevel: LevelId;
+  /** The recommendation rose at the latest update and nobody has acknowledged it since. */
+  levelRose: boolean;
+  decidedLevel: LevelId | null;
+  decidedReason: string | null;
+  decidedAt: number | null;
+  decidedBy: string | null;
+  acknowledgedAt: number | null;
+  acknowledgedBy: string | null;
+  bay: string | null;
+  pagedAt: number | null;
+  arrivedAt: number | null;
+  teamAtBedsideAt: number | null;
+  closedAt: number | null;
+  cancelledAt: number | null;
+  cancelReason: string | null;
+  overdueAt: number | null;
+  policy: { id: string; version: number; example: boolean };
+  /** Bumped on every change; an action sends the version it saw, so the first of two wins. */
+  rowVersion: number;
+}
+
+export interface CaseEventView {
+  id: number;
+  kind: string;
+  at: number;
+  actor: string | null;
+  actorRole: string | null;
+  data: unknown;
+}
