@@ -4,6 +4,8 @@ import { healthRouter } from './health';
 import { meRouter } from './me';
 import { mailRouter } from './mail';
 import { casesRouter } from './cases';
+import { policiesRouter } from './policies';
+import { peopleRouter } from './people';
 
 /** Every API router, in mounting order. A new resource adds its router here. */
-export const apiRouters: Array<(deps: AppDeps) => Router> = [healthRouter, meRouter, mailRouter, casesRouter];
+export const apiRouters: Array<(deps: AppDeps) => Router> = [healthRouter, meRouter, mailRouter, casesRouter, policiesRouter, peopleRouter];

@@ -1,0 +1,39 @@
+import { Router, type Request } from 'express';
+import { z } from 'zod';
+import type { AppDeps } from '../deps';
+import { requireRole, requireUser } from '../auth/guards';
+import { parseOr400 } from '../errors';
+import { roomOfUser } from '../../shared/realtime/events';
+import { AgencyDestinations, AgencyFields, CreateUser, HospitalFields, UnitFields, UpdateHospital, UpdateUnit, UpdateUser } from '../../shared/schemas/people';
+import * as people from '../services/people';
+
+const IdParam = z.object({ id: z.coerce.number({ error: 'must be a number' }).int().positive() });
+const idOf = (req: Request) => parseOr400(IdParam, req.params).id;
+
+export function peopleRouter({ db, clock, io }: AppDeps): Router {
+  const router = Router();
+  const user = requireUser(db);
+  const admin = requireRole('admin');
+  router.get('/api/people/users', user, admin, async (req, res) => res.json(await people.listPeople(db, req.me!)));
+  router.post('/api/people/users', user, admin, async (req, res) => res.status(201).json(await people.createPerson(db, req.me!, parseOr400(CreateUser, req.body), clock.now())));
+  router.patch('/api/people/users/:id', user, admin, async (req, res) => res.json(await people.updatePerson(db, req.me!, idOf(req), parseOr400(UpdateUser, req.body), clock.now())));
+  router.post('/api/people/users/:id/reactivate', user, admin, async (req, res) => res.json(await people.setPersonActive(db, req.me!, idOf(req), true, clock.now())));
+  router.post('/api/people/users/:id/deactivate', user, admin, async (req, res) => {
+    const person = await people.setPersonActive(db, req.me!, idOf(req), false, clock.now());
+    // Sessions are gone with the commit; an open socket would otherwise keep receiving the board.
+    io.in(roomOfUser(person.id)).disconnectSockets(true);
+    res.json(person);
+  });
+
+  router.get('/api/people/hospitals', user, admin, async (req, res) => res.json(await people.listHospitals(db, req.me!)));
+  router.post('/api/people/hospitals', user, admin, async (req, res) => res.status(201).json(await people.createHospital(db, req.me!, parseOr400(HospitalFields, req.body), clock.now())));
+  router.patch('/api/people/hospitals/:id', user, admin, async (req, res) => res.json(await people.updateHospital(db, req.me!, idOf(req), parseOr400(UpdateHospital, req.body), clock.now())));
+
+  router.get('/api/people/agencies', user, admin, async (req, res) => res.json(await people.listAgencies(db, req.me!)));
+  router.post('/api/people/agencies', user, admin, async (req, res) => res.status(201).json(await people.createAgency(db, req.me!, parseOr400(AgencyFields, req.body), clock.now())));
+  router.patch('/api/people/agencies/:id', user, admin, async (req, res) => res.json(await people.updateAgency(db, req.me!, idOf(req), parseOr400(AgencyFields, req.body), clock.now())));
+  router.post('/api/people/agencies/:id/units', user, admin, async (req, res) => res.status(201).json(await people.addUnit(db, req.me!, idOf(req), parseOr400(UnitFields, req.body).callSign, clock.now())));
+  router.put('/api/people/agencies/:id/destinations', user, admin, async (req, res) => res.json(await people.setDestinations(db, req.me!, idOf(req), parseOr400(AgencyDestinations, req.body).hospitalIds, clock.now())));
+  router.patch('/api/people/units/:id', user, admin, async (req, res) => res.json(await people.updateUnit(db, req.me!, idOf(req), parseOr400(UpdateUnit, req.body), clock.now())));
+  return router;
+}

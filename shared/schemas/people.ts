@@ -1,0 +1,91 @@
+import { z } from 'zod';
+import { Role } from '../roles';
+
+// Requests of the People & places screen.
+
+const id = z.number({ error: 'must be a number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' });
+const text = (max: number) => z.string({ error: 'must be text' }).trim().min(1, { error: 'must not be empty' }).max(max, { error: `must be at most ${max} characters` });
+
+/** Names the bad entry itself, so a person finds it in a long list. */
+export const EmailAddress = z
+  .string({ error: 'must be text' })
+  .trim()
+  .max(320, { error: 'must be at most 320 characters' })
+  .pipe(z.email({ error: (issue) => `"${String(issue.input)}" is not an e-mail address` }));
+
+export const PlaceRef = z.object({ kind: z.enum(['hospital', 'agency'], { error: 'must be hospital or agency' }), id });
+export type PlaceRef = z.infer<typeof PlaceRef>;
+
+export const CreateUser = z.object({
+  email: EmailAddress,
+  name: text(200),
+  roles: z.array(Role, { error: 'must be a list of roles' }).min(1, { error: 'must hold at least one role' }),
+  memberships: z.array(PlaceRef, { error: 'must be a list' }).min(1, { error: 'must name at least one hospital or agency' }),
+});
+export type CreateUser = z.infer<typeof CreateUser>;
+
+export const UpdateUser = CreateUser.partial();
+export type UpdateUser = z.infer<typeof UpdateUser>;
+
+export const NOTIFICATION_LISTS = ['full', 'limited', 'consult', 'escalation'] as const;
+export type NotificationListId = (typeof NOTIFICATION_LISTS)[number];
+
+export const NotificationLists = z.object(
+  Object.fromEntries(NOTIFICATION_LISTS.map((list) => [list, z.array(EmailAddress, { error: 'must be a list of addresses' }).max(50, { error: 'must hold at most 50 addresses' })])) as Record<
+    NotificationListId,
+    z.ZodArray<typeof EmailAddress>
+  >,
+);
+export type NotificationLists = z.infer<typeof NotificationLists>;
+
+export const TraumaLevel = z.enum(['I', 'II', 'III', 'IV', 'none'], { error: 'must be I, II, III, IV or none' });
+export const HeightUnit = z.enum(['m', 'ft', 'storeys'], { error: 'must be m, ft or storeys' });
+
+export const HospitalFields = z.object({
+  name: text(200),
+  shortName: text(40),
+  traumaLevel: TraumaLevel,
+  heightUnit: HeightUnit,
+  escalationMinutes: z.number({ error: 'must be a number' }).int({ error: 'must be whole minutes' }).min(1, { error: 'must be at least 1' }).max(60, { error: 'must be at most 60' }),
+  lists: NotificationLists,
+});
+export type HospitalFields = z.infer<typeof HospitalFields>;
+
+export const UpdateHospital = HospitalFields.partial();
+export type UpdateHospital = z.infer<typeof UpdateHospital>;
+
+export const AgencyFields = z.object({ name: text(200) });
+export type AgencyFields = z.infer<typeof AgencyFields>;
+
+export const UnitFields = z.object({ callSign: text(40) });
+export const UpdateUnit = z.object({ callSign: text(40).optional(), active: z.boolean({ error: 'must be true or false' }).optional() });
+export type UpdateUnit = z.infer<typeof UpdateUnit>;
+
+export const AgencyDestinations = z.object({ hospitalIds: z.array(id, { error: 'must be a list of hospital ids' }) });
+export type AgencyDestinations = z.infer<typeof AgencyDestinations>;
+
+export interface PersonRow {
+  id: number;
+  email: string;
+  name: string;
+  active: boolean;
+  roles: Role[];
+  memberships: Array<{ kind: 'hospital' | 'agency'; id: number; name: string }>;
+}
+
+export interface HospitalRow {
+  id: number;
+  name: string;
+  shortName: string;
+  traumaLevel: z.infer<typeof TraumaLevel>;
+  heightUnit: z.infer<typeof HeightUnit>;
+  escalationMinutes: number;
+  lists: NotificationLists;
+}
+
+export interface AgencyRow {
+  id: number;
+  name: string;
+  units: Array<{ id: number; callSign: string; active: boolean }>;
+  destinations: number[];
+}
