@@ -24,6 +24,9 @@ export function securityHeaders(opts: { secure: boolean; extraFormActions: strin
         ...(opts.secure ? { upgradeInsecureRequests: [] } : {}),
       },
     },
+    // With no-referrer a browser sends "Origin: null" on its own form posts; same-origin keeps
+    // the real origin for our own requests and still tells other sites nothing.
+    referrerPolicy: { policy: 'same-origin' },
     strictTransportSecurity: opts.secure,
     crossOriginEmbedderPolicy: false,
   });
