@@ -71,6 +71,7 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
         logger,
         dataDir: config.dataDir,
         cookieSecret: config.sessionSecret,
+        clock,
         client: { id: config.oidc.clientId, secret: config.oidc.clientSecret, redirectUri: `${publicUrl}/auth/callback`, postLogoutRedirectUri: `${publicUrl}/signed-out` },
       });
   if (idp && publicUrl.startsWith('https://')) idp.provider.proxy = true;

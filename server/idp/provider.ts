@@ -10,6 +10,7 @@ import type { Logger } from 'pino';
 import { verifyPassword } from '../auth/passwords';
 import { findUserByEmail, findUserById } from '../services/users';
 import { messagePage, signInPage, signOutPage } from './pages';
+import { identityStoreFor } from './store';
 
 export interface LocalIdpOptions {
   issuer: string;
@@ -17,6 +18,7 @@ export interface LocalIdpOptions {
   logger: Logger;
   dataDir: string;
   cookieSecret: string;
+  clock: { now(): number };
   client: { id: string; secret: string; redirectUri: string; postLogoutRedirectUri: string };
   signInAttemptsPerWindow?: number;
 }
@@ -37,6 +39,7 @@ function signingKeys(dataDir: string) {
 export function createLocalIdp(opts: LocalIdpOptions): { provider: Provider; router: Router } {
   const { db, logger } = opts;
   const configuration: Configuration = {
+    adapter: identityStoreFor(db, opts.clock),
     clients: [
       {
         client_id: opts.client.id,
