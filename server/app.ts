@@ -31,7 +31,17 @@ export function createApp(opts: CreateAppOptions): Express {
   app.disable('x-powered-by');
   if (secure) app.set('trust proxy', 1);
 
-  app.use(pinoHttp({ logger, autoLogging: { ignore: (req) => /^\/(assets|idp-assets|@|src|node_modules)\//.test(req.url ?? '') } }));
+  app.use(
+    pinoHttp({
+      logger,
+      autoLogging: { ignore: (req) => /^\/(assets|idp-assets|@|src|node_modules)\//.test(req.url ?? '') },
+      // Method, path and status only: headers carry session cookies, and query strings carry sign-in codes.
+      serializers: {
+        req: (req: { method: string; url: string }) => ({ method: req.method, path: req.url.split('?')[0] }),
+        res: (res: { statusCode: number }) => ({ status: res.statusCode }),
+      },
+    }),
+  );
   app.use(securityHeaders({ secure, extraFormActions: issuerOrigin === publicOrigin ? [] : [issuerOrigin] }));
 
   if (opts.idpRouter) app.use(opts.idpRouter);
