@@ -1,0 +1,43 @@
+import { Router, type NextFunction, type Request, type Response } from 'express';
+import { z } from 'zod';
+import { BOARD_ACTIONS, type BoardAction } from '../../shared/schemas/board';
+import type { AppDeps } from '../deps';
+import { requireRole, requireUser } from '../auth/guards';
+import { errorBody, parseOr400 } from '../errors';
+import { announceCase } from '../realtime/broadcast';
+import { actOnCase, boardSnapshot, CaseActionError } from '../services/board';
+
+const BoardQuery = z.object({ hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }).optional() });
+const CaseId = z.object({ id: z.coerce.number({ error: 'must be a case number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }) });
+
+// The ED's actions are the charge nurse's; the trauma lead and the administrator may watch the board.
+const boardReaders = ['charge_nurse', 'trauma_lead', 'admin'] as const;
+
+export function boardRouter(deps: AppDeps): Router {
+  const { db, clock, io } = deps;
+  const router = Router();
+
+  router.get('/api/board', requireUser(db), requireRole(...boardReaders), async (req, res) => {
+    const { hospitalId } = parseOr400(BoardQuery, req.query);
+    res.json(await boardSnapshot(db, clock, req.me!, hospitalId));
+  });
+
+  const act = (action: BoardAction) => async (req: Request, res: Response, next: NextFunction) => {
+    try {
+      const { id } = parseOr400(CaseId, req.params);
+      const { summary, change } = await actOnCase(deps, { me: req.me!, role: 'charge_nurse' }, id, action, req.body ?? {});
+      announceCase(io, summary, change);
+      res.json({ case: summary });
+    } catch (err) {
+      // The loser of a race gets the case as it now stands, so its board agrees with the winner's.
+      if (err instanceof CaseActionError) {
+        if (err.code === 'page_failed') announceCase(io, err.summary, { kind: 'page-failed', at: err.summary.updatedAt, by: req.me!.user.name });
+        res.status(err.status).json({ ...errorBody(err), case: err.summary });
+        return;
+      }
+      next(err);
+    }
+  };
+  for (const action of BOARD_ACTIONS) router.post(`/api/cases/:id/${action}`, requireUser(db), requireRole('charge_nurse'), act(action));
+  return router;
+}

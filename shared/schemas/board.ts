@@ -1,0 +1,132 @@
+import { z } from 'zod';
+import { LEVEL_IDS, type LevelId } from '../triage/policy';
+import type { CaseSummary } from './cases';
+
+// The charge nurse's actions on a case. Each body carries the rowVersion the nurse's board
+// showed, so of two nurses acting on the same case at once the first wins and the second is told.
+
+const rowVersion = z
+  .number({ error: 'must be the version of the case your board shows' })
+  .int({ error: 'must be a whole number' })
+  .positive({ error: 'must be positive' });
+
+/** A time the nurse records after the fact ("arrived 03:12"); absent means now. */
+const pastTime = z.number({ error: 'must be a time (milliseconds since 1970)' }).int({ error: 'must be whole milliseconds' }).positive({ error: 'must be a time' });
+
+const reason = z.string({ error: 'must be text' }).trim().max(500, { error: 'must be at most 500 characters' });
+
+export const BoardAcknowledge = z.object({ rowVersion });
+export type BoardAcknowledge = z.infer<typeof BoardAcknowledge>;
+
+export const BoardDecide = z.object({
+  rowVersion,
+  level: z.enum(LEVEL_IDS, { error: `must be one of: ${LEVEL_IDS.join(', ')}` }),
+  /** Required (a few words) when the level is below the recommendation; see REASON_MIN. */
+  reason: reason.optional(),
+});
+export type BoardDecide = z.infer<typeof BoardDecide>;
+
+/** A reason shorter than this says nothing a reviewer can use [ours]. */
+export const REASON_MIN = 3;
+
+export const BoardBay = z.object({
+  rowVersion,
+  bay: z.string({ error: 'must be text' }).trim().min(1, { error: 'must name the bay' }).max(40, { error: 'must be at most 40 characters' }),
+});
+export type BoardBay = z.infer<typeof BoardBay>;
+
+export const BoardPage = z.object({ rowVersion });
+export type BoardPage = z.infer<typeof BoardPage>;
+
+export const BoardArrived = z.object({ rowVersion, at: pastTime.optional() });
+export type BoardArrived = z.infer<typeof BoardArrived>;
+
+export const BoardTeamAtBedside = z.object({ rowVersion, at: pastTime.optional() });
+export type BoardTeamAtBedside = z.infer<typeof BoardTeamAtBedside>;
+
+/** Closing a case whose patient never arrived needs a reason (say, "went to another ED"). */
+export const BoardClose = z.object({ rowVersion, reason: reason.optional() });
+export type BoardClose = z.infer<typeof BoardClose>;
+
+export const BOARD_ACTIONS = ['acknowledge', 'decide', 'bay', 'page', 'arrived', 'team-at-bedside', 'close'] as const;
+export type BoardAction = (typeof BOARD_ACTIONS)[number];
+
+export const BOARD_ACTION_SCHEMAS = {
+  acknowledge: BoardAcknowledge,
+  decide: BoardDecide,
+  bay: BoardBay,
+  page: BoardPage,
+  arrived: BoardArrived,
+  'team-at-bedside': BoardTeamAtBedside,
+  close: BoardClose,
+} as const satisfies Record<BoardAction, z.ZodType>;
+
+export type BoardActionBody = {
+  acknowledge: BoardAcknowledge;
+  decide: BoardDecide;
+  bay: BoardBay;
+  page: BoardPage;
+  arrived: BoardArrived;
+  'team-at-bedside': BoardTeamAtBedside;
+  close: BoardClose;
+};
+
+/** The case_events kind each action records, and the change kind its broadcast carries. */
+export const ACTION_EVENT: Record<BoardAction, string> = {
+  acknowledge: 'acknowledged',
+  decide: 'level-decided',
+  bay: 'bay-assigned',
+  page: 'paged',
+  arrived: 'arrived',
+  'team-at-bedside': 'team-at-bedside',
+  close: 'closed',
+};
+
+/** How far a recorded time may lie ahead of the server's clock (devices drift) [ours]. */
+export const FUTURE_TOLERANCE_MS = 2 * 60_000;
+
+export interface BoardLevel { id: LevelId; name: string }
+
+/** What the board loads first, and again after every reconnect: the truth, then live events. */
+export interface BoardSnapshot {
+  hospital: { id: number; name: string; heightUnit: 'm' | 'ft' | 'storeys'; escalationMinutes: number };
+  /** The level names of the policy in force now, for the decide control. */
+  levels: BoardLevel[];
+  cases: CaseSummary[];
+  /** The server's clock, so countdowns on a wall screen with a wrong clock still read true. */
+  at: number;
+}
+
+/** A successful action: the case as it now stands. */
+export interface BoardActionResult { case: CaseSummary }
+
+// ---- Plain display helpers both the board and the page e-mail use (no I/O).
+
+const METRES_PER_FOOT = 0.3048;
+/** One storey = 10 feet [source: 2011 guideline, Sasser 2012], as in shared/schemas/units.ts. */
+const METRES_PER_STOREY = 10 * METRES_PER_FOOT;
+
+/** A fall height in the hospital's preferred unit: "14 ft", "4.3 m", "1.4 storeys"; 0 is from standing. */
+export function formatFallHeight(heightM: number, unit: 'm' | 'ft' | 'storeys'): string {
+  if (heightM === 0) return 'from standing';
+  if (unit === 'ft') return `${Math.round(heightM / METRES_PER_FOOT)} ft`;
+  if (unit === 'storeys') {
+    const storeys = Math.round((heightM / METRES_PER_STOREY) * 10) / 10;
+    return `${storeys} ${storeys === 1 ? 'storey' : 'storeys'}`;
+  }
+  return `${Math.round(heightM * 10) / 10} m`;
+}
+
+const SEX_SHORT: Record<string, string> = { female: 'female', male: 'male', other: 'other sex', unknown: 'sex not known' };
+
+/** "72-year-old female"; infants in months, as the crew would say it. */
+export function formatAgeSex(ageYears: number, sex: string | null | undefined): string {
+  const age = ageYears < 1 ? `${Math.round(ageYears * 12)}-month-old` : `${Math.floor(ageYears)}-year-old`;
+  return `${age} ${SEX_SHORT[sex ?? 'unknown'] ?? 'sex not known'}`;
+}
+
+/** The level name a case's policy gives, falling back to the id when the list lacks it. */
+export function levelName(levels: readonly BoardLevel[], id: LevelId | null | undefined): string {
+  if (!id) return 'not decided';
+  return levels.find((l) => l.id === id)?.name ?? id;
+}
