@@ -6,6 +6,7 @@ import { mailRouter } from './mail';
 import { casesRouter } from './cases';
 import { policiesRouter } from './policies';
 import { peopleRouter } from './people';
+import { boardRouter } from './board';
 
 /** Every API router, in mounting order. A new resource adds its router here. */
-export const apiRouters: Array<(deps: AppDeps) => Router> = [healthRouter, meRouter, mailRouter, casesRouter, policiesRouter, peopleRouter];
+export const apiRouters: Array<(deps: AppDeps) => Router> = [healthRouter, meRouter, mailRouter, casesRouter, policiesRouter, peopleRouter, boardRouter];

@@ -1,9 +1,10 @@
 import type { AppDeps } from '../deps';
+import { escalationJob } from './escalation';
 
 export interface Job { stop(): void }
 
 /** Work the server does on its own clock (escalations, say). Each job returns a way to stop it. */
-export function backgroundJobs(_deps: AppDeps): Job {
-  const jobs: Job[] = [];
+export function backgroundJobs(deps: AppDeps): Job {
+  const jobs: Job[] = [escalationJob(deps)];
   return { stop: () => jobs.forEach((job) => job.stop()) };
 }
