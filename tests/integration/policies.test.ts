@@ -5,7 +5,6 @@ import { browserlessClient, signIn, type SignedInClient } from '../support/sign-
 import { command, connectAs } from '../support/socket';
 import { policyInForce } from '../../server/services/policies';
 import { EXAMPLE_POLICY, type Policy } from '../../shared/triage/policy';
-import { fromForm, toForm } from '../../src/components/policies/policy-model';
 
 // The activation policy's life: drafted by an administrator, approved by the hospital's trauma
 // lead, published with a date; what was evaluated before keeps the version it was evaluated under.
@@ -39,12 +38,13 @@ async function submit(hospitalId: number) {
 
 /** The example with anticoagulant use moved from a trauma consult up to the limited team. */
 function stricter(doc: Policy) {
-  const form = toForm(doc);
-  const consult = form.levels.find((l) => l.id === 'consult')!;
-  consult.criteria = consult.criteria.filter((id) => id !== 'field-2021:anticoagulant');
-  form.levels.find((l) => l.id === 'limited')!.criteria.push('field-2021:anticoagulant');
-  form.levels.find((l) => l.id === 'limited')!.name = 'Trauma team, limited';
-  return fromForm(form);
+  const levels = doc.levels.map((l) => (l.id === 'limited' ? { ...l, name: 'Trauma team, limited' } : l));
+  const rules = doc.rules.map((rule) =>
+    rule.level === 'limited' ? { ...rule, criteria: [...rule.criteria, 'field-2021:anticoagulant'] }
+      : rule.level === 'consult' ? { ...rule, criteria: rule.criteria.filter((id) => id !== 'field-2021:anticoagulant') }
+        : rule,
+  );
+  return { name: doc.name, note: doc.note, levels, rules };
 }
 
 const auditOf = (entityId: number) => server.db('audit_log').where({ entity: 'policy', entity_id: String(entityId) }).orderBy('id').select('action', 'actor_role', 'policy_id', 'policy_version');
@@ -131,9 +131,8 @@ describe('the lifecycle at Alderwick General', () => {
   });
 
   it('refuses a policy that leaves a level unreachable', async () => {
-    const form = toForm(EXAMPLE_POLICY);
-    form.levels.find((l) => l.id === 'consult')!.criteria = [];
-    const res = await admin.send('PUT', `/api/policies/${draftId}`, fromForm(form));
+    const withoutConsult = { ...stricter(EXAMPLE_POLICY), rules: EXAMPLE_POLICY.rules.filter((rule) => rule.level !== 'consult') };
+    const res = await admin.send('PUT', `/api/policies/${draftId}`, withoutConsult);
     expect(res.status).toBe(400);
     const body = await res.json();
     expect(body.error.issues).toEqual([{ field: 'levels[2]', message: 'level consult is unreachable: no rule calls it' }]);
