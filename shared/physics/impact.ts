@@ -2,6 +2,11 @@ import type { Surface } from '../schemas/clinical-options';
 import { DEFAULT_TERMINAL_SPEED_MPS, G, fallTime, impactSpeed, kineticEnergy, meanDeceleration, vacuumFallTime, vacuumImpactSpeed } from './fall';
 import { STOPPING_DISTANCE } from './surfaces';
 
+// Module-local copies: some loaders compile imported bindings into getter calls, and this runs
+// once per evaluation.
+const physics = { DEFAULT_TERMINAL_SPEED_MPS, G, fallTime, impactSpeed, kineticEnergy, meanDeceleration, vacuumFallTime, vacuumImpactSpeed };
+const stopping = STOPPING_DISTANCE;
+
 export interface Impact {
   heightM: number;
   heightFt: number;
@@ -22,8 +27,9 @@ export interface Impact {
 }
 
 export function fallImpact(heightM: number, surface?: Surface | null, weightKg?: number | null): Impact {
+  const { G, impactSpeed, vacuumImpactSpeed, fallTime, vacuumFallTime, kineticEnergy, meanDeceleration } = physics;
   const speed = impactSpeed(heightM);
-  const stop = surface ? STOPPING_DISTANCE[surface].metres : null;
+  const stop = surface ? stopping[surface].metres : null;
   return {
     heightM,
     heightFt: heightM / 0.3048,
@@ -32,7 +38,7 @@ export function fallImpact(heightM: number, surface?: Surface | null, weightKg?:
     vacuumSpeedMps: vacuumImpactSpeed(heightM),
     fallTimeS: fallTime(heightM),
     vacuumFallTimeS: vacuumFallTime(heightM),
-    terminalSpeedMps: DEFAULT_TERMINAL_SPEED_MPS,
+    terminalSpeedMps: physics.DEFAULT_TERMINAL_SPEED_MPS,
     kineticEnergyJ: weightKg != null ? kineticEnergy(weightKg, speed) : null,
     stoppingDistanceM: stop,
     meanDecelerationG: stop !== null && heightM > 0 ? meanDeceleration(speed, stop) / G : null,

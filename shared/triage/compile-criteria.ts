@@ -1,11 +1,15 @@
 import { considerationOptions, findingOptions } from '../schemas/clinical-options';
 import type { Condition, Criterion, Quantity } from './criteria';
-import { CONSIDERATION_BIT, FINDING_BIT, FLAG_INDEX, MET, NOT_MET, QUANTITY_INDEX, UNKNOWN } from './facts';
+import { CONSIDERATION_BIT, FINDING_BIT, FLAG_INDEX, QUANTITY_INDEX, TRI } from './facts';
 import type { Facts, TriState } from './facts';
 import { MISSING_BIT } from './missing-inputs';
 
 // Turns criterion data into closures once, so an evaluation is a few comparisons per criterion.
 // explain() runs only for a met criterion, missing() only for an unknown one.
+
+// Module-local copies: some loaders compile imported bindings into getter calls, which the
+// closures below would otherwise pay on every comparison.
+const { NOT_MET, MET, UNKNOWN } = TRI;
 
 export interface CompiledCondition {
   test(f: Facts): TriState;
@@ -18,17 +22,30 @@ export interface CompiledCriterion extends CompiledCondition {
   criterion: Criterion;
   /** 2 high, 1 moderate, 0 none (policy-catalog conditions). */
   tierRank: number;
+  /** For single-leaf criteria, a shape the evaluator tests inline without a call. */
+  inline: { kind: typeof INLINE_FINDING | typeof INLINE_CONSIDERATION | typeof INLINE_FLAG; arg: number } | null;
 }
 
+export const INLINE_NONE = 0;
+export const INLINE_FINDING = 1;
+export const INLINE_CONSIDERATION = 2;
+export const INLINE_FLAG = 3;
+
+// Whole numbers are most recorded values; a table spares a number-to-text conversion per explanation.
+const WHOLE = Array.from({ length: 1001 }, (_, i) => String(i));
 const fmt = (n: number, digits = 1): string => {
-  const p = 10 ** digits;
+  if ((n | 0) === n && n >= 0 && n <= 1000) return WHOLE[n];
+  const p = digits === 1 ? 10 : 10 ** digits;
   return String(Math.round(n * p) / p);
 };
 
 const LABEL: Record<Quantity, string> = { sbp: 'SBP', hr: 'HR', rr: 'RR', heightM: 'fall', gcsTotal: 'GCS', gcsMotor: 'motor GCS' };
-const FIELD_BIT: Record<'sbp' | 'hr' | 'rr', number> = {
+const BIT = {
   sbp: MISSING_BIT['vitals.sbp'], hr: MISSING_BIT['vitals.hr'], rr: MISSING_BIT['vitals.rr'],
-};
+  spo2: MISSING_BIT['vitals.spo2'], roomAir: MISSING_BIT['vitals.spo2RoomAir'],
+  gcs: MISSING_BIT['vitals.gcs'], eye: MISSING_BIT['vitals.gcs.eye'], verbal: MISSING_BIT['vitals.gcs.verbal'],
+  motor: MISSING_BIT['vitals.gcs.motor'], pregnancy: MISSING_BIT['pregnancyWeeks'],
+} as const;
 const FLAG_TEXT = {
   anticoagulant: 'on an anticoagulant',
   intubated: 'intubated',
@@ -46,35 +63,37 @@ const FLAG_FIELD_BIT = {
 const FINDING_TEXT = Object.fromEntries(findingOptions.map((o) => [o.id, o.label.toLowerCase()]));
 const CONSIDERATION_TEXT = Object.fromEntries(considerationOptions.map((o) => [o.id, o.label.toLowerCase()]));
 
+function gcsPart(v: number): string {
+  return v === v ? fmt(v) : '?';
+}
+
 function gcsParts(f: Facts): string {
-  const part = (v: number) => (v === v ? String(v) : '?');
-  return `E${part(f.eye)} V${part(f.verbal)} M${part(f.motor)}`;
+  return `E${gcsPart(f.eye)} V${gcsPart(f.verbal)} M${gcsPart(f.motor)}`;
 }
 
 /** The value as recorded, or the bound that decided the comparison when only a range is known. */
-function valueText(q: Quantity, f: Facts, bound: 'lo' | 'hi'): string {
-  const i = QUANTITY_INDEX[q];
+function valueText(q: Quantity, i: number, f: Facts, bound: 'lo' | 'hi'): string {
   const lo = f.lo[i], hi = f.hi[i];
   if (q === 'heightM') return lo === 0 ? 'fall from standing (0 m)' : `fall ${fmt(lo, 3)} m (${fmt(lo / 0.3048)} ft)`;
   if (lo === hi) {
-    if (q === 'gcsMotor' && f.motor !== f.motor) return `motor GCS ${lo} (GCS total ${f.gcsTotalRecorded})`;
-    if (q === 'gcsTotal' && f.gcsTotalRecorded !== f.gcsTotalRecorded) return `GCS ${lo} (${gcsParts(f)})`;
+    if (q === 'gcsMotor' && f.motor !== f.motor) return `motor GCS ${fmt(lo)} (GCS total ${fmt(f.gcsTotalRecorded)})`;
+    if (q === 'gcsTotal' && f.gcsTotalRecorded !== f.gcsTotalRecorded) return `GCS ${fmt(lo)} (${gcsParts(f)})`;
     return `${LABEL[q]} ${fmt(lo)}`;
   }
-  const side = bound === 'hi' ? `at most ${hi}` : `at least ${lo}`;
-  const basis = q === 'gcsMotor' && f.gcsTotalRecorded === f.gcsTotalRecorded ? `GCS total ${f.gcsTotalRecorded}` : gcsParts(f);
+  const side = bound === 'hi' ? `at most ${fmt(hi)}` : `at least ${fmt(lo)}`;
+  const basis = q === 'gcsMotor' && f.gcsTotalRecorded === f.gcsTotalRecorded ? `GCS total ${fmt(f.gcsTotalRecorded)}` : gcsParts(f);
   return `${LABEL[q]} ${side} (${basis})`;
 }
 
-function quantityMissing(q: Quantity, f: Facts): number {
-  if (q === 'sbp' || q === 'hr' || q === 'rr') return f.lo[QUANTITY_INDEX[q]] === -Infinity ? FIELD_BIT[q] : 0;
+function quantityMissing(q: Quantity, i: number, f: Facts): number {
+  if (q === 'sbp' || q === 'hr' || q === 'rr') return f.lo[i] === -Infinity ? BIT[q] : 0;
   if (q === 'heightM') return 0;
-  if (!f.gcsRecorded) return MISSING_BIT['vitals.gcs'];
-  if (q === 'gcsMotor') return MISSING_BIT['vitals.gcs.motor'];
+  if (!f.gcsRecorded) return BIT.gcs;
+  if (q === 'gcsMotor') return BIT.motor;
   let bits = 0;
-  if (f.eye !== f.eye) bits |= MISSING_BIT['vitals.gcs.eye'];
-  if (f.verbal !== f.verbal) bits |= MISSING_BIT['vitals.gcs.verbal'];
-  if (f.motor !== f.motor) bits |= MISSING_BIT['vitals.gcs.motor'];
+  if (f.eye !== f.eye) bits |= BIT.eye;
+  if (f.verbal !== f.verbal) bits |= BIT.verbal;
+  if (f.motor !== f.motor) bits |= BIT.motor;
   return bits;
 }
 
@@ -88,6 +107,7 @@ export function compileCondition(c: Condition): CompiledCondition {
       const i = QUANTITY_INDEX[c.quantity];
       const base = c.value;
       const perYear = c.perYearOfAge ?? 0;
+      const fixed = thresholdText(c);
       return {
         test: (f) => {
           const t = base + perYear * f.years;
@@ -95,36 +115,38 @@ export function compileCondition(c: Condition): CompiledCondition {
         },
         explain: (f) => {
           const t = base + perYear * f.years;
-          const thr = perYear ? `${fmt(t)} (${base} + ${perYear} × ${f.years})` : thresholdText(c);
-          return `${valueText(c.quantity, f, 'hi')} < ${thr}`;
+          const thr = perYear ? `${fmt(t)} (${fmt(base)} + ${fmt(perYear)} × ${fmt(f.years)})` : fixed;
+          return `${valueText(c.quantity, i, f, 'hi')} < ${thr}`;
         },
-        missing: (f) => quantityMissing(c.quantity, f),
+        missing: (f) => quantityMissing(c.quantity, i, f),
       };
     }
     case 'above': {
       const i = QUANTITY_INDEX[c.quantity];
       const t = c.value;
+      const thr = thresholdText(c);
       return {
         test: (f) => (f.lo[i] > t ? MET : f.hi[i] <= t ? NOT_MET : UNKNOWN),
-        explain: (f) => `${valueText(c.quantity, f, 'lo')} > ${thresholdText(c)}`,
-        missing: (f) => quantityMissing(c.quantity, f),
+        explain: (f) => `${valueText(c.quantity, i, f, 'lo')} > ${thr}`,
+        missing: (f) => quantityMissing(c.quantity, i, f),
       };
     }
     case 'at-most': {
       const i = QUANTITY_INDEX[c.quantity];
       const t = c.value;
+      const thr = thresholdText(c);
       return {
         test: (f) => (f.hi[i] <= t ? MET : f.lo[i] > t ? NOT_MET : UNKNOWN),
-        explain: (f) => `${valueText(c.quantity, f, 'hi')} ≤ ${thresholdText(c)}`,
-        missing: (f) => quantityMissing(c.quantity, f),
+        explain: (f) => `${valueText(c.quantity, i, f, 'hi')} ≤ ${thr}`,
+        missing: (f) => quantityMissing(c.quantity, i, f),
       };
     }
     case 'exceeds': {
       const a = QUANTITY_INDEX[c.quantity], b = QUANTITY_INDEX[c.other];
       return {
         test: (f) => (f.lo[a] > f.hi[b] ? MET : f.hi[a] <= f.lo[b] ? NOT_MET : UNKNOWN),
-        explain: (f) => `${valueText(c.quantity, f, 'lo')} > ${valueText(c.other, f, 'hi')}`,
-        missing: (f) => quantityMissing(c.quantity, f) | quantityMissing(c.other, f),
+        explain: (f) => `${valueText(c.quantity, a, f, 'lo')} > ${valueText(c.other, b, f, 'hi')}`,
+        missing: (f) => quantityMissing(c.quantity, a, f) | quantityMissing(c.other, b, f),
       };
     }
     case 'age': {
@@ -160,8 +182,7 @@ export function compileCondition(c: Condition): CompiledCondition {
           return f.roomAir === MET ? MET : UNKNOWN;
         },
         explain: (f) => `SpO2 ${fmt(f.spo2)} % on room air < ${t} %`,
-        missing: (f) =>
-          (f.spo2 !== f.spo2 ? MISSING_BIT['vitals.spo2'] : 0) | (f.roomAir === UNKNOWN ? MISSING_BIT['vitals.spo2RoomAir'] : 0),
+        missing: (f) => (f.spo2 !== f.spo2 ? BIT.spo2 : 0) | (f.roomAir === UNKNOWN ? BIT.roomAir : 0),
       };
     }
     case 'pregnancy-above': {
@@ -174,13 +195,13 @@ export function compileCondition(c: Condition): CompiledCondition {
           return f.sex === 'male' || f.years < 10 || f.years >= 60 ? NOT_MET : UNKNOWN;
         },
         explain: (f) => `pregnant ${fmt(f.pregnancyWeeks)} weeks > ${w}`,
-        missing: () => MISSING_BIT['pregnancyWeeks'],
+        missing: () => BIT.pregnancy,
       };
     }
     case 'any': {
       const parts = c.of.map(compileCondition);
       return {
-        test: (f) => {
+        test: fastAny(c.of) ?? ((f) => {
           let out: TriState = NOT_MET;
           for (let i = 0; i < parts.length; i++) {
             const s = parts[i].test(f);
@@ -188,9 +209,15 @@ export function compileCondition(c: Condition): CompiledCondition {
             if (s === UNKNOWN) out = UNKNOWN;
           }
           return out;
+        }),
+        explain: (f) => {
+          let text = '';
+          for (let i = 0; i < parts.length; i++) {
+            if (parts[i].test(f) === MET) text += (text === '' ? '' : ', ') + parts[i].explain(f);
+          }
+          return text;
         },
-        explain: (f) => parts.filter((p) => p.test(f) === MET).map((p) => p.explain(f)).join(', '),
-        missing: (f) => parts.reduce((bits, p) => (p.test(f) === UNKNOWN ? bits | p.missing(f) : bits), 0),
+        missing: (f) => unknownPartsMissing(parts, f),
       };
     }
     case 'all': {
@@ -200,7 +227,7 @@ export function compileCondition(c: Condition): CompiledCondition {
         .sort((x, y) => Number(x.sub.kind === 'age') - Number(y.sub.kind === 'age'))
         .map((x) => x.part);
       return {
-        test: (f) => {
+        test: fastAll(c.of, parts) ?? ((f) => {
           let out: TriState = MET;
           for (let i = 0; i < parts.length; i++) {
             const s = parts[i].test(f);
@@ -208,12 +235,55 @@ export function compileCondition(c: Condition): CompiledCondition {
             if (s === UNKNOWN) out = UNKNOWN;
           }
           return out;
+        }),
+        explain: (f) => {
+          let text = spoken[0].explain(f);
+          for (let i = 1; i < spoken.length; i++) text += ', ' + spoken[i].explain(f);
+          return text;
         },
-        explain: (f) => spoken.map((p) => p.explain(f)).join(', '),
-        missing: (f) => parts.reduce((bits, p) => (p.test(f) === UNKNOWN ? bits | p.missing(f) : bits), 0),
+        missing: (f) => unknownPartsMissing(parts, f),
       };
     }
   }
+}
+
+// Shortcuts for the common shapes (flags or age bands joined by "or"; an age band and one other
+// condition joined by "and"): one closure instead of a call per part. Same answers as the general form.
+type Test = (f: Facts) => TriState;
+
+function fastAny(conditions: readonly Condition[]): Test | null {
+  if (conditions.every((c) => c.kind === 'flag')) {
+    const idx = Int32Array.from(conditions, (c) => FLAG_INDEX[(c as Extract<Condition, { kind: 'flag' }>).flag]);
+    return (f) => {
+      let out: TriState = NOT_MET;
+      for (let i = 0; i < idx.length; i++) {
+        const s = f.flags[idx[i]];
+        if (s === MET) return MET;
+        if (s === UNKNOWN) out = UNKNOWN;
+      }
+      return out;
+    };
+  }
+  if (conditions.length === 2 && conditions.every((c) => c.kind === 'age')) {
+    const [a, b] = conditions as Extract<Condition, { kind: 'age' }>[];
+    const aFrom = a.from ?? -Infinity, aBelow = a.below ?? Infinity, bFrom = b.from ?? -Infinity, bBelow = b.below ?? Infinity;
+    return (f) => ((f.years >= aFrom && f.years < aBelow) || (f.years >= bFrom && f.years < bBelow) ? MET : NOT_MET);
+  }
+  return null;
+}
+
+function fastAll(conditions: readonly Condition[], parts: readonly CompiledCondition[]): Test | null {
+  if (conditions.length !== 2 || conditions[0].kind !== 'age') return null;
+  const age = conditions[0];
+  const from = age.from ?? -Infinity, below = age.below ?? Infinity;
+  const rest = parts[1].test;
+  return (f) => (f.years >= from && f.years < below ? rest(f) : NOT_MET);
+}
+
+function unknownPartsMissing(parts: readonly CompiledCondition[], f: Facts): number {
+  let bits = 0;
+  for (let i = 0; i < parts.length; i++) if (parts[i].test(f) === UNKNOWN) bits |= parts[i].missing(f);
+  return bits;
 }
 
 export function ageText(ageYears: number): string {
@@ -223,7 +293,14 @@ export function ageText(ageYears: number): string {
 
 export function compileCriterion(criterion: Criterion): CompiledCriterion {
   const compiled = compileCondition(criterion.when);
+  const when = criterion.when;
+  const inline =
+    when.kind === 'finding' ? { kind: INLINE_FINDING as typeof INLINE_FINDING, arg: FINDING_BIT[when.finding] }
+    : when.kind === 'consideration' ? { kind: INLINE_CONSIDERATION as typeof INLINE_CONSIDERATION, arg: CONSIDERATION_BIT[when.consideration] }
+    : when.kind === 'flag' ? { kind: INLINE_FLAG as typeof INLINE_FLAG, arg: FLAG_INDEX[when.flag] }
+    : null;
   return {
+    inline,
     criterion,
     tierRank: criterion.tier === 'high' ? 2 : criterion.tier === 'moderate' ? 1 : 0,
     test: compiled.test,

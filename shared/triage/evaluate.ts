@@ -1,9 +1,10 @@
 import type { ClinicalInput } from '../schemas/clinical';
 import { fallImpact, type Impact } from '../physics/impact';
 import { CRITERIA_SETS, DEFAULT_SET, compiledCriterion } from './catalog';
+import * as compiled from './compile-criteria';
 import type { CompiledCriterion } from './compile-criteria';
 import type { CriteriaSetId, CriterionSetId, NemsisCode, RiskTier } from './criteria';
-import { MET, UNKNOWN, createFacts, readFacts } from './facts';
+import { TRI, createFacts, readFacts } from './facts';
 import { MISSING_INPUTS, type MissingInput } from './missing-inputs';
 import { EXAMPLE_POLICY, type LevelId, type Policy } from './policy';
 
@@ -49,6 +50,10 @@ export interface EvaluateOptions {
 
 interface Plan {
   members: CompiledCriterion[];
+  tests: CompiledCriterion['test'][];
+  /** Per member, INLINE_* and its bit or flag index: findings, considerations and flags need no call. */
+  inlineKind: Uint8Array;
+  inlineArg: Int32Array;
   setCount: number;
   calls: (LevelId | null)[];
   /** Per member, the index of the first rule naming it; rules.length when none does. */
@@ -93,6 +98,9 @@ function buildPlan(setId: CriteriaSetId, policy: Policy): Plan {
   for (const level of policy.levels) levelName[level.id] = level.name;
   return {
     members, setCount, calls, firstRule, ruleMembers,
+    tests: members.map((m) => m.test),
+    inlineKind: Uint8Array.from(members, (m) => m.inline?.kind ?? compiled.INLINE_NONE),
+    inlineArg: Int32Array.from(members, (m) => m.inline?.arg ?? 0),
     ruleLevel: policy.rules.map((r) => r.level),
     levelName,
     policyRef: Object.freeze({ id: policy.id, version: policy.version, example: policy.example }),
@@ -100,25 +108,47 @@ function buildPlan(setId: CriteriaSetId, policy: Policy): Plan {
   };
 }
 
+let lastPolicy: Policy | null = null;
+let lastSet: CriteriaSetId | null = null;
+let lastPlan: Plan | null = null;
+
 function planFor(setId: CriteriaSetId, policy: Policy): Plan {
+  if (policy === lastPolicy && setId === lastSet) return lastPlan!;
   let bySet = plans.get(policy);
   if (!bySet) plans.set(policy, (bySet = {}));
-  return (bySet[setId] ??= buildPlan(setId, policy));
+  lastPolicy = policy;
+  lastSet = setId;
+  return (lastPlan = bySet[setId] ??= buildPlan(setId, policy));
 }
 
+// Module-local copies of imported bindings used per evaluation (see compile-criteria.ts).
+const { MET, NOT_MET, UNKNOWN } = TRI;
+const { INLINE_NONE, INLINE_FINDING, INLINE_CONSIDERATION } = compiled;
+const MISSING = MISSING_INPUTS;
+const read = readFacts;
+const impactOf = fallImpact;
+const defaultSet = DEFAULT_SET;
+const defaultPolicy = EXAMPLE_POLICY;
 const facts = createFacts();
 const RISK: readonly FieldRisk[] = ['none', 'moderate', 'high'];
 
 /** The input is trusted to have passed ClinicalInput; parse at the boundary, not here. */
 export function evaluate(input: ClinicalInput, options: EvaluateOptions = {}): Evaluation {
-  const plan = planFor(options.set ?? DEFAULT_SET, options.policy ?? EXAMPLE_POLICY);
-  const f = readFacts(input, facts);
-  const { members, states, setCount, ruleMembers, firstRule, calls } = plan;
+  const set = options.set ?? defaultSet;
+  const plan = planFor(set, options.policy ?? defaultPolicy);
+  const f = read(input, facts);
+  const { members, tests, inlineKind, inlineArg, states, setCount, ruleMembers, firstRule, calls } = plan;
+  const findings = f.findings, considerations = f.considerations, flags = f.flags;
   const n = members.length;
 
   let risk = 0;
   for (let i = 0; i < n; i++) {
-    const s = members[i].test(f);
+    const kind = inlineKind[i];
+    const s =
+      kind === INLINE_NONE ? tests[i](f)
+      : kind === INLINE_FINDING ? ((findings & inlineArg[i]) !== 0 ? MET : NOT_MET)
+      : kind === INLINE_CONSIDERATION ? ((considerations & inlineArg[i]) !== 0 ? MET : NOT_MET)
+      : flags[inlineArg[i]];
     states[i] = s;
     if (s === MET && i < setCount && members[i].tierRank > risk) risk = members[i].tierRank;
   }
@@ -151,16 +181,16 @@ export function evaluate(input: ClinicalInput, options: EvaluateOptions = {}): E
     }
   }
   const missing: MissingInput[] = [];
-  for (let b = 0; missingBits !== 0; b++, missingBits >>>= 1) if (missingBits & 1) missing.push(MISSING_INPUTS[b]);
+  for (let b = 0; missingBits !== 0; b++, missingBits >>>= 1) if (missingBits & 1) missing.push(MISSING[b]);
 
   return {
-    set: options.set ?? DEFAULT_SET,
+    set,
     fieldRisk: RISK[risk],
     activation,
     activationName: plan.levelName[activation],
     criteria,
     missing,
-    impact: fallImpact(input.fall.heightM, input.fall.surface, input.weightKg),
+    impact: impactOf(input.fall.heightM, input.fall.surface, input.weightKg),
     policy: plan.policyRef,
   };
 }

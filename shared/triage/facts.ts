@@ -11,6 +11,8 @@ export const NOT_MET = 0;
 export const MET = 1;
 export const UNKNOWN = 2;
 export type TriState = typeof NOT_MET | typeof MET | typeof UNKNOWN;
+/** For modules on the hot path to copy into their own scope (see compile-criteria.ts). */
+export const TRI = { NOT_MET, MET, UNKNOWN } as const;
 
 export const QUANTITY_INDEX: Record<Quantity, number> = { sbp: 0, hr: 1, rr: 2, heightM: 3, gcsTotal: 4, gcsMotor: 5 };
 export const FLAG_INDEX: Record<Flag, number> = {
