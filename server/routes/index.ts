@@ -7,6 +7,9 @@ import { casesRouter } from './cases';
 import { policiesRouter } from './policies';
 import { peopleRouter } from './people';
 import { boardRouter } from './board';
+import { reviewRouter } from './review';
+import { crewRouter } from './crew';
+import { qualityRouter } from './quality';
 
 /** Every API router, in mounting order. A new resource adds its router here. */
-export const apiRouters: Array<(deps: AppDeps) => Router> = [healthRouter, meRouter, mailRouter, casesRouter, policiesRouter, peopleRouter, boardRouter];
+export const apiRouters: Array<(deps: AppDeps) => Router> = [healthRouter, meRouter, mailRouter, casesRouter, policiesRouter, peopleRouter, reviewRouter, crewRouter, boardRouter, qualityRouter];

@@ -1,0 +1,86 @@
+import { defineStore } from 'pinia';
+import { ref, watch } from 'vue';
+import * as api from '../api/cases';
+import { connection, getSocket } from '../api/socket';
+import { OPEN_STATES, type CaseCancel, type CaseRedirect, type CaseSummary, type PreAlertUpdate } from '../../shared/schemas/cases';
+import type { CaseChange } from '../../shared/realtime/events';
+
+/** The crew's open cases: the truth from GET /api/cases, kept live by the agency room's broadcasts. */
+export const useCrewCasesStore = defineStore('crew-cases', () => {
+  const cases = ref<CaseSummary[]>([]);
+  const loaded = ref(false);
+  const loadError = ref<string | null>(null);
+  /** The last change heard per case, for "updated 03:12 by …" and a risen level. */
+  const changes = ref<Record<number, CaseChange>>({});
+  /** Cases that left the list (cancelled, closed) while this screen was open, newest first. */
+  const ended = ref<CaseSummary[]>([]);
+
+  // A broadcast and a reload can cross; the higher row version is the later truth.
+  function upsert(summary: CaseSummary): void {
+    const list = cases.value;
+    const at = list.findIndex((c) => c.id === summary.id);
+    if (at >= 0 && list[at].rowVersion > summary.rowVersion) return;
+    if (!OPEN_STATES.includes(summary.state)) {
+      if (at >= 0) {
+        list.splice(at, 1);
+        ended.value = [summary, ...ended.value.filter((c) => c.id !== summary.id)].slice(0, 5);
+      }
+      return;
+    }
+    if (at >= 0) list.splice(at, 1, summary);
+    else list.unshift(summary);
+    list.sort((a, b) => b.createdAt - a.createdAt);
+  }
+
+  async function load(): Promise<void> {
+    try {
+      const answer = await api.listCases('open');
+      const fresh = new Map(answer.cases.map((c) => [c.id, c]));
+      for (const mine of cases.value) {
+        const theirs = fresh.get(mine.id);
+        if (theirs && theirs.rowVersion < mine.rowVersion) fresh.set(mine.id, mine);
+      }
+      cases.value = [...fresh.values()].sort((a, b) => b.createdAt - a.createdAt);
+      loaded.value = true;
+      loadError.value = null;
+    } catch (err) {
+      loadError.value = (err as Error).message;
+    }
+  }
+
+  let started = false;
+  function start(): void {
+    if (started) {
+      void load();
+      return;
+    }
+    started = true;
+    const socket = getSocket();
+    socket.on('case:submitted', (summary) => upsert(summary));
+    socket.on('case:updated', (summary, change) => {
+      changes.value = { ...changes.value, [summary.id]: change };
+      upsert(summary);
+    });
+    // A fresh (not recovered) connection may have missed broadcasts: read the truth again.
+    watch(connection.freshConnections, () => void load());
+    void load();
+  }
+
+  async function update(payload: PreAlertUpdate): Promise<{ summary: CaseSummary; rose: boolean }> {
+    const answer = await api.updateCase(payload);
+    upsert(answer.summary);
+    return answer;
+  }
+  async function cancel(payload: CaseCancel): Promise<CaseSummary> {
+    const { summary } = await api.cancelCase(payload);
+    upsert(summary);
+    return summary;
+  }
+  async function redirect(payload: CaseRedirect): Promise<CaseSummary> {
+    const { summary } = await api.redirectCase(payload);
+    upsert(summary);
+    return summary;
+  }
+
+  return { cases, loaded, loadError, changes, ended, start, load, upsert, update, cancel, redirect };
+});
