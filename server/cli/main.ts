@@ -14,6 +14,7 @@ const usage = `Usage: plumbline <command>
                         JSON Lines of clinical inputs on stdin, one result per line on stdout
   cribari               CSV (activation,iss[,nfti]) on stdin, the matrix and rates as JSON
   iss                   {"injuries":[{"region","ais"}]} on stdin, {"iss","niss"} on stdout
+  audit verify          check the audit trail's hash chain; names the first broken row (exit 1)
 `;
 
 const io = { stdin: process.stdin, stdout: process.stdout, stderr: process.stderr };
@@ -50,6 +51,10 @@ export async function main(argv: string[]): Promise<number> {
       const engine = await import('./engine-commands');
       const run = { evaluate: engine.evaluateCommand, cribari: engine.cribariCommand, iss: engine.issCommand }[command];
       return run(args, io);
+    }
+    case 'audit': {
+      const { auditCommand } = await import('./audit-command');
+      return auditCommand(args, io);
     }
     case undefined:
     case 'help':
