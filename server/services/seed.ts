@@ -3,6 +3,7 @@ import type { Role } from '../../shared/roles';
 import { hashPassword } from '../auth/passwords';
 import type { Clock } from '../deps';
 import { seedNotificationLists } from './people';
+import { seedDemoReviews } from './review-demo';
 import { seedBoardDemo } from './board-demo';
 
 // The invented demo scenario: Alderwick County, one Level I trauma centre, one community
@@ -68,4 +69,4 @@ export async function seedDemo(db: Knex, clock: Clock): Promise<DemoIds> {
 }
 
 /** Later features add their demo records (past cases, outcomes, policies) through these. */
-export const demoExtensions: Array<(db: Knex, ids: DemoIds, clock: Clock) => Promise<void>> = [seedNotificationLists, seedBoardDemo];
+export const demoExtensions: Array<(db: Knex, ids: DemoIds, clock: Clock) => Promise<void>> = [seedNotificationLists, seedBoardDemo, seedDemoReviews];
