@@ -1,0 +1,89 @@
+import fc from 'fast-check';
+import { describe, expect, it } from 'vitest';
+import type { ClinicalInput } from '../../../../shared/schemas/clinical';
+import { CONSIDERATIONS, FINDINGS } from '../../../../shared/schemas/clinical-options';
+import { evaluate } from '../../../../shared/triage/evaluate';
+import { LEVEL_RANK } from '../../../../shared/triage/policy';
+
+const RISK_RANK = { none: 0, moderate: 1, high: 2 } as const;
+const orNull = <T>(arb: fc.Arbitrary<T>) => fc.option(arb, { nil: null });
+
+const input: fc.Arbitrary<ClinicalInput> = fc.record({
+  ageYears: fc.oneof(fc.integer({ min: 0, max: 110 }), fc.double({ min: 0, max: 2, noNaN: true })),
+  sex: orNull(fc.constantFrom('female', 'male', 'other', 'unknown') as fc.Arbitrary<'female' | 'male' | 'other' | 'unknown'>),
+  pregnancyWeeks: orNull(fc.integer({ min: 0, max: 42 })),
+  anticoagulant: orNull(fc.boolean()),
+  fall: fc.record({
+    heightM: fc.double({ min: 0, max: 40, noNaN: true }),
+    headImpact: orNull(fc.boolean()),
+    firstImpact: orNull(fc.constantFrom('head', 'back', 'unknown') as fc.Arbitrary<'head' | 'back' | 'unknown'>),
+  }),
+  vitals: fc.record({
+    sbp: orNull(fc.integer({ min: 40, max: 220 })),
+    hr: orNull(fc.integer({ min: 30, max: 200 })),
+    rr: orNull(fc.integer({ min: 0, max: 60 })),
+    spo2: orNull(fc.integer({ min: 60, max: 100 })),
+    spo2RoomAir: orNull(fc.boolean()),
+    gcs: orNull(fc.record({ eye: orNull(fc.integer({ min: 1, max: 4 })), verbal: orNull(fc.integer({ min: 1, max: 5 })), motor: orNull(fc.integer({ min: 1, max: 6 })) })),
+    intubated: orNull(fc.boolean()),
+    respiratorySupport: orNull(fc.boolean()),
+    respiratoryDistress: orNull(fc.boolean()),
+  }),
+  findings: fc.subarray([...FINDINGS]),
+  considerations: fc.subarray([...CONSIDERATIONS]),
+});
+
+function notLower(before: ClinicalInput, after: ClinicalInput, set: 'field-2021' | 'field-2011') {
+  const a = evaluate(before, { set });
+  const b = evaluate(after, { set });
+  expect(RISK_RANK[b.fieldRisk]).toBeGreaterThanOrEqual(RISK_RANK[a.fieldRisk]);
+  expect(LEVEL_RANK[b.activation]).toBeGreaterThanOrEqual(LEVEL_RANK[a.activation]);
+}
+
+const sets = fc.constantFrom('field-2021', 'field-2011') as fc.Arbitrary<'field-2021' | 'field-2011'>;
+
+describe('the level never falls when the patient gets worse', () => {
+  it('adding a finding or a consideration', () => {
+    fc.assert(fc.property(input, fc.constantFrom(...FINDINGS), fc.constantFrom(...CONSIDERATIONS), sets, (x, finding, consideration, set) => {
+      notLower(x, { ...x, findings: [...(x.findings ?? []), finding] }, set);
+      notLower(x, { ...x, considerations: [...(x.considerations ?? []), consideration] }, set);
+    }), { numRuns: 400 });
+  });
+
+  it('a lower SBP, a faster heart, a lower SpO2, a lower GCS part, a breathing rate further from normal', () => {
+    fc.assert(fc.property(input, fc.integer({ min: 1, max: 40 }), sets, (x, by, set) => {
+      const v = x.vitals!;
+      const worse = (patch: Partial<NonNullable<ClinicalInput['vitals']>>) => notLower(x, { ...x, vitals: { ...v, ...patch } }, set);
+      if (v.sbp != null) worse({ sbp: Math.max(0, v.sbp - by) });
+      if (v.hr != null) worse({ hr: v.hr + by });
+      if (v.spo2 != null) worse({ spo2: Math.max(0, v.spo2 - by) });
+      if (v.rr != null) worse({ rr: v.rr < 19.5 ? Math.max(0, v.rr - by) : v.rr + by });
+      if (v.gcs?.motor != null) worse({ gcs: { ...v.gcs, motor: Math.max(1, v.gcs.motor - 1) } });
+      if (v.gcs?.eye != null) worse({ gcs: { ...v.gcs, eye: Math.max(1, v.gcs.eye - 1) } });
+    }), { numRuns: 400 });
+  });
+});
+
+describe('the order of findings does not matter', () => {
+  it('same result for any order of findings and considerations', () => {
+    fc.assert(fc.property(input, fc.infiniteStream(fc.double({ noNaN: true })), sets, (x, noise, set) => {
+      const shuffle = <T>(list: readonly T[]) => [...list].map((v) => ({ v, k: noise.next().value })).sort((a, b) => a.k - b.k).map((e) => e.v);
+      const shuffled = { ...x, findings: shuffle(x.findings ?? []), considerations: shuffle(x.considerations ?? []) };
+      expect(evaluate(shuffled, { set })).toEqual(evaluate(x, { set }));
+    }), { numRuns: 300 });
+  });
+});
+
+describe('unknown is never read as normal', () => {
+  it('whatever value a listed missing input would take, no fewer criteria fire than with it unknown', () => {
+    fc.assert(fc.property(input, fc.integer({ min: 0, max: 300 }), (x, sbp) => {
+      const unknown = evaluate({ ...x, vitals: { ...x.vitals, sbp: null } });
+      const known = evaluate({ ...x, vitals: { ...x.vitals, sbp } });
+      expect(LEVEL_RANK[known.activation]).toBeGreaterThanOrEqual(LEVEL_RANK[unknown.activation]);
+      // Where some SBP would raise the level, the unknown one must say so.
+      if (LEVEL_RANK[known.activation] > LEVEL_RANK[unknown.activation]) {
+        expect(unknown.missing.map((m) => m.field)).toContain('vitals.sbp');
+      }
+    }), { numRuns: 400 });
+  });
+});
