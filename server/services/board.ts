@@ -116,7 +116,8 @@ const needsAcknowledged = (row: CaseRow) => {
 };
 
 const planners: { [A in Exclude<BoardAction, 'page'>]: Planner<A> } = {
-  acknowledge(row, _body, { at, actor }) {
+  async acknowledge(row, _body, { at, db, actor }) {
+    if (row.acknowledged_at != null && !row.level_rose) throw conflict(await staleMessage(db, row, 'acknowledge'));
     return {
       update: {
         state: row.state === 'en-route' ? 'acknowledged' : row.state,

@@ -1,0 +1,313 @@
+import { randomUUID } from 'node:crypto';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { CaseSummary } from '../../shared/schemas/cases';
+import type { BoardSnapshot } from '../../shared/schemas/board';
+import { hashPassword } from '../../server/auth/passwords';
+import { verifyAuditChain } from '../../server/services/audit';
+import { startTestServer, type TestServer } from '../support/server';
+import { signIn, type SignedInClient } from '../support/sign-in';
+import { command, connectAs, nextEvent, type TestSocket } from '../support/socket';
+
+let server: TestServer;
+let nurse: SignedInClient;
+let medic: SignedInClient;
+let crew: TestSocket;
+let general: number;
+let fenmoor: number;
+
+// 2021 guideline (Newgard 2022) [source]: SBP < 90 at age 10–64 is high risk; the example policy
+// (CLINICAL.md §4 [ours]) calls its full level for it.
+const hypotensiveRoofer = { ageYears: 34, sex: 'male', fall: { heightM: 4, surface: 'concrete', firstImpact: 'back' }, vitals: { sbp: 84, hr: 120 } };
+// A fall over 10 ft (3.048 m) is a 2021 moderate-risk criterion [source: Newgard 2022] → consult.
+const ladderFall = { ageYears: 50, sex: 'female', fall: { heightM: 3.5, surface: 'grass', firstImpact: 'lower-limb-feet' }, vitals: { sbp: 130, hr: 80 } };
+// Same patient, second set: SBP 84 at 10–64 is high risk → the example policy's full level.
+const ladderFallWorse = { ...ladderFall, vitals: { sbp: 84, hr: 118 } };
+// From standing, normal vitals, age 30: no criterion → none.
+const stumble = { ageYears: 30, sex: 'male', fall: { heightM: 0, surface: 'wood', firstImpact: 'upper-limb' }, vitals: { sbp: 128, hr: 76 } };
+
+async function submit(clinical: unknown, hospitalId = general, extra: Record<string, unknown> = {}): Promise<CaseSummary> {
+  const answer = await command<{ summary: CaseSummary }>(crew, 'case:submit', { clientId: randomUUID(), hospitalId, etaMinutes: 10, clinical, ...extra });
+  if (!answer.ok) throw new Error(answer.error.message);
+  return answer.data.summary;
+}
+
+async function act(client: SignedInClient, summary: Pick<CaseSummary, 'id' | 'rowVersion'>, action: string, body: Record<string, unknown> = {}) {
+  const res = await client.send('POST', `/api/cases/${summary.id}/${action}`, { rowVersion: summary.rowVersion, ...body });
+  return { status: res.status, body: await res.json() };
+}
+
+async function current(id: number): Promise<CaseSummary> {
+  return (await (await nurse.get(`/api/cases/${id}`)).json()).case;
+}
+
+async function kinds(id: number): Promise<string[]> {
+  return (await server.db('case_events').where({ case_id: id }).orderBy('id').select('kind')).map((r) => r.kind);
+}
+
+async function addUser(email: string, name: string, role: string, place: { hospital_id?: number; agency_id?: number }) {
+  const [user] = await server.db('users').insert({ email, name, password_hash: await hashPassword('demo'), active: true, created_at: Date.now() }).returning('id');
+  await server.db('user_roles').insert({ user_id: user.id, role });
+  await server.db('memberships').insert({ user_id: user.id, hospital_id: null, agency_id: null, ...place });
+}
+
+beforeAll(async () => {
+  server = await startTestServer();
+  const hospitals = await server.db('hospitals').select('id', 'name');
+  general = hospitals.find((h) => h.name === 'Alderwick General Hospital')!.id;
+  fenmoor = hospitals.find((h) => h.name === 'Fenmoor Community Hospital')!.id;
+  nurse = await signIn(server.url, 'nurse@plumbline.test');
+  medic = await signIn(server.url, 'paramedic@plumbline.test');
+  crew = await connectAs(server.url, medic);
+});
+afterAll(async () => {
+  crew?.close();
+  await server?.close();
+});
+
+describe('the board snapshot', () => {
+  it('gives a charge nurse her own hospital, its open cases in arrival order and the level names', async () => {
+    const mine = await submit(hypotensiveRoofer);
+    const res = await nurse.get('/api/board');
+    expect(res.status).toBe(200);
+    const board = (await res.json()) as BoardSnapshot;
+    expect(board.hospital).toEqual({ id: general, name: 'Alderwick General Hospital', heightUnit: 'ft', escalationMinutes: 2 });
+    expect(board.levels.map((l) => l.name)).toEqual(['Full trauma team', 'Limited trauma team', 'Trauma consult', 'No activation']);
+    expect(board.cases.find((c) => c.id === mine.id)?.recommendedLevel).toBe('full');
+    expect(board.cases.every((c) => c.hospital.id === general && ['en-route', 'acknowledged', 'arrived'].includes(c.state))).toBe(true);
+    const etas = board.cases.filter((c) => c.etaAt != null).map((c) => c.etaAt!);
+    expect(etas).toEqual([...etas].sort((a, b) => a - b));
+  });
+
+  it('refuses another hospital (403), a paramedic (403) and nobody signed in (401)', async () => {
+    expect((await nurse.get(`/api/board?hospitalId=${fenmoor}`)).status).toBe(403);
+    expect((await medic.get('/api/board')).status).toBe(403);
+    expect((await fetch(`${server.url}/api/board`)).status).toBe(401);
+    const bad = await nurse.get('/api/board?hospitalId=abc');
+    expect(bad.status).toBe(400);
+    expect((await bad.json()).error.field).toBe('hospitalId');
+  });
+});
+
+describe('acknowledging a pre-alert', () => {
+  it('moves it to acknowledged, names the nurse, and the crew hears it within a second', async () => {
+    const summary = await submit(hypotensiveRoofer);
+    const heard = nextEvent<[CaseSummary, { kind: string; by: string }]>(crew, 'case:updated', 1000);
+    const { status, body } = await act(nurse, summary, 'acknowledge');
+    expect(status).toBe(200);
+    expect([body.case.state, body.case.acknowledgedBy, body.case.rowVersion]).toEqual(['acknowledged', 'Morgan Achterberg', summary.rowVersion + 1]);
+    const [seen, change] = await heard;
+    expect([seen.id, seen.state, seen.acknowledgedBy, change.kind, change.by]).toEqual([summary.id, 'acknowledged', 'Morgan Achterberg', 'acknowledged', 'Morgan Achterberg']);
+    expect(await kinds(summary.id)).toEqual(['received', 'acknowledged']);
+    const audit = await server.db('audit_log').where({ case_id: summary.id }).orderBy('id').select('action', 'actor_role');
+    expect(audit).toEqual([{ action: 'case.received', actor_role: 'paramedic' }, { action: 'case.acknowledged', actor_role: 'charge_nurse' }]);
+  });
+
+  it('of two nurses acknowledging at once, the first wins and the second is told who and when; both boards agree', async () => {
+    await addUser('second.nurse@plumbline.test', 'Rafe Lindqvist', 'charge_nurse', { hospital_id: general });
+    const other = await signIn(server.url, 'second.nurse@plumbline.test');
+    const summary = await submit(hypotensiveRoofer);
+    const [a, b] = await Promise.all([act(nurse, summary, 'acknowledge'), act(other, summary, 'acknowledge')]);
+    const results = [a, b].sort((x, y) => x.status - y.status);
+    expect(results.map((r) => r.status)).toEqual([200, 409]);
+    const winner = results[0].body.case.acknowledgedBy as string;
+    expect(['Morgan Achterberg', 'Rafe Lindqvist']).toContain(winner);
+    const at = new Date(results[0].body.case.acknowledgedAt);
+    const hhmm = `${String(at.getHours()).padStart(2, '0')}:${String(at.getMinutes()).padStart(2, '0')}`;
+    expect(results[1].body.error).toEqual({ code: 'conflict', message: `Already acknowledged by ${winner} at ${hhmm}.` });
+    // The loser's answer carries the case as it stands, so its board shows the winner's acknowledgement.
+    expect(results[1].body.case).toEqual(results[0].body.case);
+    const boards = await Promise.all([nurse.get('/api/board'), other.get('/api/board')].map(async (r) => ((await (await r).json()) as BoardSnapshot).cases.find((c) => c.id === summary.id)));
+    expect(boards[0]).toEqual(boards[1]);
+    expect(await kinds(summary.id)).toEqual(['received', 'acknowledged']);
+  });
+
+  it('is the charge nurse’s: a paramedic and a trauma lead get 403, nobody signed in 401, and nothing changes', async () => {
+    const summary = await submit(hypotensiveRoofer);
+    const lead = await signIn(server.url, 'lead@plumbline.test');
+    expect((await act(medic, summary, 'acknowledge')).status).toBe(403);
+    expect((await act(lead, summary, 'acknowledge')).status).toBe(403);
+    const anonymous = await fetch(`${server.url}/api/cases/${summary.id}/acknowledge`, { method: 'POST', headers: { 'content-type': 'application/json', origin: server.url }, body: JSON.stringify({ rowVersion: 1 }) });
+    expect(anonymous.status).toBe(401);
+    expect((await current(summary.id)).state).toBe('en-route');
+  });
+
+  it('at another hospital is refused (403) for every action, and the case stays as it was', async () => {
+    const toFenmoor = await submit(hypotensiveRoofer, fenmoor);
+    for (const action of ['acknowledge', 'decide', 'bay', 'page', 'arrived', 'team-at-bedside', 'close']) {
+      const { status, body } = await act(nurse, toFenmoor, action, { level: 'full', bay: 'Resus 1' });
+      expect([action, status, body.error.code]).toEqual([action, 403, 'forbidden']);
+    }
+    const fenmoorNurse = await signIn(server.url, 'fenmoor.nurse@plumbline.test');
+    const { status, body } = await act(fenmoorNurse, toFenmoor, 'acknowledge');
+    expect([status, body.case.acknowledgedBy]).toEqual([200, 'Ilse Brannagh']);
+    expect(await kinds(toFenmoor.id)).toEqual(['received', 'acknowledged']);
+  });
+
+  it('with a stale version (the crew updated meanwhile) is refused with the case as it now stands', async () => {
+    const summary = await submit(ladderFall);
+    const update = await command<{ summary: CaseSummary; rose: boolean }>(crew, 'case:update', { caseId: summary.id, clinical: ladderFallWorse });
+    expect(update.ok && update.data.rose).toBe(true);
+    const { status, body } = await act(nurse, summary, 'acknowledge');
+    expect(status).toBe(409);
+    expect(body.error.message).toMatch(/^The case changed first \(updated by the crew by Robin Vasquez-Hale at \d\d:\d\d\)\./);
+    expect([body.case.recommendedLevel, body.case.levelRose, body.case.rowVersion]).toEqual(['full', true, 2]);
+  });
+
+  it('clears the "level rose" mark, and a second acknowledgement with nothing new is refused', async () => {
+    const summary = await submit(ladderFall);
+    const first = await act(nurse, summary, 'acknowledge');
+    expect(first.body.case.recommendedLevel).toBe('consult');
+    const update = await command<{ summary: CaseSummary }>(crew, 'case:update', { caseId: summary.id, clinical: ladderFallWorse });
+    if (!update.ok) throw new Error(update.error.message);
+    expect(update.data.summary.levelRose).toBe(true);
+    const again = await act(nurse, update.data.summary, 'acknowledge');
+    expect([again.status, again.body.case.levelRose, again.body.case.recommendedLevel, again.body.case.state]).toEqual([200, false, 'full', 'acknowledged']);
+    const third = await act(nurse, again.body.case, 'acknowledge');
+    expect(third.status).toBe(409);
+    expect(third.body.error.message).toMatch(/^Already acknowledged by Morgan Achterberg at \d\d:\d\d\.$/);
+    expect(await kinds(summary.id)).toEqual(['received', 'acknowledged', 'revised', 'acknowledged']);
+  });
+});
+
+describe('deciding the level', () => {
+  it('needs the case acknowledged first (409, with the case)', async () => {
+    const summary = await submit(hypotensiveRoofer);
+    const { status, body } = await act(nurse, summary, 'decide', { level: 'full' });
+    expect([status, body.error.message, body.case.decidedLevel]).toEqual([409, 'Acknowledge the case first.', null]);
+  });
+
+  it('below the recommendation without a reason is a 400 naming reason, and nothing is saved', async () => {
+    const summary = (await act(nurse, await submit(hypotensiveRoofer), 'acknowledge')).body.case as CaseSummary;
+    const { status, body } = await act(nurse, summary, 'decide', { level: 'limited' });
+    expect(status).toBe(400);
+    expect(body.error).toMatchObject({
+      code: 'invalid',
+      field: 'reason',
+      message: 'reason: is required to decide Limited trauma team, below the recommended Full trauma team: say why in a few words',
+    });
+    const blank = await act(nurse, summary, 'decide', { level: 'consult', reason: '  ' });
+    expect([blank.status, blank.body.error.field]).toEqual([400, 'reason']);
+    const after = await current(summary.id);
+    expect([after.decidedLevel, after.decidedReason, after.rowVersion]).toEqual([null, null, summary.rowVersion]);
+    expect(await kinds(summary.id)).toEqual(['received', 'acknowledged']);
+  });
+
+  it('below the recommendation with a reason is saved with the reason and audited as below', async () => {
+    const summary = (await act(nurse, await submit(hypotensiveRoofer), 'acknowledge')).body.case as CaseSummary;
+    const reason = 'Walking at scene; second SBP 118 per crew by phone.';
+    const { status, body } = await act(nurse, summary, 'decide', { level: 'limited', reason });
+    expect([status, body.case.decidedLevel, body.case.decidedReason, body.case.decidedBy]).toEqual([200, 'limited', reason, 'Morgan Achterberg']);
+    const event = await server.db('case_events').where({ case_id: summary.id, kind: 'level-decided' }).first('data');
+    expect(JSON.parse(event.data)).toEqual({ level: 'limited', recommended: 'full', below: true, reason, revision: 1 });
+  });
+
+  it('at or above the recommendation needs no reason; an unknown level is a 400 naming level', async () => {
+    const summary = (await act(nurse, await submit(stumble), 'acknowledge')).body.case as CaseSummary;
+    expect(summary.recommendedLevel).toBe('none');
+    const bad = await act(nurse, summary, 'decide', { level: 'maximum' });
+    expect([bad.status, bad.body.error.field, bad.body.error.message]).toEqual([400, 'level', 'level: must be one of: full, limited, consult, none']);
+    const up = await act(nurse, summary, 'decide', { level: 'consult' });
+    expect([up.status, up.body.case.decidedLevel, up.body.case.decidedReason]).toEqual([200, 'consult', null]);
+  });
+});
+
+describe('the rest of a case: bay, page, arrival, the team leader at the bedside, close', () => {
+  it('runs through every step, each one audited once, and the page is received over SMTP by the mail fake', async () => {
+    const notes = 'Patient name Ada Example, lives at 4 Example Row';
+    let summary = await submit(hypotensiveRoofer, general, { notes, etaMinutes: 9 });
+    const step = async (action: string, body: Record<string, unknown> = {}) => {
+      const answer = await act(nurse, summary, action, body);
+      expect([action, answer.status]).toEqual([action, 200]);
+      summary = answer.body.case;
+      return summary;
+    };
+    await step('acknowledge');
+    const noBay = await act(nurse, summary, 'bay', { bay: '   ' });
+    expect([noBay.status, noBay.body.error.field]).toEqual([400, 'bay']);
+    const early = await act(nurse, summary, 'page');
+    expect([early.status, early.body.error.message]).toEqual([409, 'Decide the level before paging the team.']);
+    await step('decide', { level: 'full' });
+    const crewHearsBay = nextEvent<[CaseSummary]>(crew, 'case:updated', 1000);
+    expect((await step('bay', { bay: 'Resus 2' })).bay).toBe('Resus 2');
+    expect((await crewHearsBay)[0].bay).toBe('Resus 2');
+    expect((await step('page')).pagedAt).toBeGreaterThan(0);
+
+    const mails = await server.db('mail_messages').where('subject', 'like', `%case ${summary.caseNumber})`).select('recipients', 'subject', 'text', 'sender');
+    expect(mails).toHaveLength(1);
+    const [mail] = mails;
+    // The demo's full-activation list for Alderwick General, as the SMTP envelope carried it.
+    expect(JSON.parse(mail.recipients).sort()).toEqual(['theatre-coordinator@alderwick-general.plumbline.test', 'trauma-full@alderwick-general.plumbline.test']);
+    expect(mail.sender).toBe('plumbline@plumbline.test');
+    expect(mail.subject).toMatch(new RegExp(`^Full trauma team: ETA \\d\\d:\\d\\d \\(in 9 min\\), Resus 2 \\(Alderwick General Hospital, case ${summary.caseNumber}\\)$`));
+    expect(mail.text).toContain('Level: Full trauma team');
+    expect(mail.text).toContain('Bay: Resus 2');
+    expect(mail.text).toContain('Patient: 34-year-old male');
+    expect(mail.text).toContain('Fall: 13 ft, onto concrete, first impact back');
+    expect(mail.text).toContain('Latest vitals: SBP 84, HR 120');
+    expect(mail.text).toMatch(/Criteria met:\n- .*SBP 84/);
+    expect(mail.text).not.toContain('Ada Example');
+    expect(mail.text).not.toContain('Example Row');
+
+    const admin = await signIn(server.url, 'admin@plumbline.test');
+    const inbox = await (await admin.get('/api/mail')).json();
+    expect(inbox.local).toBe(true);
+    expect(inbox.messages.some((m: { subject: string }) => m.subject === mail.subject)).toBe(true);
+
+    const bedsideTooSoon = await act(nurse, summary, 'team-at-bedside');
+    expect([bedsideTooSoon.status, bedsideTooSoon.body.error.message]).toEqual([409, 'Mark the patient arrived first.']);
+    const future = await act(nurse, summary, 'arrived', { at: Date.now() + 30 * 60_000 });
+    expect([future.status, future.body.error.field, future.body.error.message]).toEqual([400, 'at', 'at: cannot be in the future']);
+    const arrivedAt = Date.now();
+    expect((await step('arrived', { at: arrivedAt })).arrivedAt).toBe(arrivedAt);
+    expect(summary.state).toBe('arrived');
+    const beforeArrival = await act(nurse, summary, 'team-at-bedside', { at: arrivedAt - 60_000 });
+    expect([beforeArrival.status, beforeArrival.body.error.field]).toEqual([400, 'at']);
+    expect((await step('team-at-bedside')).teamAtBedsideAt).toBeGreaterThanOrEqual(arrivedAt);
+
+    const boardHearsClose = nextEvent<[CaseSummary]>(crew, 'case:updated', 1000);
+    expect((await step('close')).state).toBe('closed');
+    expect((await boardHearsClose)[0].state).toBe('closed');
+    const board = (await (await nurse.get('/api/board')).json()) as BoardSnapshot;
+    expect(board.cases.some((c) => c.id === summary.id)).toBe(false);
+    const afterClose = await act(nurse, summary, 'bay', { bay: 'Resus 3' });
+    expect([afterClose.status, afterClose.body.error.message]).toEqual([409, `Case ${summary.caseNumber} is closed; it is no longer on the board.`]);
+
+    expect(await kinds(summary.id)).toEqual(['received', 'acknowledged', 'level-decided', 'bay-assigned', 'paged', 'arrived', 'team-at-bedside', 'closed']);
+    expect(await verifyAuditChain(server.db)).toMatchObject({ ok: true });
+  });
+
+  it('does not page when no activation was decided, nor to a list with no addresses', async () => {
+    const none = (await act(nurse, await submit(stumble), 'acknowledge')).body.case as CaseSummary;
+    const decided = (await act(nurse, none, 'decide', { level: 'none' })).body.case as CaseSummary;
+    const page = await act(nurse, decided, 'page');
+    expect([page.status, page.body.error.message]).toEqual([409, 'No activation was decided, so there is no team to page.']);
+
+    const consult = (await act(nurse, await submit(ladderFall), 'acknowledge')).body.case as CaseSummary;
+    const decidedConsult = (await act(nurse, consult, 'decide', { level: 'consult' })).body.case as CaseSummary;
+    const saved = await server.db('notification_lists').where({ hospital_id: general, list: 'consult' }).select();
+    await server.db('notification_lists').where({ hospital_id: general, list: 'consult' }).delete();
+    try {
+      const empty = await act(nurse, decidedConsult, 'page');
+      expect([empty.status, empty.body.error.code, empty.body.error.message]).toEqual([409, 'no_recipients', 'The Trauma consult list has no addresses. An administrator adds them in People & places.']);
+      expect((await current(consult.id)).pagedAt).toBeNull();
+    } finally {
+      await server.db('notification_lists').insert(saved);
+    }
+  });
+
+  it('closing a case whose patient never arrived needs a reason (400 naming reason)', async () => {
+    const summary = (await act(nurse, await submit(stumble), 'acknowledge')).body.case as CaseSummary;
+    const bare = await act(nurse, summary, 'close');
+    expect([bare.status, bare.body.error.field]).toEqual([400, 'reason']);
+    const closed = await act(nurse, summary, 'close', { reason: 'Crew phoned: taken to Fenmoor instead.' });
+    expect([closed.status, closed.body.case.state]).toEqual([200, 'closed']);
+  });
+
+  it('a missing or wrong rowVersion is a 400 naming rowVersion', async () => {
+    const summary = await submit(stumble);
+    const res = await nurse.send('POST', `/api/cases/${summary.id}/acknowledge`, {});
+    const body = await res.json();
+    expect([res.status, body.error.field]).toEqual([400, 'rowVersion']);
+    expect((await nurse.send('POST', `/api/cases/999999/acknowledge`, { rowVersion: 1 })).status).toBe(404);
+  });
+});
