@@ -5,6 +5,7 @@ import type { Clock } from '../deps';
 import { seedNotificationLists } from './people';
 import { seedDemoReviews } from './review-demo';
 import { seedBoardDemo } from './board-demo';
+import { seedDemoOutcomes } from './quality-demo';
 
 // The invented demo scenario: Alderwick County, one Level I trauma centre, one community
 // hospital, one county ambulance service. Every name here is made up.
@@ -69,4 +70,4 @@ export async function seedDemo(db: Knex, clock: Clock): Promise<DemoIds> {
 }
 
 /** Later features add their demo records (past cases, outcomes, policies) through these. */
-export const demoExtensions: Array<(db: Knex, ids: DemoIds, clock: Clock) => Promise<void>> = [seedNotificationLists, seedBoardDemo, seedDemoReviews];
+export const demoExtensions: Array<(db: Knex, ids: DemoIds, clock: Clock) => Promise<void>> = [seedNotificationLists, seedBoardDemo, seedDemoReviews, seedDemoOutcomes];
