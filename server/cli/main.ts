@@ -15,6 +15,8 @@ const usage = `Usage: plumbline <command>
   cribari               CSV (activation,iss[,nfti]) on stdin, the matrix and rates as JSON
   iss                   {"injuries":[{"region","ais"}]} on stdin, {"iss","niss"} on stdout
   audit verify          check the audit trail's hash chain; names the first broken row (exit 1)
+  backup FILE           an online copy of the database (SQLite's backup API) while the server runs
+  restore FILE          put a backup back in place; refuses while a server has the database open
 `;
 
 const io = { stdin: process.stdin, stdout: process.stdout, stderr: process.stderr };
@@ -51,6 +53,11 @@ export async function main(argv: string[]): Promise<number> {
       const engine = await import('./engine-commands');
       const run = { evaluate: engine.evaluateCommand, cribari: engine.cribariCommand, iss: engine.issCommand }[command];
       return run(args, io);
+    }
+    case 'backup':
+    case 'restore': {
+      const { backupCommand, restoreCommand } = await import('./backup-command');
+      return (command === 'backup' ? backupCommand : restoreCommand)(args, io);
     }
     case 'audit': {
       const { auditCommand } = await import('./audit-command');

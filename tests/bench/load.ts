@@ -1,0 +1,435 @@
+// Many ambulances and boards on the real server while connections drop and the server process
+// dies: every acknowledged pre-alert must reach every board of its destination, once.
+import { randomUUID } from 'node:crypto';
+import { performance } from 'node:perf_hooks';
+import { io as connect, type Socket } from 'socket.io-client';
+import type { CaseSummary } from '../../shared/schemas/cases';
+import type { ClinicalInput } from '../../shared/schemas/clinical';
+import type { AckResponse, ClientToServerEvents, ServerToClientEvents } from '../../shared/realtime/events';
+import { createDb } from '../../server/db';
+import { signIn, type SignedInClient } from '../support/sign-in';
+import { childServer, databaseFileOf, tempDataDir, type ChildServer } from './support/child-server';
+import { prepareRegion } from './support/fixtures';
+import { percentile, round1, seededRandom, trafficOf } from './support/traffic';
+
+type ClientSocket = Socket<ServerToClientEvents, ClientToServerEvents>;
+
+export interface LoadOptions {
+  ambulances: number;
+  boards: number;
+  hospitals: number;
+  /** Signed-in crew sessions the ambulances share (a crew's tablet and phone share one). */
+  crewSessions: number;
+  alerts: number;
+  updates: number;
+  sendsPerSecond: number;
+  /** Connections cut per second, picked at random among ambulances and boards. */
+  dropsPerSecond: number;
+  /** How long, after the last send, the ambulances may take to empty their outboxes. */
+  settleMs: number;
+  log(line: string): void;
+}
+
+export const defaultLoadOptions: LoadOptions = {
+  ambulances: 200,
+  boards: 20,
+  hospitals: 4,
+  crewSessions: 5,
+  alerts: 1000,
+  updates: 300,
+  sendsPerSecond: 20,
+  dropsPerSecond: 1,
+  settleMs: 45_000,
+  log: () => {},
+};
+
+export interface LoadResult {
+  ambulances: number;
+  boards: number;
+  hospitals: number;
+  alerts: number;
+  acknowledged: number;
+  unacknowledged: number;
+  delivered: number;
+  lost: number;
+  duplicated: number;
+  missingInDatabase: number;
+  updates: number;
+  updatesAcknowledged: number;
+  updatesLost: number;
+  alertsRefused: number;
+  updatesRefused: number;
+  foreignDeliveries: number;
+  resent: number;
+  drops: number;
+  restarts: number;
+  restartKinds: string[];
+  freshReconnects: number;
+  recoveredReconnects: number;
+  snapshots: number;
+  p50Ms: number | null;
+  p99Ms: number | null;
+  latencySamples: number;
+  summaryBytes: number;
+  durationS: number;
+}
+
+interface Outgoing {
+  clientId: string;
+  hospitalId: number;
+  clinical: ClinicalInput;
+  attempts: number;
+  lastEmitAt: number;
+  ack?: { caseId: number; caseNumber: string };
+}
+
+interface Ambulance {
+  socket: ClientSocket;
+  outbox: Map<string, Outgoing>;
+  cases: Array<{ caseId: number; clinical: ClinicalInput; updates: number; busy: boolean }>;
+}
+
+interface Board {
+  socket: ClientSocket;
+  client: SignedInClient;
+  hospitalId: number;
+  /** clientId → the case ids it was seen under and the highest revision seen. */
+  seen: Map<string, { ids: Set<number>; revision: number }>;
+  connectedAt: number;
+}
+
+const now = () => performance.now();
+
+function openSocket(url: string, cookie: string): ClientSocket {
+  // The product's own client settings (src/api/socket.ts): socket.io reconnects by itself.
+  return connect(url, { transports: ['websocket'], forceNew: true, reconnectionDelayMax: 5000, extraHeaders: { cookie } });
+}
+
+function connected(socket: ClientSocket): Promise<void> {
+  if (socket.connected) return Promise.resolve();
+  return new Promise((resolve, reject) => {
+    const timer = setTimeout(() => reject(new Error('no connection within 20 s')), 20_000);
+    socket.once('connect', () => {
+      clearTimeout(timer);
+      resolve();
+    });
+  });
+}
+
+async function inBatches<T>(items: T[], size: number, run: (item: T) => Promise<unknown>): Promise<void> {
+  for (let i = 0; i < items.length; i += size) await Promise.all(items.slice(i, i + size).map(run));
+}
+
+export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadResult> {
+  const opts = { ...defaultLoadOptions, ...partial };
+  const { log } = opts;
+  const random = seededRandom(20261209);
+  const traffic = trafficOf(random);
+  const dataDir = tempDataDir();
+  const region = await prepareRegion(dataDir, { hospitals: opts.hospitals, paramedics: opts.crewSessions });
+  const server = await childServer({ dataDir });
+  const sockets: ClientSocket[] = [];
+  const started = now();
+  try {
+    await server.start();
+    log(`load: server up at ${server.url} (pid ${server.pid})`);
+
+    const crews = await Promise.all(region.paramedicEmails.map((email) => signIn(server.url, email)));
+    // Two screens per ED (the desk and the wall), each its own session, as in a real department.
+    const boardSessions = await Promise.all(region.hospitals.flatMap((h) => [signIn(server.url, h.nurseEmail), signIn(server.url, h.nurseEmail)]));
+    const crewCookies = await Promise.all(crews.map((c) => c.cookieHeader()));
+
+    const outgoing = new Map<string, Outgoing>();
+    const updatesAcked: Array<{ caseId: number; clientId: string; hospitalId: number; revision: number }> = [];
+    let alertsRefused = 0;
+    let updatesRefused = 0;
+    let resent = 0;
+    let updatesSent = 0;
+    let foreignDeliveries = 0;
+    let freshReconnects = 0;
+    let recoveredReconnects = 0;
+    let snapshots = 0;
+    let summaryBytes = 0;
+    let summaryCount = 0;
+    const latencies: number[] = [];
+    const ambulances: Ambulance[] = [];
+    const boards: Board[] = [];
+    const idOfCase = new Map<number, string>();
+
+    const emitAlert = (amb: Ambulance, item: Outgoing) => {
+      if (!amb.socket.connected || item.ack) return;
+      item.attempts++;
+      if (item.attempts > 1) resent++;
+      item.lastEmitAt = now();
+      const payload = { clientId: item.clientId, hospitalId: item.hospitalId, etaMinutes: traffic.between(5, 40), clinical: item.clinical };
+      amb.socket.timeout(10_000).emit('case:submit', payload, (err: Error | null, answer: AckResponse<{ caseId: number; caseNumber: string; created: boolean; summary: CaseSummary }>) => {
+        if (item.ack) {
+          // A resend answered after the first: it must name the same case.
+          if (!err && answer.ok && answer.data.caseId !== item.ack.caseId) item.ack = { ...item.ack, caseId: -1 };
+          return;
+        }
+        if (err) {
+          // Disconnected: the reconnect resends. Timed out on a live link: send again now.
+          if (amb.socket.connected) emitAlert(amb, item);
+          return;
+        }
+        if (!answer.ok) {
+          alertsRefused++;
+          log(`load: pre-alert refused: ${answer.error.code} ${answer.error.message}`);
+          amb.outbox.delete(item.clientId);
+          return;
+        }
+        item.ack = { caseId: answer.data.caseId, caseNumber: answer.data.caseNumber };
+        idOfCase.set(answer.data.caseId, item.clientId);
+        amb.outbox.delete(item.clientId);
+        amb.cases.push({ caseId: answer.data.caseId, clinical: item.clinical, updates: 0, busy: false });
+      });
+    };
+
+    const observe = (board: Board, summary: CaseSummary, live: boolean) => {
+      if (summary.hospital.id !== board.hospitalId) {
+        foreignDeliveries++;
+        return;
+      }
+      const sent = outgoing.get(summary.clientId);
+      if (!sent) return; // A demo case, not one of ours.
+      let entry = board.seen.get(summary.clientId);
+      if (!entry) {
+        entry = { ids: new Set(), revision: 0 };
+        board.seen.set(summary.clientId, entry);
+        // One clean attempt on a board that stayed connected: a latency sample. Deliveries across
+        // a cut or a restart are counted, not timed.
+        if (live && sent.attempts === 1 && board.connectedAt < sent.lastEmitAt) latencies.push(now() - sent.lastEmitAt);
+      }
+      entry.ids.add(summary.id);
+      entry.revision = Math.max(entry.revision, summary.revision);
+    };
+
+    const snapshot = async (board: Board) => {
+      for (let attempt = 0; attempt < 40; attempt++) {
+        try {
+          const res = await board.client.get('/api/cases');
+          if (res.ok) {
+            const body = (await res.json()) as { cases: CaseSummary[] };
+            snapshots++;
+            for (const summary of body.cases) observe(board, summary, false);
+            return;
+          }
+        } catch {
+          // The server is away; the board tries again as the real one would.
+        }
+        await new Promise((r) => setTimeout(r, 500));
+      }
+      log('load: a board could not load its snapshot');
+    };
+
+    let boardIndex = 0;
+    for (const [h, hospital] of region.hospitals.entries()) {
+      const perHospital = Math.floor(opts.boards / region.hospitals.length) + (h < opts.boards % region.hospitals.length ? 1 : 0);
+      for (let i = 0; i < perHospital; i++, boardIndex++) {
+        const client = boardSessions[h * 2 + (i % 2)];
+        const board: Board = { socket: openSocket(server.url, await client.cookieHeader()), client, hospitalId: hospital.id, seen: new Map(), connectedAt: 0 };
+        let first = true;
+        board.socket.on('connect', () => {
+          board.connectedAt = now();
+          if (!first) {
+            if (board.socket.recovered) recoveredReconnects++;
+            else freshReconnects++;
+          }
+          first = false;
+          // The real board reloads the truth after every connection that did not recover its state.
+          if (!board.socket.recovered) void snapshot(board);
+        });
+        board.socket.on('case:submitted', (summary) => {
+          summaryBytes += JSON.stringify(summary).length;
+          summaryCount++;
+          observe(board, summary, true);
+        });
+        board.socket.on('case:updated', (summary) => observe(board, summary, true));
+        board.socket.on('disconnect', (reason) => {
+          if (reason === 'io server disconnect') board.socket.connect();
+        });
+        boards.push(board);
+        sockets.push(board.socket);
+      }
+    }
+
+    for (let i = 0; i < opts.ambulances; i++) {
+      const amb: Ambulance = { socket: openSocket(server.url, crewCookies[i % crewCookies.length]), outbox: new Map(), cases: [] };
+      let first = true;
+      amb.socket.on('connect', () => {
+        if (!first) {
+          if (amb.socket.recovered) recoveredReconnects++;
+          else freshReconnects++;
+        }
+        first = false;
+        // The outbox rule: whatever was not acknowledged goes again when the link is back.
+        for (const item of amb.outbox.values()) emitAlert(amb, item);
+      });
+      amb.socket.on('disconnect', (reason) => {
+        if (reason === 'io server disconnect') amb.socket.connect();
+      });
+      ambulances.push(amb);
+      sockets.push(amb.socket);
+    }
+    await inBatches(sockets, 50, connected);
+    log(`load: ${ambulances.length} ambulances and ${boards.length} boards connected`);
+
+    // The schedule: a steady rate of sends; two restarts of the server process, the first a kill -9.
+    const total = opts.alerts + opts.updates;
+    const intervalMs = 1000 / opts.sendsPerSecond;
+    const restartAt = [Math.floor(total * 0.3), Math.floor(total * 0.65)];
+    const restartKinds: string[] = [];
+    const faults: { restarting: Promise<void> | null } = { restarting: null };
+    let drops = 0;
+    let alertsSent = 0;
+    const dropTimer = setInterval(() => {
+      for (let k = 0; k < Math.max(1, Math.round(opts.dropsPerSecond / 2)); k++) {
+        const victim = random() < 0.15 ? boards[Math.floor(random() * boards.length)].socket : ambulances[Math.floor(random() * ambulances.length)].socket;
+        if (!victim.connected) continue;
+        (victim.io as unknown as { engine: { close(): void } }).engine.close();
+        drops++;
+      }
+    }, 2000 / Math.max(1, opts.dropsPerSecond));
+
+    const restart = (signal: NodeJS.Signals) => {
+      restartKinds.push(signal);
+      const pid = server.pid;
+      faults.restarting = (async () => {
+        await server.stop(signal);
+        log(`load: server ${pid} stopped by ${signal}; starting again on the same port and file`);
+        await server.start();
+        log(`load: server up again (pid ${server.pid})`);
+      })().finally(() => {
+        faults.restarting = null;
+      });
+    };
+
+    const sendStart = now();
+    const maxTicks = total * 2;
+    for (let tick = 0; (alertsSent < opts.alerts || updatesSent < opts.updates) && tick < maxTicks; tick++) {
+      const wait = sendStart + tick * intervalMs - now();
+      if (wait > 0) await new Promise((r) => setTimeout(r, wait));
+      if (tick === restartAt[0]) restart('SIGKILL');
+      if (tick === restartAt[1]) {
+        if (faults.restarting) await faults.restarting;
+        restart('SIGTERM');
+      }
+      const wantUpdate = updatesSent < opts.updates && (alertsSent >= opts.alerts || random() < opts.updates / total);
+      const candidates = wantUpdate ? ambulances.filter((a) => a.socket.connected && a.cases.some((c) => c.updates < 2 && !c.busy)) : [];
+      if (candidates.length) {
+        const amb = candidates[Math.floor(random() * candidates.length)];
+        // One update of a case at a time, as from one crew's screen.
+        const open = amb.cases.filter((c) => c.updates < 2 && !c.busy);
+        const target = open[Math.floor(random() * open.length)];
+        target.updates++;
+        target.busy = true;
+        target.clinical = traffic.update(target.clinical);
+        updatesSent++;
+        const clientId = idOfCase.get(target.caseId)!;
+        const hospitalId = outgoing.get(clientId)!.hospitalId;
+        // Updates carry no client id, so they are not resent blindly; only acknowledged ones are checked.
+        amb.socket.timeout(10_000).emit('case:update', { caseId: target.caseId, etaMinutes: traffic.between(2, 30), clinical: target.clinical }, (err: Error | null, answer: AckResponse<{ summary: CaseSummary }>) => {
+          target.busy = false;
+          if (err) return;
+          if (!answer.ok) {
+            updatesRefused++;
+            log(`load: update refused: ${answer.error.code} ${answer.error.message}`);
+            return;
+          }
+          updatesAcked.push({ caseId: target.caseId, clientId, hospitalId, revision: answer.data.summary.revision });
+        });
+        continue;
+      }
+      // Nothing to update yet (the link is down): this tick passes.
+      if (alertsSent >= opts.alerts) continue;
+      const amb = ambulances[Math.floor(random() * ambulances.length)];
+      const item: Outgoing = { clientId: randomUUID(), hospitalId: region.hospitals[alertsSent % region.hospitals.length].id, clinical: traffic.firstReport(), attempts: 0, lastEmitAt: 0 };
+      alertsSent++;
+      outgoing.set(item.clientId, item);
+      amb.outbox.set(item.clientId, item);
+      emitAlert(amb, item);
+    }
+    clearInterval(dropTimer);
+    if (faults.restarting) await faults.restarting;
+    log(`load: ${alertsSent} pre-alerts and ${updatesSent} updates sent in ${((now() - sendStart) / 1000).toFixed(1)} s; waiting for outboxes to empty`);
+
+    const settleUntil = now() + opts.settleMs;
+    while (now() < settleUntil && ambulances.some((a) => a.outbox.size > 0 || !a.socket.connected)) await new Promise((r) => setTimeout(r, 200));
+    // The last broadcasts, then every board's final snapshot, as after a reload.
+    await new Promise((r) => setTimeout(r, 1500));
+    await inBatches(boards, 5, snapshot);
+
+    const acked = [...outgoing.values()].filter((o) => o.ack);
+    let lost = 0;
+    let delivered = 0;
+    let sawTwice = 0;
+    for (const item of acked) {
+      const mine = boards.filter((b) => b.hospitalId === item.hospitalId);
+      if (mine.every((b) => b.seen.has(item.clientId))) delivered++;
+      else lost++;
+    }
+    for (const board of boards) for (const entry of board.seen.values()) if (entry.ids.size > 1) sawTwice++;
+    const answeredTwoWays = acked.filter((o) => o.ack!.caseId === -1).length;
+    let updatesLost = 0;
+    for (const update of updatesAcked) {
+      const mine = boards.filter((b) => b.hospitalId === update.hospitalId);
+      if (!mine.every((b) => (b.seen.get(update.clientId)?.revision ?? 0) >= update.revision)) updatesLost++;
+    }
+
+    // The database's own count: one case per client id, and every acknowledged one is there.
+    const db = createDb(databaseFileOf(dataDir));
+    let dbCases = 0;
+    let dbDistinct = 0;
+    let missingInDatabase = 0;
+    try {
+      const ids = [...outgoing.keys()];
+      const ackedIds = new Set(acked.map((o) => o.clientId));
+      const found = new Set<string>();
+      for (let i = 0; i < ids.length; i += 500) {
+        const rows = (await db('cases').whereIn('client_id', ids.slice(i, i + 500)).select('client_id')) as Array<{ client_id: string }>;
+        dbCases += rows.length;
+        for (const row of rows) found.add(row.client_id);
+      }
+      dbDistinct = found.size;
+      for (const id of ackedIds) if (!found.has(id)) missingInDatabase++;
+    } finally {
+      await db.destroy();
+    }
+
+    latencies.sort((a, b) => a - b);
+    return {
+      ambulances: ambulances.length,
+      boards: boards.length,
+      hospitals: region.hospitals.length,
+      alerts: alertsSent,
+      acknowledged: acked.length,
+      unacknowledged: alertsSent - acked.length - alertsRefused,
+      delivered,
+      lost,
+      duplicated: dbCases - dbDistinct + sawTwice + answeredTwoWays,
+      missingInDatabase,
+      updates: updatesSent,
+      updatesAcknowledged: updatesAcked.length,
+      updatesLost,
+      alertsRefused,
+      updatesRefused,
+      foreignDeliveries,
+      resent,
+      drops,
+      restarts: restartKinds.length,
+      restartKinds,
+      freshReconnects,
+      recoveredReconnects,
+      snapshots,
+      p50Ms: round1(percentile(latencies, 50)),
+      p99Ms: round1(percentile(latencies, 99)),
+      latencySamples: latencies.length,
+      summaryBytes: summaryCount ? Math.round(summaryBytes / summaryCount) : 0,
+      durationS: round1((now() - started) / 1000)!,
+    };
+  } finally {
+    for (const socket of sockets) socket.close();
+    await server.dispose();
+  }
+}

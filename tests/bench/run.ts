@@ -1,0 +1,129 @@
+// `npm run bench`: the load and fault benchmark. Everything runs on 127.0.0.1, in temporary
+// directories, bounded in count and time, and stops by itself. `-- --json` prints one JSON object
+// on stdout (progress goes to stderr).
+import { existsSync, readFileSync } from 'node:fs';
+import { cpus, loadavg } from 'node:os';
+import { join } from 'node:path';
+import { pathToFileURL } from 'node:url';
+import { measureBareEcho } from './bare-echo';
+import { defaultLoadOptions, runLoad } from './load';
+import { measureMemory } from './memory';
+import { repoRoot } from './support/child-server';
+import { measureEvaluateRate } from './support/evaluate-rate';
+
+const json = process.argv.includes('--json');
+const log = (line: string) => process.stderr.write(`${line}\n`);
+
+// The promises of the README's "Guarantees" section [ours].
+const TARGETS = { lost: 0, duplicated: 0, p99OverBare: 3, evaluatePerSecond: 1_000_000, reportMs: 300, rssMb: 200 };
+
+/** The quality report's own benchmark, when its module offers one: `export async function benchQualityReport(): Promise<{ cases, ms }>`. */
+async function measureReport(): Promise<{ cases: number; ms: number } | null> {
+  const file = join(repoRoot, 'tests/bench/quality-report.ts');
+  if (!existsSync(file)) return null;
+  // Import only a module that exports the function, so a script with top-level output is left alone.
+  if (!/export\s+async\s+function\s+benchQualityReport\b/.test(readFileSync(file, 'utf8'))) return null;
+  const mod = (await import(pathToFileURL(file).href)) as { benchQualityReport(): Promise<{ cases: number; ms: number }> };
+  const { cases, ms } = await mod.benchQualityReport();
+  return { cases, ms: Math.round(ms * 10) / 10 };
+}
+
+async function main(): Promise<void> {
+  const started = Date.now();
+  const load = await runLoad({ log });
+  log(`load: ${load.acknowledged}/${load.alerts} acknowledged, lost ${load.lost}, duplicated ${load.duplicated}, p50 ${load.p50Ms} ms, p99 ${load.p99Ms} ms`);
+  const bare = await measureBareEcho({
+    senders: load.ambulances,
+    listeners: load.boards,
+    rooms: load.hospitals,
+    messages: 600,
+    sendsPerSecond: defaultLoadOptions.sendsPerSecond,
+    payloadBytes: load.summaryBytes || 2500,
+  });
+  log(`bare echo: p50 ${bare.p50Ms} ms, p99 ${bare.p99Ms} ms over ${bare.samples} receipts`);
+  const evaluate = measureEvaluateRate();
+  log(`evaluate: ${evaluate.perSecond.toLocaleString('en')}/s`);
+  const report = await measureReport();
+  if (!report) log('report: no benchQualityReport() exported by tests/bench/quality-report.ts yet; reported as null');
+  const memory = await measureMemory({ sockets: 1000, log });
+
+  const { p50Ms, p99Ms } = load;
+  const result = {
+    realtime: {
+      ambulances: load.ambulances,
+      boards: load.boards,
+      alerts: load.alerts,
+      delivered: load.delivered,
+      lost: load.lost,
+      duplicated: load.duplicated,
+      restarts: load.restarts,
+      p50Ms,
+      p99Ms,
+      bareP50Ms: bare.p50Ms,
+      bareP99Ms: bare.p99Ms,
+      p99OverBare: p99Ms != null && bare.p99Ms ? Math.round((p99Ms / bare.p99Ms) * 100) / 100 : null,
+      acknowledged: load.acknowledged,
+      unacknowledged: load.unacknowledged,
+      missingInDatabase: load.missingInDatabase,
+      updates: load.updates,
+      updatesAcknowledged: load.updatesAcknowledged,
+      updatesLost: load.updatesLost,
+      alertsRefused: load.alertsRefused,
+      updatesRefused: load.updatesRefused,
+      foreignDeliveries: load.foreignDeliveries,
+      resent: load.resent,
+      drops: load.drops,
+      restartKinds: load.restartKinds,
+      freshReconnects: load.freshReconnects,
+      recoveredReconnects: load.recoveredReconnects,
+      snapshots: load.snapshots,
+      hospitals: load.hospitals,
+      latencySamples: load.latencySamples,
+      bareSamples: bare.samples,
+      durationS: load.durationS,
+    },
+    evaluate,
+    report,
+    memory,
+    targets: {
+      lost: load.lost <= TARGETS.lost,
+      duplicated: load.duplicated <= TARGETS.duplicated,
+      p99WithinThreeTimesBare: p99Ms != null && bare.p99Ms != null && p99Ms <= TARGETS.p99OverBare * bare.p99Ms,
+      evaluate: evaluate.perSecond >= TARGETS.evaluatePerSecond,
+      report: report ? report.ms <= TARGETS.reportMs : null,
+      rss: memory.rssMb <= TARGETS.rssMb,
+    },
+    seconds: Math.round((Date.now() - started) / 100) / 10,
+    // Other work on the machine moves every timing; the figures are read beside this.
+    machine: { cpus: cpus().length, loadAverage: loadavg().map((l) => Math.round(l * 100) / 100) },
+  };
+  if (json) {
+    process.stdout.write(`${JSON.stringify(result)}\n`);
+    return;
+  }
+  const r = result.realtime;
+  console.log(`
+Realtime  ${r.ambulances} ambulances, ${r.boards} boards at ${r.hospitals} EDs, ${r.alerts} pre-alerts and ${r.updates} updates
+          acknowledged ${r.acknowledged}, delivered to every board ${r.delivered}, lost ${r.lost}, duplicated ${r.duplicated}
+          ${r.drops} connections cut, ${r.restarts} server restarts (${r.restartKinds.join(', ')}), ${r.resent} resends
+          emit → board p50 ${r.p50Ms} ms, p99 ${r.p99Ms} ms; bare socket.io p50 ${r.bareP50Ms} ms, p99 ${r.bareP99Ms} ms (×${r.p99OverBare})
+Evaluate  ${result.evaluate.perSecond.toLocaleString('en')} evaluations/s on one core
+Report    ${result.report ? `${result.report.cases.toLocaleString('en')} cases in ${result.report.ms} ms` : 'not measured (no benchQualityReport yet)'}
+Memory    ${result.memory.sockets} sockets, ${result.memory.rssMb} MB resident
+Targets   ${Object.entries(result.targets).map(([k, v]) => `${k} ${v === null ? 'n/a' : v ? 'met' : 'MISSED'}`).join(', ')}
+Took      ${result.seconds} s`);
+}
+
+const deadline = setTimeout(() => {
+  log('bench: over the 5-minute limit; stopping');
+  process.exit(2);
+}, 5 * 60_000);
+deadline.unref();
+
+main().then(
+  () => process.exit(0),
+  (err) => {
+    log(`bench failed: ${(err as Error)?.stack ?? err}`);
+    process.exit(1);
+  },
+);
