@@ -17,6 +17,14 @@ export interface BackupCheck { ok: boolean; problem?: string; cases: number; aud
 
 /** Opens a database file read-only and says whether it is whole and is one of ours. */
 export function checkDatabaseFile(file: string): BackupCheck {
+  try {
+    return checkOpenable(file);
+  } catch (err) {
+    return { ok: false, problem: (err as Error).message, cases: 0, auditRows: 0, migrations: 0 };
+  }
+}
+
+function checkOpenable(file: string): BackupCheck {
   const db = new Database(file, { readonly: true, fileMustExist: true });
   try {
     const integrity = db.pragma('integrity_check', { simple: true });
