@@ -1,0 +1,201 @@
+import { defineStore } from 'pinia';
+import { computed, ref, watch, type WatchStopHandle } from 'vue';
+import * as api from '../api/board';
+import { ApiError } from '../api/http';
+import { connection, getSocket } from '../api/socket';
+import type { BoardAction, BoardActionBody, BoardLevel, BoardSnapshot } from '../../shared/schemas/board';
+import type { CaseSummary } from '../../shared/schemas/cases';
+import type { CaseChange } from '../../shared/realtime/events';
+import type { LevelId } from '../../shared/triage/policy';
+
+// The board trusts the server, never its own memory: a snapshot over REST first, live events
+// after, and the snapshot again after every connection that did not recover its state, every
+// minute, and whenever the tab comes back into view. A case's rowVersion orders what arrives,
+// so an older copy never overwrites a newer one.
+
+/** Something the board should say out loud (a sound and an announcement). */
+export interface BoardAlert { kind: 'new' | 'rose'; caseId: number; caseNumber: string; level: LevelId; levelName: string; seq: number }
+/** A case that left the board, said once so nobody wonders where it went. */
+export interface BoardNotice { id: number; text: string }
+
+const OPEN = new Set(['en-route', 'acknowledged', 'arrived']);
+const RELOAD_EVERY_MS = 60_000;
+
+export const needsAcknowledgement = (c: CaseSummary) => c.acknowledgedAt == null || c.levelRose;
+
+export const useBoardStore = defineStore('board', () => {
+  const hospital = ref<BoardSnapshot['hospital'] | null>(null);
+  const levels = ref<BoardLevel[]>([]);
+  const byId = ref<Record<number, CaseSummary>>({});
+  const loading = ref(false);
+  const loadError = ref<string | null>(null);
+  const syncedAt = ref<number | null>(null);
+  /** Server time minus this device's time, so countdowns read true on a wall screen with a wrong clock. */
+  const clockOffset = ref(0);
+  const now = ref(Date.now());
+  const busy = ref<Record<number, BoardAction | null>>({});
+  const alert = ref<BoardAlert | null>(null);
+  const notices = ref<BoardNotice[]>([]);
+
+  const cases = computed(() => Object.values(byId.value));
+  const onTheWay = computed(() =>
+    cases.value
+      .filter((c) => c.state !== 'arrived')
+      .sort((a, b) => (a.etaAt ?? Infinity) - (b.etaAt ?? Infinity) || a.createdAt - b.createdAt),
+  );
+  const inDepartment = computed(() => cases.value.filter((c) => c.state === 'arrived').sort((a, b) => (a.arrivedAt ?? 0) - (b.arrivedAt ?? 0)));
+  const waiting = computed(() => cases.value.filter(needsAcknowledgement));
+
+  let generation = 0;
+  let touchedDuringLoad = new Set<number>();
+  let stops: Array<() => void> = [];
+  let seq = 0;
+  let noticeSeq = 0;
+
+  function nameOf(level: LevelId): string {
+    return levels.value.find((l) => l.id === level)?.name ?? level;
+  }
+
+  function say(text: string) {
+    notices.value = [{ id: ++noticeSeq, text }, ...notices.value].slice(0, 4);
+  }
+
+  /** Applies one copy of a case; returns false when it was older than what the board holds. */
+  function upsert(summary: CaseSummary, why?: string): boolean {
+    const held = byId.value[summary.id];
+    if (held && held.rowVersion > summary.rowVersion) return false;
+    touchedDuringLoad.add(summary.id);
+    if (!hospital.value || summary.hospital.id !== hospital.value.id || !OPEN.has(summary.state)) {
+      if (held) {
+        const next = { ...byId.value };
+        delete next[summary.id];
+        byId.value = next;
+        const what = summary.state === 'cancelled' ? `cancelled by the crew${summary.cancelReason ? `: ${summary.cancelReason}` : ''}` : summary.state === 'closed' ? 'closed' : why ?? 'sent elsewhere';
+        say(`Case ${summary.caseNumber} left the board: ${what}.`);
+      }
+      return true;
+    }
+    byId.value = { ...byId.value, [summary.id]: summary };
+    return true;
+  }
+
+  function remove(id: number, text: string) {
+    if (!byId.value[id]) return;
+    const next = { ...byId.value };
+    delete next[id];
+    byId.value = next;
+    touchedDuringLoad.add(id);
+    say(text);
+  }
+
+  async function load(hospitalId?: number): Promise<void> {
+    const mine = ++generation;
+    touchedDuringLoad = new Set();
+    loading.value = true;
+    try {
+      const snapshot = await api.getBoard(hospitalId ?? hospital.value?.id);
+      if (mine !== generation) return;
+      const switched = hospital.value?.id !== snapshot.hospital.id;
+      hospital.value = snapshot.hospital;
+      levels.value = snapshot.levels;
+      clockOffset.value = snapshot.at - Date.now();
+      const next: Record<number, CaseSummary> = {};
+      for (const c of snapshot.cases) {
+        const held = byId.value[c.id];
+        next[c.id] = held && !switched && held.rowVersion > c.rowVersion ? held : c;
+      }
+      // A case announced while the snapshot was on its way is newer than the snapshot.
+      for (const id of touchedDuringLoad) {
+        const held = byId.value[id];
+        if (held && !next[id] && OPEN.has(held.state) && !switched) next[id] = held;
+      }
+      byId.value = next;
+      syncedAt.value = Date.now();
+      loadError.value = null;
+    } catch (error) {
+      if (mine === generation) loadError.value = error instanceof Error ? error.message : String(error);
+    } finally {
+      if (mine === generation) loading.value = false;
+    }
+  }
+
+  function raise(kind: BoardAlert['kind'], summary: CaseSummary) {
+    alert.value = { kind, caseId: summary.id, caseNumber: summary.caseNumber, level: summary.recommendedLevel, levelName: summary.latest.result.activationName, seq: ++seq };
+  }
+
+  /** Connects the board to the socket and keeps it true; returns when the first snapshot is in. */
+  async function start(hospitalId?: number): Promise<void> {
+    stop();
+    const socket = getSocket();
+    const onSubmitted = (summary: CaseSummary) => {
+      if (upsert(summary) && summary.hospital.id === hospital.value?.id) raise('new', summary);
+    };
+    const onUpdated = (summary: CaseSummary, change: CaseChange) => {
+      const known = Boolean(byId.value[summary.id]);
+      if (!upsert(summary)) return;
+      if (summary.hospital.id !== hospital.value?.id) return;
+      if (change.rose) raise('rose', summary);
+      else if (!known && OPEN.has(summary.state)) raise('new', summary);
+    };
+    const onRemoved = (info: { id: number; caseNumber: string; reason: string }) => remove(info.id, `Case ${info.caseNumber} left the board: ${info.reason}`);
+    socket.on('case:submitted', onSubmitted);
+    socket.on('case:updated', onUpdated);
+    socket.on('case:removed', onRemoved);
+    stops.push(() => {
+      socket.off('case:submitted', onSubmitted);
+      socket.off('case:updated', onUpdated);
+      socket.off('case:removed', onRemoved);
+    });
+    const stopFresh: WatchStopHandle = watch(connection.freshConnections, () => void load());
+    stops.push(stopFresh);
+    const tick = window.setInterval(() => (now.value = Date.now() + clockOffset.value), 1000);
+    const reload = window.setInterval(() => void load(), RELOAD_EVERY_MS);
+    const onVisible = () => {
+      if (document.visibilityState === 'visible') void load();
+    };
+    document.addEventListener('visibilitychange', onVisible);
+    stops.push(() => {
+      window.clearInterval(tick);
+      window.clearInterval(reload);
+      document.removeEventListener('visibilitychange', onVisible);
+    });
+    await load(hospitalId);
+    now.value = Date.now() + clockOffset.value;
+  }
+
+  function stop() {
+    for (const s of stops) s();
+    stops = [];
+  }
+
+  /**
+   * One action. A refusal because someone else acted first (409) or the page failed (502)
+   * fetches the case's truth, so this board agrees with the winner's, then rethrows for the card.
+   */
+  async function act<A extends BoardAction>(caseId: number, action: A, body: Omit<BoardActionBody[A], 'rowVersion'>): Promise<CaseSummary> {
+    const held = byId.value[caseId];
+    if (!held) throw new Error('That case is no longer on the board.');
+    busy.value = { ...busy.value, [caseId]: action };
+    try {
+      const { case: summary } = await api.actOnCase(caseId, action, { ...body, rowVersion: held.rowVersion } as BoardActionBody[A]);
+      upsert(summary);
+      return summary;
+    } catch (error) {
+      if (error instanceof ApiError && (error.status === 409 || error.status === 502)) {
+        await api.getCaseSummary(caseId).then((fresh) => upsert(fresh)).catch(() => load());
+      }
+      throw error;
+    } finally {
+      busy.value = { ...busy.value, [caseId]: null };
+    }
+  }
+
+  function dismissNotice(id: number) {
+    notices.value = notices.value.filter((n) => n.id !== id);
+  }
+
+  return {
+    hospital, levels, byId, cases, onTheWay, inDepartment, waiting, loading, loadError, syncedAt, clockOffset, now, busy, alert, notices,
+    nameOf, load, start, stop, act, upsert, dismissNotice,
+  };
+});
