@@ -1,6 +1,6 @@
 // The floor to compare against: plain socket.io on the same machine in the same run, with no
 // sign-in, no database and no evaluation, carrying the same traffic shape — a sender's command
-// acknowledged, then one broadcast of a case-sized payload to a destination's boards and to the
+// acknowledged, then one broadcast of a real case summary to a destination's boards and to the
 // crews — and timed the same way, from the sender's emit to each board's receipt.
 import { performance } from 'node:perf_hooks';
 import { spawn } from 'node:child_process';
@@ -8,7 +8,9 @@ import { createServer } from 'node:http';
 import { fileURLToPath } from 'node:url';
 import { Server } from 'socket.io';
 import { io as connect, type Socket } from 'socket.io-client';
-import { freePort } from './support/child-server';
+import { readFileSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { freePort, tempDataDir } from './support/child-server';
 import { percentile, round1, seededRandom } from './support/traffic';
 
 export interface BareEchoOptions {
@@ -17,22 +19,22 @@ export interface BareEchoOptions {
   rooms: number;
   messages: number;
   sendsPerSecond: number;
-  payloadBytes: number;
+  /** What the real server broadcast (a case summary): the echo sends the same object, so both sides parse the same shape. */
+  payload: unknown;
 }
 
 export interface BareEchoResult { p50Ms: number | null; p99Ms: number | null; samples: number }
 
 /** The echo server, run as its own process like the real one. */
-async function serve(port: number, payloadBytes: number): Promise<void> {
-  // The case-sized part the real server adds (the evaluation, the names) is made here too.
-  const pad = 'x'.repeat(Math.max(0, payloadBytes - 40));
+async function serve(port: number, payloadFile: string): Promise<void> {
+  const payload = JSON.parse(readFileSync(payloadFile, 'utf8')) as unknown;
   const http = createServer();
   const io = new Server(http, { serveClient: false });
   io.on('connection', (socket) => {
     const room = String(socket.handshake.query.room ?? 'crew');
     void socket.join(room);
     socket.on('echo', (message: { id: number; room: string; note: string }, ack: (answer: { ok: true; data: unknown }) => void) => {
-      const echoed = { id: message.id, room: message.room, pad };
+      const echoed = { id: message.id, room: message.room, payload };
       ack({ ok: true, data: echoed });
       queueMicrotask(() => io.to([message.room, 'crew']).emit('echoed', echoed));
     });
@@ -44,7 +46,9 @@ async function serve(port: number, payloadBytes: number): Promise<void> {
 
 export async function measureBareEcho(opts: BareEchoOptions): Promise<BareEchoResult> {
   const port = await freePort();
-  const child = spawn(process.execPath, ['--import', 'tsx', fileURLToPath(import.meta.url), '--serve', String(port), String(opts.payloadBytes)], { stdio: ['ignore', 'ignore', 'inherit', 'ipc'] });
+  const payloadFile = join(tempDataDir('plumbline-echo-'), 'payload.json');
+  writeFileSync(payloadFile, JSON.stringify(opts.payload ?? {}));
+  const child = spawn(process.execPath, ['--import', 'tsx', fileURLToPath(import.meta.url), '--serve', String(port), payloadFile], { stdio: ['ignore', 'ignore', 'inherit', 'ipc'] });
   const exited = new Promise((r) => child.once('exit', r));
   const sockets: Socket[] = [];
   try {
@@ -92,4 +96,4 @@ export async function measureBareEcho(opts: BareEchoOptions): Promise<BareEchoRe
   }
 }
 
-if (process.argv[2] === '--serve') await serve(Number(process.argv[3]), Number(process.argv[4]));
+if (process.argv[2] === '--serve') await serve(Number(process.argv[3]), process.argv[4]);

@@ -71,6 +71,8 @@ export interface LoadResult {
   p99Ms: number | null;
   latencySamples: number;
   summaryBytes: number;
+  /** One summary as a board received it, so the bare echo can carry the same shape. */
+  sampleSummary: CaseSummary | null;
   durationS: number;
 }
 
@@ -151,6 +153,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
     let snapshots = 0;
     let summaryBytes = 0;
     let summaryCount = 0;
+    let sampleSummary: CaseSummary | null = null;
     const latencies: number[] = [];
     const ambulances: Ambulance[] = [];
     const boards: Board[] = [];
@@ -243,6 +246,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
         board.socket.on('case:submitted', (summary) => {
           summaryBytes += JSON.stringify(summary).length;
           summaryCount++;
+          sampleSummary ??= summary;
           observe(board, summary, true);
         });
         board.socket.on('case:updated', (summary) => observe(board, summary, true));
@@ -426,6 +430,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
       p99Ms: round1(percentile(latencies, 99)),
       latencySamples: latencies.length,
       summaryBytes: summaryCount ? Math.round(summaryBytes / summaryCount) : 0,
+      sampleSummary,
       durationS: round1((now() - started) / 1000)!,
     };
   } finally {
