@@ -42,13 +42,20 @@ export function apiSend<T>(method: SendMethod, path: string, body?: unknown): Pr
   return request<T>(method, path, body);
 }
 
+/** A multipart form, e.g. a file upload; the browser writes the Content-Type with its boundary. */
+export function apiUpload<T>(path: string, form: FormData): Promise<T> {
+  return request<T>('POST', path, form);
+}
+
 async function request<T>(method: 'GET' | SendMethod, path: string, body?: unknown): Promise<T> {
   // Relative paths only: the API is same-origin, and the CSP would refuse anything else anyway.
   if (!path.startsWith('/')) throw new TypeError(`API path must start with "/": ${path}`);
 
   const headers: Record<string, string> = { Accept: 'application/json' };
   const init: RequestInit = { method, headers, credentials: 'same-origin' };
-  if (body !== undefined) {
+  if (body instanceof FormData) {
+    init.body = body;
+  } else if (body !== undefined) {
     headers['Content-Type'] = 'application/json';
     init.body = JSON.stringify(body);
   }

@@ -1,0 +1,145 @@
+import { defineStore } from 'pinia';
+import { computed, ref } from 'vue';
+import * as api from '../api/quality';
+import type { Cell, ActivationBasis, DrilldownRequest, ImportPreview, ImportResult, QualityReport, ReportRequest, WhatIfPolicyChoice, WhatIfResult } from '../../shared/schemas/quality';
+import type { OutcomeStandard } from '../../shared/quality';
+
+const pad = (n: number) => String(n).padStart(2, '0');
+const monthOf = (d: Date) => `${d.getFullYear()}-${pad(d.getMonth() + 1)}`;
+function lastDayOf(month: string): string {
+  const [y, m] = month.split('-').map(Number);
+  return `${month}-${pad(new Date(y, m, 0).getDate())}`;
+}
+
+/** What a drill-down shows: a heading for the list and the filters that pick its cases. */
+export interface DrillTarget {
+  title: string;
+  cell?: Cell | 'all' | 'no-outcome';
+  month?: string;
+  agencyId?: number;
+  band?: DrilldownRequest['band'];
+  criterion?: string;
+}
+
+export const useQualityStore = defineStore('quality', () => {
+  const now = new Date();
+  const hospitalId = ref<number | null>(null);
+  // The last twelve months, this one included: the window a monthly report looks back over.
+  const fromMonth = ref(monthOf(new Date(now.getFullYear(), now.getMonth() - 11, 1)));
+  const toMonth = ref(monthOf(now));
+  const standard = ref<OutcomeStandard>('iss');
+  const basis = ref<ActivationBasis>('decided');
+  const timeZone = Intl.DateTimeFormat().resolvedOptions().timeZone || 'UTC';
+
+  const report = ref<QualityReport | null>(null);
+  const loading = ref(false);
+  const failure = ref<string | null>(null);
+
+  /** A period that ends before it starts is said plainly, not sent. */
+  const periodProblem = computed(() => (fromMonth.value && toMonth.value && toMonth.value < fromMonth.value ? 'The “to” month is before the “from” month.' : null));
+  const request = computed<ReportRequest | null>(() =>
+    hospitalId.value === null || !fromMonth.value || !toMonth.value || periodProblem.value
+      ? null
+      : { hospitalId: hospitalId.value, from: `${fromMonth.value}-01`, to: lastDayOf(toMonth.value), standard: standard.value, basis: basis.value, timeZone },
+  );
+  const csvHref = computed(() => (request.value ? api.reportCsvHref(request.value) : null));
+
+  async function guard<T>(action: () => Promise<T>, onError: (message: string) => void): Promise<T | undefined> {
+    try {
+      return await action();
+    } catch (error) {
+      onError(error instanceof Error ? error.message : String(error));
+      return undefined;
+    }
+  }
+
+  async function loadReport(): Promise<void> {
+    if (!request.value) return;
+    loading.value = true;
+    failure.value = null;
+    const answer = await guard(() => api.getReport(request.value!), (m) => (failure.value = m));
+    if (answer) report.value = answer;
+    loading.value = false;
+  }
+
+  // ---- Drill-down
+  const drill = ref<(DrillTarget & { result: Awaited<ReturnType<typeof api.getDrilldown>> | null }) | null>(null);
+  const drillFailure = ref<string | null>(null);
+  async function openDrill(target: DrillTarget): Promise<void> {
+    if (!request.value) return;
+    drill.value = { ...target, result: null };
+    drillFailure.value = null;
+    const { title: _title, ...filters } = target;
+    const result = await guard(() => api.getDrilldown({ ...request.value!, ...filters }), (m) => (drillFailure.value = m));
+    if (result && drill.value?.title === target.title) drill.value = { ...target, result };
+  }
+  const closeDrill = () => (drill.value = null);
+
+  // ---- Import
+  const preview = ref<ImportPreview | null>(null);
+  const imported = ref<ImportResult | null>(null);
+  const importing = ref(false);
+  const importFailure = ref<string | null>(null);
+  async function checkFile(file: File): Promise<void> {
+    if (hospitalId.value === null) return;
+    importing.value = true;
+    importFailure.value = null;
+    imported.value = null;
+    preview.value = (await guard(() => api.previewOutcomes(hospitalId.value!, file), (m) => (importFailure.value = m))) ?? null;
+    importing.value = false;
+  }
+  async function confirmImport(): Promise<void> {
+    if (!preview.value?.token || hospitalId.value === null) return;
+    importing.value = true;
+    importFailure.value = null;
+    const result = await guard(() => api.importOutcomes(hospitalId.value!, preview.value!.token!), (m) => (importFailure.value = m));
+    importing.value = false;
+    if (!result) return;
+    imported.value = result;
+    preview.value = null;
+    await loadReport();
+  }
+  const discardPreview = () => {
+    preview.value = null;
+    importFailure.value = null;
+  };
+
+  // ---- What-if
+  const policies = ref<WhatIfPolicyChoice[]>([]);
+  const policyChoice = ref<WhatIfPolicyChoice['value'] | null>(null);
+  const whatIf = ref<WhatIfResult | null>(null);
+  const whatIfBusy = ref(false);
+  const whatIfFailure = ref<string | null>(null);
+  async function loadPolicies(): Promise<void> {
+    if (hospitalId.value === null) return;
+    const answer = await guard(() => api.listWhatIfPolicies(hospitalId.value!), (m) => (whatIfFailure.value = m));
+    policies.value = answer?.policies ?? [];
+    // A draft is what people come here to try; otherwise the policy in force.
+    policyChoice.value = policies.value.find((p) => p.status === 'draft')?.value ?? policies.value[0]?.value ?? null;
+  }
+  async function runWhatIf(): Promise<void> {
+    if (!request.value || policyChoice.value === null) return;
+    whatIfBusy.value = true;
+    whatIfFailure.value = null;
+    whatIf.value = (await guard(() => api.runWhatIf({ ...request.value!, policy: policyChoice.value! }), (m) => (whatIfFailure.value = m))) ?? null;
+    whatIfBusy.value = false;
+  }
+
+  function selectHospital(id: number): void {
+    hospitalId.value = id;
+    report.value = null;
+    preview.value = null;
+    imported.value = null;
+    whatIf.value = null;
+    drill.value = null;
+  }
+
+  return {
+    hospitalId, fromMonth, toMonth, standard, basis, timeZone, request, periodProblem, csvHref,
+    report, loading, failure, loadReport,
+    drill, drillFailure, openDrill, closeDrill,
+    preview, imported, importing, importFailure, checkFile, confirmImport, discardPreview,
+    policies, policyChoice, whatIf, whatIfBusy, whatIfFailure, loadPolicies, runWhatIf,
+    selectHospital,
+  };
+});
