@@ -1,0 +1,165 @@
+import { afterAll, beforeAll, expect, it } from 'vitest';
+import type { Browser, BrowserContext, Page } from 'playwright-core';
+import { announceCase } from '../../server/realtime/broadcast';
+import { caseSummary } from '../../server/services/cases';
+import { startTestServer, type TestServer } from '../support/server';
+import { collectPageErrors, describeInBrowser, expectAccessible, launchBrowser, newSignedInPage, PHONE, screenshot } from './support/browser';
+
+// Check values: 2021 field-triage guideline (Newgard CD et al., 2022) [source] for the field
+// risk; the shipped example policy (CLINICAL.md §4) [ours] for the level's name.
+
+describeInBrowser('New pre-alert on a phone in Chromium', () => {
+  let server: TestServer;
+  let browser: Browser;
+  let context: BrowserContext;
+  let page: Page;
+  let errors: string[];
+  // Whether the socket can reach the server; the test cuts it and brings it back at will.
+  let signal = true;
+
+  const countCases = async () => Number((await server.db('cases').count({ n: '*' }).first())!.n);
+  const connectionText = () => page.getByTestId('connection').textContent();
+
+  async function fill(label: string, value: string): Promise<void> {
+    const input = page.getByLabel(label, { exact: true });
+    await input.fill(value);
+  }
+  /** Taps one option of a named group of large segment buttons. */
+  async function choose(group: string, option: string): Promise<void> {
+    await page.getByRole('group', { name: group, exact: true }).getByText(option, { exact: true }).click();
+  }
+
+  async function loseSignal(): Promise<void> {
+    signal = false;
+    await context.setOffline(true);
+    // The link in use drops too (the transport closes, so socket.io reconnects by itself).
+    for (const client of Object.values(server.io.engine.clients)) client.close();
+    await expect.poll(connectionText).toMatch(/^No signal/);
+  }
+
+  beforeAll(async () => {
+    server = await startTestServer();
+    browser = await launchBrowser();
+    ({ context, page } = await newSignedInPage(browser, server.url, 'paramedic@plumbline.test', { path: '/pre-alert', device: PHONE }));
+    errors = collectPageErrors(page);
+    // No signal at the server's edge as well: a handshake is refused, as an unreachable server
+    // would fail it, and socket.io's own reconnection keeps trying with its backoff.
+    const engine = server.io.engine as unknown as { opts: { allowRequest?: (req: unknown, cb: (err: string | null | undefined, ok: boolean) => void) => void } };
+    const allow = engine.opts.allowRequest;
+    engine.opts.allowRequest = (req, cb) => (signal ? (allow ? allow(req, cb) : cb(null, true)) : cb('no signal', false));
+    await page.getByTestId('connection').getByText('Connected', { exact: true }).waitFor();
+  });
+
+  afterAll(async () => {
+    await context?.close();
+    await browser?.close();
+    await server?.close();
+  });
+
+  it('fills a pre-alert with gloves-sized controls; the live result turns high risk, full team, when SBP drops below 90', async () => {
+    await choose('Destination ED', 'Alderwick General Hospital (Level I)');
+    await choose('Unit', 'Medic 11');
+    await fill('ETA (minutes from now)', '12');
+    await fill('Age (years)', '34');
+    await choose('Sex', 'Male');
+    await choose('Height in', 'feet');
+    await fill('Fall height (ft)', '12');
+    await expect.poll(() => page.locator('.readout').first().textContent()).toBe('= 3.66 m · 12.0 ft');
+    await choose('Landing surface', 'Concrete');
+    await fill('Systolic BP (SBP) (mmHg)', '120');
+    await fill('Heart rate (HR) (/min)', '88');
+
+    // 12 ft > 10 ft [source: Newgard 2022] → moderate; the example policy calls a consult.
+    await expect.poll(() => page.getByTestId('field-risk').textContent()).toBe('Moderate risk');
+    expect(await page.getByTestId('activation').textContent()).toBe('Trauma consult');
+    expect(await page.getByTestId('criteria').locator('li').allInnerTexts()).toEqual(['MODERATE\nFall from height > 10 feet (3.048 m): fall 3.658 m (12 ft) > 3.048 m (10 ft) → Trauma consult']);
+
+    await fill('Systolic BP (SBP) (mmHg)', '84');
+    // SBP 84 < 90 at age 34 [source: Newgard 2022] → high; the example policy calls the full team.
+    await expect.poll(() => page.getByTestId('field-risk').textContent()).toBe('High risk');
+    expect(await page.getByTestId('activation').textContent()).toBe('Full trauma team');
+    const criteria = await page.getByTestId('criteria').locator('li').allInnerTexts();
+    expect(criteria.some((line) => line.includes('SBP 84 < 90, age 34 (10–64)'))).toBe(true);
+
+    // Every tap target of the form is at least 44 px high.
+    const small = await page.locator('form#pre-alert-form label.option, form#pre-alert-form label.row, form#pre-alert-form input[type=text], form#pre-alert-form button').evaluateAll((els) =>
+      els.map((el) => [el.textContent?.trim() || el.id, Math.round(el.getBoundingClientRect().height)] as const).filter(([, h]) => h < 44),
+    );
+    expect(small).toEqual([]);
+    await expectAccessible(page, 'New pre-alert, filled');
+    await screenshot(page, 'pre-alert-phone-filled');
+
+    const before = await countCases();
+    await page.getByRole('button', { name: 'Send pre-alert' }).click();
+    await expect.poll(countCases).toBe(before + 1);
+    const row = await server.db('cases').orderBy('id', 'desc').first('case_number', 'recommended_level', 'field_risk');
+    expect([row.recommended_level, row.field_risk]).toEqual(['full', 'high']);
+    await page.getByRole('tab', { name: /^Open cases/ }).click();
+    const card = page.locator(`article[data-case-number="${row.case_number}"]`);
+    await expect.poll(() => card.locator('h3').textContent()).toBe(`Case ${row.case_number}`);
+    expect(await card.getByTestId('case-state').textContent()).toBe('On the way');
+    // Cleared for the next patient, with unit and destination kept.
+    await page.getByRole('tab', { name: 'Pre-alert form' }).click();
+    expect(await page.getByLabel('Age (years)', { exact: true }).inputValue()).toBe('');
+    expect(await page.getByRole('group', { name: 'Unit', exact: true }).locator('label.chosen').textContent()).toBe('Medic 11');
+    expect(await page.getByRole('group', { name: 'Destination ED', exact: true }).locator('label.chosen').textContent()).toBe('Alderwick General Hospital (Level I)');
+  });
+
+  it('the case card shows the ED’s acknowledgement and the bay live', async () => {
+    const { id, case_number: caseNumber } = await server.db('cases').orderBy('id', 'desc').first('id', 'case_number');
+    const nurse = await server.db('users').where({ email: 'nurse@plumbline.test' }).first('id');
+    const at = Date.parse('2026-12-03T03:12:00');
+    await server.db('cases').where({ id }).update({ state: 'acknowledged', acknowledged_at: at, acknowledged_by: nurse.id, bay: 'Resus 2', row_version: 5 });
+    await page.getByRole('tab', { name: /^Open cases/ }).click();
+    announceCase(server.io, await caseSummary(server.db, id), { kind: 'acknowledged', at, by: 'Morgan Achterberg' });
+    const card = page.locator(`article[data-case-number="${caseNumber}"]`);
+    await expect.poll(() => card.getByTestId('case-ack').textContent()).toBe(' Acknowledged by the ED at 03:12 (Morgan Achterberg)');
+    expect(await card.getByTestId('case-bay').textContent()).toBe(' Go to: Resus 2');
+    expect(await card.getByTestId('case-state').textContent()).toBe('Acknowledged');
+    await screenshot(page, 'pre-alert-phone-acknowledged');
+  });
+
+  it('without signal the pre-alert waits on the device, survives a reload, and reaches the server exactly once when the signal is back', async () => {
+    await loseSignal();
+    await page.getByRole('tab', { name: 'Pre-alert form' }).click();
+    await fill('Age (years)', '78');
+    await choose('Sex', 'Female');
+    await fill('Fall height (ft)', '0');
+    await choose('Head struck', 'Yes');
+    await choose('Anticoagulants', 'Yes');
+    // Ground-level fall at 78 with head strike, on an anticoagulant [source: Newgard 2022] → moderate.
+    await expect.poll(() => page.getByTestId('field-risk').textContent()).toBe('Moderate risk');
+    const before = await countCases();
+    await page.getByRole('button', { name: 'Send pre-alert' }).click();
+    await expect.poll(() => page.getByTestId('outbox-state').allTextContents()).toEqual(['Waiting for signal']);
+    expect(await connectionText()).toBe('No signal — 1 waiting to send');
+    await screenshot(page, 'pre-alert-phone-waiting');
+
+    // The page itself loads again (the network is back) but the socket still cannot get through.
+    await context.setOffline(false);
+    await page.reload();
+    await page.locator('h1').first().waitFor();
+    await expect.poll(connectionText).toBe('No signal — 1 waiting to send');
+    expect(await page.getByTestId('outbox').locator('strong').allTextContents()).toEqual(['Alderwick General · Medic 11 · 78 y, fall from standing']);
+    expect(await countCases()).toBe(before);
+
+    signal = true;
+    await expect.poll(connectionText, { timeout: 15_000 }).toBe('Connected');
+    await expect.poll(() => page.getByTestId('outbox').count()).toBe(0);
+    expect(await countCases()).toBe(before + 1);
+    const row = await server.db('cases').orderBy('id', 'desc').first('recommended_level', 'field_risk');
+    expect([row.recommended_level, row.field_risk]).toEqual(['consult', 'moderate']);
+
+    // And a further reload sends nothing again.
+    await page.reload();
+    await expect.poll(connectionText).toBe('Connected');
+    await new Promise((resolve) => setTimeout(resolve, 500));
+    expect(await countCases()).toBe(before + 1);
+    const latest = await server.db('cases').orderBy('id', 'desc').first('case_number');
+    await page.getByRole('tab', { name: /^Open cases/ }).click();
+    expect(await page.locator(`article[data-case-number="${latest.case_number}"]`).count()).toBe(1);
+    await expectAccessible(page, 'New pre-alert after the outbox emptied');
+    await screenshot(page, 'pre-alert-phone-delivered');
+    expect(errors.filter((e) => !/ERR_INTERNET_DISCONNECTED|WebSocket|socket\.io|net::/.test(e))).toEqual([]);
+  });
+});
