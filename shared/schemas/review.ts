@@ -64,8 +64,8 @@ export const ReviewListQuery = z
   })
   .refine(rangeInOrder, rangeIssue);
 export type ReviewListQuery = z.infer<typeof ReviewListQuery>;
-/** What the client sends: every field may be left out and takes its default. */
-export type ReviewListRequest = z.input<typeof ReviewListQuery>;
+/** What the client asks for: every field may be left out and takes its default. */
+export type ReviewListRequest = Partial<ReviewListQuery>;
 
 export const ComplianceQuery = z
   .object({ ...range, hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }).optional() })

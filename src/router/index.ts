@@ -34,7 +34,14 @@ export const screenRoutes: RouteRecordRaw[] = [
     path: '/review',
     name: 'activation-review',
     component: () => import('../views/ActivationReviewView.vue'),
-    meta: { title: 'Activation review', roles: ['trauma_lead', 'admin'], nav: true },
+    // The quality team reads the reviews; only the trauma lead and the administrator write them.
+    meta: { title: 'Activation review', roles: ['trauma_lead', 'admin', 'quality'], nav: true },
+  },
+  {
+    path: '/review/cases/:id(\\d+)',
+    name: 'case-timeline',
+    component: () => import('../views/CaseTimelineView.vue'),
+    meta: { title: 'Case timeline', roles: ['trauma_lead', 'admin', 'quality'] },
   },
   {
     path: '/quality',
