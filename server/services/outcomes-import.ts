@@ -58,7 +58,7 @@ export function outcomeTemplateCsv(): string {
   return `${header}\r\n${example}\r\n`;
 }
 
-interface ParsedRow { row: number; record: OutcomeRecord | null; issues: ImportIssue[] }
+interface ParsedRow { row: number; caseNumber: string; record: OutcomeRecord | null; issues: ImportIssue[] }
 
 function parseYesNo(value: string, column: string, row: number, issues: ImportIssue[]): boolean | null {
   if (value === '') return null;
@@ -160,9 +160,10 @@ export function parseOutcomeRow(cells: Record<string, string>, row: number): Par
   if (caseNumber !== '' && iss == null && computed == null && nftiGiven == null && !issues.length) {
     issues.push({ row, column: null, message: 'has no ISS, no AIS injuries and no NFTI; there is no outcome to import' });
   }
-  if (issues.length) return { row, record: null, issues };
+  if (issues.length) return { row, caseNumber, record: null, issues };
   return {
     row,
+    caseNumber,
     issues,
     record: {
       caseNumber, iss, niss, ais: injuries.length ? injuries : null, redCellsWithin4h,
@@ -207,7 +208,7 @@ export function parseOutcomeCsv(buffer: Buffer): { rows: ParsedRow[]; fileIssues
     if (!cells.some((c) => c !== '')) return;
     const row = i + 2; // spreadsheet numbering, the header being row 1
     if (cells.length > names.length) {
-      rows.push({ row, record: null, issues: [{ row, column: null, message: `has ${cells.length} cells but the header has ${names.length} columns` }] });
+      rows.push({ row, caseNumber: (cells[names.indexOf('case_number')] ?? '').trim().toUpperCase(), record: null, issues: [{ row, column: null, message: `has ${cells.length} cells but the header has ${names.length} columns` }] });
       return;
     }
     const byName: Record<string, string> = {};
@@ -237,11 +238,11 @@ async function resolveCases(db: Knex, hospitalId: number, rows: ParsedRow[]): Pr
   const firstRowOf = new Map<string, number>();
   const preview = rows.map((parsed): PreviewRow => {
     errors.push(...parsed.issues);
-    if (!parsed.record) return { row: parsed.row, caseId: null, record: null, action: null, warnings: [] };
+    if (!parsed.record) return { row: parsed.row, caseNumber: parsed.caseNumber, caseId: null, record: null, action: null, warnings: [] };
     const { caseNumber } = parsed.record;
     const fail = (message: string): PreviewRow => {
       errors.push({ row: parsed.row, column: 'case_number', message });
-      return { row: parsed.row, caseId: null, record: parsed.record, action: null, warnings: [] };
+      return { row: parsed.row, caseNumber, caseId: null, record: parsed.record, action: null, warnings: [] };
     };
     const earlier = firstRowOf.get(caseNumber);
     if (earlier !== undefined) return fail(`${caseNumber} is already on row ${earlier}; keep one row per case`);
@@ -251,7 +252,7 @@ async function resolveCases(db: Knex, hospitalId: number, rows: ParsedRow[]): Pr
     if (ref.state === 'cancelled') return fail(`${caseNumber} was cancelled before arrival, so it has no outcome here`);
     const warnings: string[] = [];
     if (ref.state !== 'closed' && ref.state !== 'arrived') warnings.push(`still ${ref.state} on the board; its activation may not be decided yet`);
-    return { row: parsed.row, caseId: ref.id, record: parsed.record, action: ref.hasOutcome ? 'update' : 'new', warnings };
+    return { row: parsed.row, caseNumber, caseId: ref.id, record: parsed.record, action: ref.hasOutcome ? 'update' : 'new', warnings };
   });
   return { preview, errors };
 }

@@ -91,6 +91,8 @@ export interface ImportIssue {
 
 export interface PreviewRow {
   row: number;
+  /** As written in the file, so a row with problems can still be found in it. */
+  caseNumber: string;
   caseId: number | null;
   record: OutcomeRecord | null;
   /** new: no outcome stored yet; update: replaces the stored outcome; null when the row has errors. */
