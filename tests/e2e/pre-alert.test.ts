@@ -33,7 +33,8 @@ describeInBrowser('New pre-alert on a phone in Chromium', () => {
     signal = false;
     await context.setOffline(true);
     // The link in use drops too (the transport closes, so socket.io reconnects by itself).
-    for (const client of Object.values(server.io.engine.clients)) client.close();
+    const engine = server.io.engine as unknown as { clients: Record<string, { close(): void }> };
+    for (const client of Object.values(engine.clients)) client.close();
     await expect.poll(connectionText).toMatch(/^No signal/);
   }
 
