@@ -7,6 +7,7 @@ import type { CaseSummary } from '../../shared/schemas/cases';
 import type { ClinicalInput } from '../../shared/schemas/clinical';
 import type { AckResponse, ClientToServerEvents, ServerToClientEvents } from '../../shared/realtime/events';
 import { createDb } from '../../server/db';
+import { verifyAuditChain } from '../../server/services/audit';
 import { signIn, type SignedInClient } from '../support/sign-in';
 import { childServer, databaseFileOf, tempDataDir, type ChildServer } from './support/child-server';
 import { prepareRegion } from './support/fixtures';
@@ -386,6 +387,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
     let dbCases = 0;
     let dbDistinct = 0;
     let missingInDatabase = 0;
+    let auditChain: { ok: boolean; rows: number; brokenAt?: number } = { ok: false, rows: 0 };
     try {
       const ids = [...outgoing.keys()];
       const ackedIds = new Set(acked.map((o) => o.clientId));
@@ -397,6 +399,9 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
       }
       dbDistinct = found.size;
       for (const id of ackedIds) if (!found.has(id)) missingInDatabase++;
+      // Kills, restarts and cut connections must not leave a hole or a half-written row in the chain.
+      const chain = await verifyAuditChain(db);
+      auditChain = chain.ok ? { ok: true, rows: chain.rows } : { ok: false, rows: chain.rows, brokenAt: chain.brokenAt };
     } finally {
       await db.destroy();
     }
@@ -413,6 +418,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
       lost,
       duplicated: dbCases - dbDistinct + sawTwice + answeredTwoWays,
       missingInDatabase,
+      auditChain,
       updates: updatesSent,
       updatesAcknowledged: updatesAcked.length,
       updatesLost,

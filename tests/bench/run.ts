@@ -83,6 +83,7 @@ async function main(): Promise<void> {
       acknowledged: load.acknowledged,
       unacknowledged: load.unacknowledged,
       missingInDatabase: load.missingInDatabase,
+      auditChain: load.auditChain,
       updates: load.updates,
       updatesAcknowledged: load.updatesAcknowledged,
       updatesLost: load.updatesLost,
@@ -106,6 +107,7 @@ async function main(): Promise<void> {
     targets: {
       lost: load.lost <= TARGETS.lost,
       duplicated: load.duplicated <= TARGETS.duplicated,
+      auditChain: load.auditChain.ok,
       p99WithinThreeTimesBare: p99Ms != null && bare.p99Ms != null && p99Ms <= TARGETS.p99OverBare * bare.p99Ms,
       evaluate: evaluate.perSecond >= TARGETS.evaluatePerSecond,
       report: report ? report.ms <= TARGETS.reportMs : null,
@@ -123,6 +125,7 @@ async function main(): Promise<void> {
   console.log(`
 Realtime  ${r.ambulances} ambulances, ${r.boards} boards at ${r.hospitals} EDs, ${r.alerts} pre-alerts and ${r.updates} updates
           acknowledged ${r.acknowledged}, delivered to every board ${r.delivered}, lost ${r.lost}, duplicated ${r.duplicated}
+          audit chain ${r.auditChain.ok ? 'verifies' : `BROKEN at row ${r.auditChain.brokenAt}`} over ${r.auditChain.rows} rows
           ${r.drops} connections cut, ${r.restarts} server restarts (${r.restartKinds.join(', ')}), ${r.resent} resends
           emit → board p50 ${r.p50Ms} ms, p99 ${r.p99Ms} ms; bare socket.io p50 ${r.bareP50Ms} ms, p99 ${r.bareP99Ms} ms (×${r.p99OverBare})
 Evaluate  ${result.evaluate.perSecond.toLocaleString('en')} evaluations/s on one core

@@ -30,7 +30,11 @@ export function browserlessClient(baseUrl: string): SignedInClient {
 
 /** Walks the whole OpenID Connect redirect flow over HTTP, as a browser would, and returns the signed-in client. */
 export async function signIn(baseUrl: string, email: string, password = 'demo'): Promise<SignedInClient> {
-  const client = browserlessClient(baseUrl);
+  return signInWith(browserlessClient(baseUrl), baseUrl, email, password);
+}
+
+/** The same flow in a client that may already hold a cookie, as a browser that visited before would. */
+export async function signInWith(client: SignedInClient, baseUrl: string, email: string, password = 'demo'): Promise<SignedInClient> {
   const loginPage = await client.fetch(new URL('/auth/login?returnTo=%2Fapi%2Fme', baseUrl));
   const html = await loginPage.text();
   const action = /<form method="post" action="([^"]+)"/.exec(html)?.[1];
