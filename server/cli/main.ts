@@ -1,4 +1,7 @@
+import { spawnSync } from 'node:child_process';
 import { existsSync } from 'node:fs';
+import { createRequire } from 'node:module';
+import { dirname, join } from 'node:path';
 import { loadConfig } from '../config';
 import { createDb, migrate } from '../db';
 import { systemClock } from '../deps';
@@ -19,6 +22,7 @@ const usage = `Usage: plumbline <command>
   restore FILE          put a backup back in place; refuses while a server has the database open
 `;
 
+const require = createRequire(import.meta.url);
 const io = { stdin: process.stdin, stdout: process.stdout, stderr: process.stderr };
 
 export async function main(argv: string[]): Promise<number> {
@@ -78,8 +82,12 @@ async function serve(dev: boolean): Promise<number> {
   const config = loadConfig(process.env, { dev });
   if (!dev && !existsSync('dist/client/index.html')) {
     console.log('Building the client (first start)…');
-    const { build } = await import('vite');
-    await build({ logLevel: 'warn' });
+    // In a child process, so the server does not keep the bundler's memory for its whole life.
+    const built = spawnSync(process.execPath, [join(dirname(require.resolve('vite/package.json')), 'bin', 'vite.js'), 'build', '--logLevel', 'warn'], { stdio: 'inherit' });
+    if (built.status !== 0) {
+      console.error('The client build failed; see above.');
+      return 1;
+    }
   }
   const { startServer } = await import('../server');
   const server = await startServer(config, { dev });

@@ -1,6 +1,6 @@
 import nodemailer, { type Transporter } from 'nodemailer';
 import { SMTPServer } from 'smtp-server';
-import { simpleParser, type AddressObject } from 'mailparser';
+import type { AddressObject } from 'mailparser';
 import type { Knex } from 'knex';
 import type { Logger } from 'pino';
 import type { AddressInfo } from 'node:net';
@@ -28,7 +28,9 @@ async function startSmtpFake(db: Knex, logger: Logger, clock: { now(): number })
     size: 1024 * 1024,
     logger: false,
     onData(stream, session, callback) {
-      simpleParser(stream)
+      // The parser is loaded on the first message: most starts never receive one, and it is large.
+      import('mailparser')
+        .then(({ simpleParser }) => simpleParser(stream))
         .then(async (parsed) => {
           const recipients = session.envelope.rcptTo.map((r) => r.address);
           await db('mail_messages').insert({
