@@ -53,7 +53,8 @@ export function errorHandler(logger: Logger): ErrorRequestHandler {
     let error: AppError;
     if (err instanceof AppError) error = err;
     else if (err?.type === 'entity.too.large') error = new AppError(413, 'too_large', 'The request body is too large.');
-    else if (err?.type === 'entity.parse.failed') error = new AppError(400, 'invalid_json', 'The request body is not valid JSON.');
+    // The parser is strict: a bare string, number or null is refused here too. The whole body is the field.
+    else if (err?.type === 'entity.parse.failed') error = new AppError(400, 'invalid_json', 'The request body is not valid JSON.', [{ field: '(input)', message: 'must be a JSON object or list' }]);
     else if (typeof err?.statusCode === 'number' && err.statusCode >= 400 && err.statusCode < 500 && typeof err.error === 'string') {
       // The identity provider's own errors (an expired sign-in, say) are safe to show.
       error = new AppError(err.statusCode, err.error, err.error_description ?? 'The sign-in request could not be completed.');

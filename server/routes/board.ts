@@ -4,11 +4,12 @@ import { BOARD_ACTIONS, type BoardAction } from '../../shared/schemas/board';
 import type { AppDeps } from '../deps';
 import { requireRole, requireUser } from '../auth/guards';
 import { errorBody, parseOr400 } from '../errors';
+import { CaseIdParam } from './params';
 import { announceCase } from '../realtime/broadcast';
 import { actOnCase, boardSnapshot, CaseActionError } from '../services/board';
 
 const BoardQuery = z.object({ hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }).optional() });
-const CaseId = z.object({ id: z.coerce.number({ error: 'must be a case number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }) });
+const CaseId = CaseIdParam;
 
 // The ED's actions are the charge nurse's; the trauma lead and the administrator may watch the board.
 const boardReaders = ['charge_nurse', 'trauma_lead', 'admin'] as const;

@@ -4,10 +4,11 @@ import { OPEN_STATES } from '../../shared/schemas/cases';
 import type { AppDeps } from '../deps';
 import { agencyIdsOf, hospitalIdsOf, requireRole, requireUser } from '../auth/guards';
 import { parseOr400 } from '../errors';
+import { CaseIdParam } from './params';
 import { caseEvents, caseForReader, caseRevisions, caseSummary, listCaseSummaries } from '../services/cases';
 
 const CaseListQuery = z.object({ state: z.enum(['open', 'all']).default('open') });
-const CaseId = z.object({ id: z.coerce.number({ error: 'must be a case number' }).int().positive() });
+const CaseId = CaseIdParam;
 
 // Crews read their agency's cases; ED staff read their hospital's. Writes go over the socket.
 const readers = ['paramedic', 'charge_nurse', 'trauma_lead', 'quality', 'admin'] as const;

@@ -1,13 +1,12 @@
 import { Router, type Request } from 'express';
-import { z } from 'zod';
 import type { AppDeps } from '../deps';
 import { requireRole, requireUser } from '../auth/guards';
 import { parseOr400 } from '../errors';
+import { IdParam } from './params';
 import { roomOfUser } from '../../shared/realtime/events';
 import { AgencyDestinations, AgencyFields, CreateUser, HospitalFields, UnitFields, UpdateHospital, UpdateUnit, UpdateUser } from '../../shared/schemas/people';
 import * as people from '../services/people';
 
-const IdParam = z.object({ id: z.coerce.number({ error: 'must be a number' }).int().positive() });
 const idOf = (req: Request) => parseOr400(IdParam, req.params).id;
 
 export function peopleRouter({ db, clock, io }: AppDeps): Router {

@@ -3,10 +3,10 @@ import { z } from 'zod';
 import type { AppDeps } from '../deps';
 import { requireRole, requireUser } from '../auth/guards';
 import { parseOr400 } from '../errors';
+import { IdParam } from './params';
 import { CreateDraft, PublishVersion, SaveDraft } from '../../shared/schemas/policies';
 import { approveVersion, createDraft, discardDraft, getPolicyVersion, listPolicyVersions, publishVersion, saveDraft } from '../services/policies';
 
-const IdParam = z.object({ id: z.coerce.number({ error: 'must be a number' }).int().positive() });
 const HospitalQuery = z.object({ hospitalId: z.coerce.number({ error: 'must be a number' }).int().positive() });
 const idOf = (req: Request) => parseOr400(IdParam, req.params).id;
 

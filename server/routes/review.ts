@@ -4,13 +4,13 @@ import { CloseDiscussion, ComplianceQuery, FlagForPeerReview, ResponseSettings, 
 import type { AppDeps } from '../deps';
 import { assertHospital, requireRole, requireUser } from '../auth/guards';
 import { parseOr400 } from '../errors';
+import { IdParam } from './params';
 import { verifyAuditChain } from '../services/audit';
 import { complianceReport } from '../services/compliance';
 import { toCsv, type CsvColumn } from '../services/csv';
 import { allReviewCases, caseTimeline, closeDiscussion, discussionList, listReviewCases, reviewCase, REVIEW_READER_ROLES, REVIEWER_ROLES, scopeHospitals } from '../services/reviews';
 import { getSetting, setSetting } from '../services/settings';
 
-const IdParam = z.object({ id: z.coerce.number({ error: 'must be a number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }) });
 const HospitalQuery = z.object({ hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }).optional() });
 const idOf = (req: Request) => parseOr400(IdParam, req.params).id;
 

@@ -11,7 +11,7 @@ export async function listMail(db: Knex, opts: { limit: number; hospitalIds: num
   const rows = await db('mail_messages as m')
     .whereExists((q) =>
       q.select(db.raw('1')).from(db.raw('json_each(m.recipients) as r'))
-        .whereIn(db.raw('lower(r.value)'), db('notification_lists').whereIn('hospital_id', opts.hospitalIds).select(db.raw('lower(email)'))),
+        .whereRaw('lower(r.value) in ?', [db('notification_lists').whereIn('hospital_id', opts.hospitalIds).select(db.raw('lower(email)'))]),
     )
     .orderBy('m.id', 'desc')
     .limit(opts.limit)
