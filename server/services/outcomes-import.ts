@@ -11,6 +11,7 @@ import {
 import { assertHospital, hasRole } from '../auth/guards';
 import { AppError, forbidden, notFound } from '../errors';
 import { appendAudit, type Actor } from './audit';
+import { csvCell } from './csv';
 
 // The registry's outcomes come in as a CSV, are checked row by row and shown whole before
 // anything is kept; the save is one transaction, so a file is either all in or not at all.
@@ -53,8 +54,9 @@ const normaliseHeader = (h: string) => h.trim().toLowerCase().replace(/[\s-]+/g,
 
 /** The template offered for download: the header, one worked example row, nothing else. */
 export function outcomeTemplateCsv(): string {
-  const header = OUTCOME_COLUMN_NAMES.join(',');
-  const example = OUTCOME_COLUMNS.map((c) => c.example).join(',');
+  // Through the same cell writer as every export, so no later example can become a formula.
+  const header = OUTCOME_COLUMN_NAMES.map(csvCell).join(',');
+  const example = OUTCOME_COLUMNS.map((c) => csvCell(c.example)).join(',');
   return `${header}\r\n${example}\r\n`;
 }
 
