@@ -26,18 +26,42 @@ export interface Impact {
   decelerationIsEstimate: true;
 }
 
+// Recorded heights repeat (standing, whole and tenth metres), so the height-only results of the
+// last few heights are kept, saving the exp/sqrt/log work per evaluation. Slots start as NaN with
+// NaN results, which is also what the formulas give for NaN, and are matched with Object.is so
+// that −0 and +0 keep their own signed results.
+const SLOTS = 64;
+const slotHeight = new Float64Array(SLOTS).fill(NaN);
+const slotSpeed = new Float64Array(SLOTS).fill(NaN);
+const slotVacuumSpeed = new Float64Array(SLOTS).fill(NaN);
+const slotFallTime = new Float64Array(SLOTS).fill(NaN);
+const slotVacuumFallTime = new Float64Array(SLOTS).fill(NaN);
+
+function heightSlot(heightM: number): number {
+  const k = (heightM * 10) & (SLOTS - 1);
+  if (!Object.is(slotHeight[k], heightM)) {
+    slotHeight[k] = heightM;
+    slotSpeed[k] = physics.impactSpeed(heightM);
+    slotVacuumSpeed[k] = physics.vacuumImpactSpeed(heightM);
+    slotFallTime[k] = physics.fallTime(heightM);
+    slotVacuumFallTime[k] = physics.vacuumFallTime(heightM);
+  }
+  return k;
+}
+
 export function fallImpact(heightM: number, surface?: Surface | null, weightKg?: number | null): Impact {
-  const { G, impactSpeed, vacuumImpactSpeed, fallTime, vacuumFallTime, kineticEnergy, meanDeceleration } = physics;
-  const speed = impactSpeed(heightM);
+  const { G, kineticEnergy, meanDeceleration } = physics;
+  const k = heightSlot(heightM);
+  const speed = slotSpeed[k];
   const stop = surface ? stopping[surface].metres : null;
   return {
     heightM,
     heightFt: heightM / 0.3048,
     speedMps: speed,
     speedKmh: speed * 3.6,
-    vacuumSpeedMps: vacuumImpactSpeed(heightM),
-    fallTimeS: fallTime(heightM),
-    vacuumFallTimeS: vacuumFallTime(heightM),
+    vacuumSpeedMps: slotVacuumSpeed[k],
+    fallTimeS: slotFallTime[k],
+    vacuumFallTimeS: slotVacuumFallTime[k],
     terminalSpeedMps: physics.DEFAULT_TERMINAL_SPEED_MPS,
     kineticEnergyJ: weightKg != null ? kineticEnergy(weightKg, speed) : null,
     stoppingDistanceM: stop,

@@ -33,10 +33,22 @@ export const INLINE_FLAG = 3;
 
 // Whole numbers are most recorded values; a table spares a number-to-text conversion per explanation.
 const WHOLE = Array.from({ length: 1001 }, (_, i) => String(i));
+// Rounded tenths and thousandths (heights, feet) are put together from tables too. The text is the
+// same as String(r / p): below 1001 a decimal with at most three places is the shortest text that
+// reads back to its double.
+const fractionTexts = (p: number, places: number): string[] =>
+  Array.from({ length: p }, (_, i) => (i === 0 ? '' : '.' + String(i).padStart(places, '0').replace(/0+$/, '')));
+const FRACTION: Record<number, string[]> = { 10: fractionTexts(10, 1), 1000: fractionTexts(1000, 3) };
 const fmt = (n: number, digits = 1): string => {
   if ((n | 0) === n && n >= 0 && n <= 1000) return WHOLE[n];
   const p = digits === 1 ? 10 : 10 ** digits;
-  return String(Math.round(n * p) / p);
+  const r = Math.round(n * p);
+  const fraction = FRACTION[p];
+  if (fraction !== undefined && r >= 0 && r <= 1000 * p) {
+    const whole = Math.floor(r / p);
+    return WHOLE[whole] + fraction[r - whole * p];
+  }
+  return String(r / p);
 };
 
 const LABEL: Record<Quantity, string> = { sbp: 'SBP', hr: 'HR', rr: 'RR', heightM: 'fall', gcsTotal: 'GCS', gcsMotor: 'motor GCS' };
@@ -101,22 +113,32 @@ function thresholdText(c: { quantity: Quantity; value: number; display?: string 
   return c.display ?? (c.quantity === 'heightM' ? `${c.value} m` : String(c.value));
 }
 
+// The comparisons, shared by the leaf closures and the fused shortcuts below; small enough for the
+// engine to inline into each closure, so a fused shortcut makes no call.
+function belowState(f: Facts, i: number, t: number): TriState {
+  return f.hi[i] < t ? MET : f.lo[i] >= t ? NOT_MET : UNKNOWN;
+}
+function aboveState(f: Facts, i: number, t: number): TriState {
+  return f.lo[i] > t ? MET : f.hi[i] <= t ? NOT_MET : UNKNOWN;
+}
+function exceedsState(f: Facts, a: number, b: number): TriState {
+  return f.lo[a] > f.hi[b] ? MET : f.hi[a] <= f.lo[b] ? NOT_MET : UNKNOWN;
+}
+
 export function compileCondition(c: Condition): CompiledCondition {
   switch (c.kind) {
     case 'below': {
       const i = QUANTITY_INDEX[c.quantity];
       const base = c.value;
       const perYear = c.perYearOfAge ?? 0;
-      const fixed = thresholdText(c);
+      // The constant tail of the explanation is joined once, here, not per explanation.
+      const fixedTail = ` < ${thresholdText(c)}`;
       return {
-        test: (f) => {
-          const t = base + perYear * f.years;
-          return f.hi[i] < t ? MET : f.lo[i] >= t ? NOT_MET : UNKNOWN;
-        },
+        test: (f) => belowState(f, i, base + perYear * f.years),
         explain: (f) => {
+          if (!perYear) return valueText(c.quantity, i, f, 'hi') + fixedTail;
           const t = base + perYear * f.years;
-          const thr = perYear ? `${fmt(t)} (${fmt(base)} + ${fmt(perYear)} × ${fmt(f.years)})` : fixed;
-          return `${valueText(c.quantity, i, f, 'hi')} < ${thr}`;
+          return `${valueText(c.quantity, i, f, 'hi')} < ${fmt(t)} (${fmt(base)} + ${fmt(perYear)} × ${fmt(f.years)})`;
         },
         missing: (f) => quantityMissing(c.quantity, i, f),
       };
@@ -124,36 +146,37 @@ export function compileCondition(c: Condition): CompiledCondition {
     case 'above': {
       const i = QUANTITY_INDEX[c.quantity];
       const t = c.value;
-      const thr = thresholdText(c);
+      const tail = ` > ${thresholdText(c)}`;
       return {
-        test: (f) => (f.lo[i] > t ? MET : f.hi[i] <= t ? NOT_MET : UNKNOWN),
-        explain: (f) => `${valueText(c.quantity, i, f, 'lo')} > ${thr}`,
+        test: (f) => aboveState(f, i, t),
+        explain: (f) => valueText(c.quantity, i, f, 'lo') + tail,
         missing: (f) => quantityMissing(c.quantity, i, f),
       };
     }
     case 'at-most': {
       const i = QUANTITY_INDEX[c.quantity];
       const t = c.value;
-      const thr = thresholdText(c);
+      const tail = ` ≤ ${thresholdText(c)}`;
       return {
         test: (f) => (f.hi[i] <= t ? MET : f.lo[i] > t ? NOT_MET : UNKNOWN),
-        explain: (f) => `${valueText(c.quantity, i, f, 'hi')} ≤ ${thr}`,
+        explain: (f) => valueText(c.quantity, i, f, 'hi') + tail,
         missing: (f) => quantityMissing(c.quantity, i, f),
       };
     }
     case 'exceeds': {
       const a = QUANTITY_INDEX[c.quantity], b = QUANTITY_INDEX[c.other];
       return {
-        test: (f) => (f.lo[a] > f.hi[b] ? MET : f.hi[a] <= f.lo[b] ? NOT_MET : UNKNOWN),
+        test: (f) => exceedsState(f, a, b),
         explain: (f) => `${valueText(c.quantity, a, f, 'lo')} > ${valueText(c.other, b, f, 'hi')}`,
         missing: (f) => quantityMissing(c.quantity, a, f) | quantityMissing(c.other, b, f),
       };
     }
     case 'age': {
       const from = c.from ?? -Infinity, below = c.below ?? Infinity;
+      const tail = ` (${c.label})`;
       return {
         test: (f) => (f.years >= from && f.years < below ? MET : NOT_MET),
-        explain: (f) => `${ageText(f.ageYears)} (${c.label})`,
+        explain: (f) => ageText(f.ageYears) + tail,
         missing: () => 0,
       };
     }
@@ -274,8 +297,21 @@ function fastAny(conditions: readonly Condition[]): Test | null {
 
 function fastAll(conditions: readonly Condition[], parts: readonly CompiledCondition[]): Test | null {
   if (conditions.length !== 2 || conditions[0].kind !== 'age') return null;
-  const age = conditions[0];
+  const age = conditions[0], other = conditions[1];
   const from = age.from ?? -Infinity, below = age.below ?? Infinity;
+  // An age band and one comparison (most physiologic and fall criteria): no call for the comparison.
+  if (other.kind === 'below') {
+    const i = QUANTITY_INDEX[other.quantity], base = other.value, perYear = other.perYearOfAge ?? 0;
+    return (f) => (f.years >= from && f.years < below ? belowState(f, i, base + perYear * f.years) : NOT_MET);
+  }
+  if (other.kind === 'above') {
+    const i = QUANTITY_INDEX[other.quantity], t = other.value;
+    return (f) => (f.years >= from && f.years < below ? aboveState(f, i, t) : NOT_MET);
+  }
+  if (other.kind === 'exceeds') {
+    const a = QUANTITY_INDEX[other.quantity], b = QUANTITY_INDEX[other.other];
+    return (f) => (f.years >= from && f.years < below ? exceedsState(f, a, b) : NOT_MET);
+  }
   const rest = parts[1].test;
   return (f) => (f.years >= from && f.years < below ? rest(f) : NOT_MET);
 }

@@ -54,15 +54,17 @@ interface Plan {
   /** Per member, INLINE_* and its bit or flag index: findings, considerations and flags need no call. */
   inlineKind: Uint8Array;
   inlineArg: Int32Array;
+  tierRank: Int8Array;
   setCount: number;
   calls: (LevelId | null)[];
   /** Per member, the index of the first rule naming it; rules.length when none does. */
   firstRule: Int32Array;
-  ruleMembers: Int32Array[];
   ruleLevel: LevelId[];
   levelName: Record<LevelId, string>;
   policyRef: Evaluation['policy'];
-  states: Uint8Array;
+  /** Scratch: the members met and the members unknown in one evaluation, in member order. */
+  met: Int32Array;
+  unknown: Int32Array;
 }
 
 // Compiled once per policy object and set; a policy edited in place would keep its old plan.
@@ -97,14 +99,16 @@ function buildPlan(setId: CriteriaSetId, policy: Policy): Plan {
   const levelName = { full: 'full', limited: 'limited', consult: 'consult', none: 'none' } as Record<LevelId, string>;
   for (const level of policy.levels) levelName[level.id] = level.name;
   return {
-    members, setCount, calls, firstRule, ruleMembers,
+    members, setCount, calls, firstRule,
     tests: members.map((m) => m.test),
     inlineKind: Uint8Array.from(members, (m) => m.inline?.kind ?? compiled.INLINE_NONE),
     inlineArg: Int32Array.from(members, (m) => m.inline?.arg ?? 0),
+    tierRank: Int8Array.from(members, (m) => m.tierRank),
     ruleLevel: policy.rules.map((r) => r.level),
     levelName,
     policyRef: Object.freeze({ id: policy.id, version: policy.version, example: policy.example }),
-    states: new Uint8Array(members.length),
+    met: new Int32Array(members.length),
+    unknown: new Int32Array(members.length),
   };
 }
 
@@ -137,11 +141,15 @@ export function evaluate(input: ClinicalInput, options: EvaluateOptions = {}): E
   const set = options.set ?? defaultSet;
   const plan = planFor(set, options.policy ?? defaultPolicy);
   const f = read(input, facts);
-  const { members, tests, inlineKind, inlineArg, states, setCount, ruleMembers, firstRule, calls } = plan;
+  const { members, tests, inlineKind, inlineArg, tierRank, setCount, firstRule, calls, met, unknown } = plan;
   const findings = f.findings, considerations = f.considerations, flags = f.flags;
   const n = members.length;
 
+  // One pass over the criteria: the field risk, the first rule with a met member (the lowest
+  // firstRule among them) and the met and unknown members for the two lists below.
   let risk = 0;
+  let matched = plan.ruleLevel.length;
+  let metCount = 0, unknownCount = 0;
   for (let i = 0; i < n; i++) {
     const kind = inlineKind[i];
     const s =
@@ -149,36 +157,30 @@ export function evaluate(input: ClinicalInput, options: EvaluateOptions = {}): E
       : kind === INLINE_FINDING ? ((findings & inlineArg[i]) !== 0 ? MET : NOT_MET)
       : kind === INLINE_CONSIDERATION ? ((considerations & inlineArg[i]) !== 0 ? MET : NOT_MET)
       : flags[inlineArg[i]];
-    states[i] = s;
-    if (s === MET && i < setCount && members[i].tierRank > risk) risk = members[i].tierRank;
-  }
-
-  let matched = ruleMembers.length;
-  search: for (let r = 0; r < ruleMembers.length; r++) {
-    const rule = ruleMembers[r];
-    for (let k = 0; k < rule.length; k++) {
-      if (states[rule[k]] === MET) {
-        matched = r;
-        break search;
-      }
+    if (s === MET) {
+      if (i < setCount && tierRank[i] > risk) risk = tierRank[i];
+      if (firstRule[i] < matched) matched = firstRule[i];
+      met[metCount++] = i;
+    } else if (s === UNKNOWN) {
+      unknown[unknownCount++] = i;
     }
   }
-  const activation: LevelId = matched < ruleMembers.length ? plan.ruleLevel[matched] : 'none';
+  const activation: LevelId = matched < plan.ruleLevel.length ? plan.ruleLevel[matched] : 'none';
 
   const criteria: FiredCriterion[] = [];
+  for (let k = 0; k < metCount; k++) {
+    const i = met[k];
+    if (i >= setCount && calls[i] === null) continue;
+    const m = members[i];
+    const c = m.criterion;
+    criteria.push({
+      id: c.id, set: c.set, tier: c.tier, label: c.label, because: m.explain(f), source: c.source, calls: calls[i], nemsis: c.nemsis,
+    });
+  }
   let missingBits = 0;
-  for (let i = 0; i < n; i++) {
-    const s = states[i];
-    if (s === MET) {
-      if (i >= setCount && calls[i] === null) continue;
-      const m = members[i];
-      const c = m.criterion;
-      criteria.push({
-        id: c.id, set: c.set, tier: c.tier, label: c.label, because: m.explain(f), source: c.source, calls: calls[i], nemsis: c.nemsis,
-      });
-    } else if (s === UNKNOWN && ((i < setCount && members[i].tierRank > risk) || firstRule[i] < matched)) {
-      missingBits |= members[i].missing(f);
-    }
+  for (let k = 0; k < unknownCount; k++) {
+    const i = unknown[k];
+    if ((i < setCount && tierRank[i] > risk) || firstRule[i] < matched) missingBits |= members[i].missing(f);
   }
   const missing: MissingInput[] = [];
   for (let b = 0; missingBits !== 0; b++, missingBits >>>= 1) if (missingBits & 1) missing.push(MISSING[b]);
