@@ -3,6 +3,7 @@ import { parse as parseCsv } from 'csv-parse/sync';
 import fc from 'fast-check';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { BOARD_ACTIONS, BOARD_ACTION_SCHEMAS } from '../../shared/schemas/board';
+import { PreAlert, PreAlertUpdate } from '../../shared/schemas/cases';
 import { ClinicalInput, CONSIDERATIONS, FINDINGS, FIRST_IMPACT_REGIONS, SEXES, SURFACES } from '../../shared/schemas/clinical';
 import { CreateUser, HospitalFields } from '../../shared/schemas/people';
 import { Policy } from '../../shared/triage/policy';
@@ -18,7 +19,7 @@ import { command, connectAs, type TestSocket } from '../support/socket';
 // sockets, each with the role that may send them. Whatever arrives: never a server error, a 400
 // names the field, a refusal changes nothing, and what is accepted reads back valid.
 
-const RUNS = 70;
+const RUNS = 60;
 // A frozen clock: no case turns overdue while the fuzzers count rows.
 const clock = { t: Date.now(), now() { return this.t; } };
 
@@ -212,13 +213,19 @@ describe('the crew’s socket commands under random and hostile payloads', () =>
       notes: fc.string({ maxLength: 300 }),
       clinical,
     });
-    const { accepted } = await fuzz(payload, async (p) => ackAnswer(await command(crewSocket, 'case:submit', p)), async (_p, answer) => storedRevisionIsValid((answer.body as { caseId: number }).caseId), 120);
+    const { accepted } = await fuzz(payload, async (p) => ackAnswer(await command(crewSocket, 'case:submit', p)), async (p, answer) => {
+      expect(PreAlert.safeParse(p).success, `accepted ${JSON.stringify(p)}`).toBe(true);
+      await storedRevisionIsValid((answer.body as { caseId: number }).caseId);
+    }, 100);
     expect(accepted).toBeGreaterThan(0);
   });
 
   it('case:update', async () => {
     const payload = body({ caseId: fc.constantFrom(...ids.liveCases, ids.closedCases[0], 999_999), etaMinutes: fc.option(fc.integer({ min: 0, max: 600 })), notes: fc.string({ maxLength: 300 }), clinical });
-    const { accepted } = await fuzz(payload, async (p) => ackAnswer(await command(crewSocket, 'case:update', p)), async (p) => storedRevisionIsValid((p as { caseId: number }).caseId), 100);
+    const { accepted } = await fuzz(payload, async (p) => ackAnswer(await command(crewSocket, 'case:update', p)), async (p) => {
+      expect(PreAlertUpdate.safeParse(p).success, `accepted ${JSON.stringify(p)}`).toBe(true);
+      await storedRevisionIsValid((p as { caseId: number }).caseId);
+    }, 80);
     expect(accepted).toBeGreaterThan(0);
   });
 
@@ -248,17 +255,19 @@ describe('REST bodies under random and hostile values', () => {
     if (action === 'bay') shape.bay = fc.string({ minLength: 1, maxLength: 50 });
     if (action === 'arrived' || action === 'team-at-bedside') shape.at = fc.integer({ min: clock.t - 3 * 3600_000, max: clock.t + 3600_000 });
     const target = fc.tuple(fc.constantFrom(...ids.liveCases, ...ids.liveCases, ids.closedCases[0], 999_999), body(shape));
+    let sent: unknown;
     await fuzz(target, async ([caseId, payload]) => {
       const row = await server.db('cases').where({ id: caseId }).first('row_version');
       const filled = payload && typeof payload === 'object' && (payload as Record<string, unknown>).rowVersion === current ? { ...(payload as object), rowVersion: row?.row_version ?? 1 } : payload;
+      sent = filled;
       return send(nurse, 'POST', `/api/cases/${caseId}/${action}`, filled);
     }, async ([caseId]) => {
+      expect(BOARD_ACTION_SCHEMAS[action].safeParse(sent).success, `accepted ${JSON.stringify(sent)}`).toBe(true);
       const summary = (await (await nurse.get(`/api/cases/${caseId}`)).json()).case;
       expect(['full', 'limited', 'consult', 'none', null]).toContain(summary.decidedLevel);
       expect(summary.bay === null || (summary.bay.length >= 1 && summary.bay.length <= 40 && summary.bay === summary.bay.trim())).toBe(true);
       expect(summary.decidedReason === null || summary.decidedReason.length <= 500).toBe(true);
       for (const at of [summary.arrivedAt, summary.teamAtBedsideAt]) expect(at === null || (Number.isSafeInteger(at) && at <= clock.t + 2 * 60_000)).toBe(true);
-      expect(BOARD_ACTION_SCHEMAS[action]).toBeDefined();
     }, 40);
   });
 
