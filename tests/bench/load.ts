@@ -70,6 +70,7 @@ export interface LoadResult {
   snapshots: number;
   p50Ms: number | null;
   p99Ms: number | null;
+  auditChain: { ok: boolean; rows: number; brokenAt?: number };
   latencySamples: number;
   summaryBytes: number;
   /** One summary as a board received it, so the bare echo can carry the same shape. */

@@ -10,7 +10,7 @@ import { createDb, migrate } from '../../server/db';
 import { buildReport } from '../../server/services/quality-report';
 import type { ClinicalInput } from '../../shared/schemas/clinical';
 import { ReportQuery } from '../../shared/schemas/quality';
-import { evaluate } from '../../shared/triage/evaluate';
+import { evaluate, type Evaluation } from '../../shared/triage/evaluate';
 
 const CASES = Number(process.argv[2] ?? 100_000);
 const BATCH = 400;
@@ -58,9 +58,9 @@ async function main(): Promise<void> {
     const fillStarted = performance.now();
     await db.transaction(async (trx) => {
       for (let start = 0; start < CASES; start += BATCH) {
-        const cases = [];
+        const cases: Array<Record<string, string | number | null>> = [];
         const inputs: ClinicalInput[] = [];
-        const results = [];
+        const results: Evaluation[] = [];
         for (let i = start; i < Math.min(CASES, start + BATCH); i++) {
           const input = inventedInput();
           const result = evaluate(input);

@@ -44,7 +44,7 @@ function post(client: SignedInClient, path: string, file: { body: string | Uint8
   const form = new FormData();
   form.set('hospitalId', String(hospitalId));
   for (const [k, v] of Object.entries(extra)) form.set(k, v);
-  if (file) form.set('file', new Blob([file.body], { type: file.type ?? 'text/csv' }), file.name ?? 'registry.csv');
+  if (file) form.set('file', new Blob([file.body as BlobPart], { type: file.type ?? 'text/csv' }), file.name ?? 'registry.csv');
   return client.fetch(new URL(path, server.url), { method: 'POST', body: form, headers: { origin: new URL(server.url).origin, accept: 'application/json' } });
 }
 const preview = async (csv: string, client = quality) => {
