@@ -15,7 +15,7 @@ if (!hasChromium) {
 }
 
 /** A describe block that runs only where Debian's Chromium exists (and fails under CI without it). */
-export const describeInBrowser = describe.skipIf(!hasChromium);
+export const describeInBrowser: typeof describe = describe.skipIf(!hasChromium) as typeof describe;
 
 export async function launchBrowser(): Promise<Browser> {
   // playwright-core starts every browser with a fresh temporary profile (user-data dir) of its own.
