@@ -34,6 +34,26 @@ export async function up(db: Knex): Promise<void> {
     t.text('criteria').notNullable().defaultTo(''); // fired criterion ids, space-separated
   });
   // Derived in the database, so every writer of revisions keeps it right without knowing of it.
+  if (db.client.config.client === 'pg') {
+    await db.raw(`
+      CREATE FUNCTION case_quality_facts_fill() RETURNS trigger AS $$ BEGIN
+        INSERT INTO case_quality_facts (case_id, revision, height_m, criteria)
+        VALUES (
+          NEW.case_id, NEW.revision, (NEW.input::jsonb #>> '{fall,heightM}')::double precision,
+          COALESCE((SELECT string_agg(c->>'id', ' ') FROM jsonb_array_elements(NEW.result::jsonb->'criteria') c), '')
+        )
+        ON CONFLICT (case_id) DO UPDATE SET revision = excluded.revision, height_m = excluded.height_m, criteria = excluded.criteria
+        WHERE excluded.revision >= case_quality_facts.revision;
+        RETURN NEW;
+      END $$ LANGUAGE plpgsql`);
+    await db.raw('CREATE TRIGGER case_quality_facts_from_revision AFTER INSERT ON case_revisions FOR EACH ROW EXECUTE FUNCTION case_quality_facts_fill()');
+    await db.raw(`
+      INSERT INTO case_quality_facts (case_id, revision, height_m, criteria)
+      SELECT r.case_id, r.revision, (r.input::jsonb #>> '{fall,heightM}')::double precision,
+        COALESCE((SELECT string_agg(c->>'id', ' ') FROM jsonb_array_elements(r.result::jsonb->'criteria') c), '')
+      FROM case_revisions r JOIN cases c ON c.id = r.case_id AND r.revision = c.current_revision`);
+    return;
+  }
   await db.raw(`
     CREATE TRIGGER case_quality_facts_from_revision AFTER INSERT ON case_revisions BEGIN
       INSERT INTO case_quality_facts (case_id, revision, height_m, criteria)
@@ -53,7 +73,8 @@ export async function up(db: Knex): Promise<void> {
 }
 
 export async function down(db: Knex): Promise<void> {
-  await db.raw('DROP TRIGGER IF EXISTS case_quality_facts_from_revision');
+  await db.raw(db.client.config.client === 'pg' ? 'DROP TRIGGER IF EXISTS case_quality_facts_from_revision ON case_revisions' : 'DROP TRIGGER IF EXISTS case_quality_facts_from_revision');
+  if (db.client.config.client === 'pg') await db.raw('DROP FUNCTION IF EXISTS case_quality_facts_fill()');
   await db.schema.dropTableIfExists('case_quality_facts');
   await db.raw('DROP INDEX IF EXISTS cases_hospital_created');
   await db.schema.dropTableIfExists('outcomes');

@@ -31,5 +31,6 @@ export function createSessionMiddleware(opts: { db: Knex; secret: string; secure
 
 /** Ends every session a user holds, as when an administrator deactivates them. */
 export async function endSessionsOf(db: Knex, userId: number): Promise<number> {
-  return db('sessions').whereRaw("json_extract(sess, '$.userId') = ?", [userId]).delete();
+  const userIdOfSession = db.client.config.client === 'pg' ? "(sess->>'userId')::int" : "json_extract(sess, '$.userId')";
+  return db('sessions').whereRaw(`${userIdOfSession} = ?`, [userId]).delete();
 }

@@ -5,7 +5,15 @@ import type { Knex } from 'knex';
 import type { Logger } from 'pino';
 import type { AddressInfo } from 'node:net';
 
-export interface OutgoingMail { to: string[]; subject: string; text: string }
+export interface OutgoingMail {
+  to: string[];
+  subject: string;
+  text: string;
+  /** The hospital the message is sent for; it travels in a header our own mail catcher reads. */
+  hospitalId?: number | null;
+}
+
+export const HOSPITAL_HEADER = 'X-Plumbline-Hospital';
 
 export interface Mailer {
   send(mail: OutgoingMail): Promise<{ messageId: string }>;
@@ -40,6 +48,7 @@ async function startSmtpFake(db: Knex, logger: Logger, clock: { now(): number })
             subject: parsed.subject ?? '',
             text: parsed.text ?? '',
             message_id: parsed.messageId ?? null,
+            hospital_id: Number(parsed.headers.get(HOSPITAL_HEADER.toLowerCase())) || null,
           });
           callback();
         })
@@ -66,7 +75,8 @@ export async function createMailer(opts: { smtpUrl: string | null; from: string;
   return {
     local: fake !== null,
     async send(mail) {
-      const info = await transport.sendMail({ from: opts.from, to: mail.to, subject: mail.subject, text: mail.text });
+      const headers = mail.hospitalId ? { [HOSPITAL_HEADER]: String(mail.hospitalId) } : undefined;
+      const info = await transport.sendMail({ from: opts.from, to: mail.to, subject: mail.subject, text: mail.text, headers });
       return { messageId: info.messageId };
     },
     async close() {

@@ -247,7 +247,7 @@ async function pageTeam(deps: BoardDeps, actor: CaseActor, row: CaseRow, at: num
     before: { pagedAt: row.paged_at == null ? null : Number(row.paged_at) },
   });
   try {
-    await mailer.send({ ...mail, to: recipients });
+    await mailer.send({ ...mail, to: recipients, hospitalId: row.hospital_id });
   } catch (err) {
     const claimed = await loadCaseRow(db, row.id);
     await db.transaction(async (trx) => {

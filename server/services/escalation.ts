@@ -56,7 +56,7 @@ export async function runEscalation(deps: EscalationDeps): Promise<number[]> {
       continue;
     }
     try {
-      await mailer.send({ ...composeEscalation(summary, minutes, await levelsOfCase(db, row), now), to: recipients });
+      await mailer.send({ ...composeEscalation(summary, minutes, await levelsOfCase(db, row), now), to: recipients, hospitalId: row.hospital_id });
     } catch (err) {
       logger.error({ err, caseId: row.id }, 'escalation e-mail could not be sent');
       await db.transaction((trx) => recordCaseEvent(trx, { caseId: row.id, kind: 'escalation-mail-failed', actor: systemActor, at: clock.now(), data: { recipients, error: String((err as Error)?.message ?? err).slice(0, 300) } }));
