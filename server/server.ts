@@ -34,6 +34,8 @@ export interface StartOptions {
   db?: Knex;
   /** Serve the client through Vite with hot reload instead of the built files. */
   dev?: boolean;
+  /** Run the timed jobs (escalation); tests that need them drive them by hand on a fake clock. */
+  backgroundJobs?: boolean;
 }
 
 /** Starts the whole product in this process: database, identity provider, mail, HTTP and sockets. */
@@ -84,7 +86,7 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
 
   const app = createApp({ ...deps, issuer, idpRouter: idp?.router, vite });
   http.on('request', app);
-  const jobs = backgroundJobs(deps);
+  const jobs = opts.backgroundJobs === false ? { stop() {} } : backgroundJobs(deps);
 
   let closed = false;
   return {

@@ -1,21 +1,25 @@
 import { Router, type Request } from 'express';
 import type { AppDeps } from '../deps';
 import { requireRole, requireUser } from '../auth/guards';
-import { parseOr400 } from '../errors';
+import { conflict, parseOr400 } from '../errors';
 import { IdParam } from './params';
 import { roomOfUser } from '../../shared/realtime/events';
-import { AgencyDestinations, AgencyFields, CreateUser, HospitalFields, UnitFields, UpdateHospital, UpdateUnit, UpdateUser } from '../../shared/schemas/people';
+import { AgencyDestinations, AgencyFields, CreateUser, HospitalFields, SetPassword, UnitFields, UpdateHospital, UpdateUnit, UpdateUser } from '../../shared/schemas/people';
 import * as people from '../services/people';
 
 const idOf = (req: Request) => parseOr400(IdParam, req.params).id;
 
-export function peopleRouter({ db, clock, io }: AppDeps): Router {
+export function peopleRouter({ db, clock, io, config }: AppDeps): Router {
   const router = Router();
   const user = requireUser(db);
   const admin = requireRole('admin');
   router.get('/api/people/users', user, admin, async (req, res) => res.json(await people.listPeople(db, req.me!)));
   router.post('/api/people/users', user, admin, async (req, res) => res.status(201).json(await people.createPerson(db, req.me!, parseOr400(CreateUser, req.body), clock.now())));
   router.patch('/api/people/users/:id', user, admin, async (req, res) => res.json(await people.updatePerson(db, req.me!, idOf(req), parseOr400(UpdateUser, req.body), clock.now())));
+  router.post('/api/people/users/:id/password', user, admin, async (req, res) => {
+    if (config.oidc.issuer) throw conflict('Passwords are kept by your identity provider; set it there.');
+    res.json(await people.setPassword(db, req.me!, idOf(req), parseOr400(SetPassword, req.body).password, clock.now()));
+  });
   router.post('/api/people/users/:id/reactivate', user, admin, async (req, res) => res.json(await people.setPersonActive(db, req.me!, idOf(req), true, clock.now())));
   router.post('/api/people/users/:id/deactivate', user, admin, async (req, res) => {
     const person = await people.setPersonActive(db, req.me!, idOf(req), false, clock.now());

@@ -16,6 +16,7 @@ import {
 } from '../../shared/schemas/people';
 import { agencyIdsOf, assertAgency, assertHospital, hospitalIdsOf } from '../auth/guards';
 import { endSessionsOf } from '../auth/session';
+import { hashPassword } from '../auth/passwords';
 import { conflict, forbidden, invalid, notFound } from '../errors';
 import { appendAudit, type Actor } from './audit';
 import { membershipsOf, rolesOf } from './users';
@@ -90,6 +91,17 @@ export async function createPerson(db: Knex, me: Me, request: CreateUser, at: nu
     return user.id as number;
   });
   return describePerson(db, (await db('users').where({ id }).first())!);
+}
+
+/** Sets the person's password for the built-in sign-in; the audit row records that it changed, never the value. */
+export async function setPassword(db: Knex, me: Me, userId: number, password: string, at: number): Promise<PersonRow> {
+  const passwordHash = await hashPassword(password);
+  await db.transaction(async (trx) => {
+    await loadPerson(trx, me, userId);
+    await trx('users').where({ id: userId }).update({ password_hash: passwordHash });
+    await appendAudit(trx, { at, actor: actorOf(me), action: 'user.password-set', entity: 'user', entityId: userId, after: { passwordSet: true } });
+  });
+  return describePerson(db, (await db('users').where({ id: userId }).first('id', 'email', 'name', 'active'))!);
 }
 
 export async function updatePerson(db: Knex, me: Me, userId: number, request: UpdateUser, at: number): Promise<PersonRow> {

@@ -27,6 +27,12 @@ export type CreateUser = z.infer<typeof CreateUser>;
 export const UpdateUser = CreateUser.partial();
 export type UpdateUser = z.infer<typeof UpdateUser>;
 
+/** A password for Plumbline's built-in sign-in; an outside identity provider keeps its own. */
+export const SetPassword = z.object({
+  password: z.string({ error: 'must be text' }).min(10, { error: 'must be at least 10 characters' }).max(200, { error: 'must be at most 200 characters' }),
+});
+export type SetPassword = z.infer<typeof SetPassword>;
+
 export const NOTIFICATION_LISTS = ['full', 'limited', 'consult', 'escalation'] as const;
 export type NotificationListId = (typeof NOTIFICATION_LISTS)[number];
 

@@ -7,6 +7,7 @@ export interface AgencyListing { agencies: AgencyRow[]; hospitals: Array<{ id: n
 export const listPeople = () => apiGet<PersonRow[]>('/api/people/users');
 export const createPerson = (request: CreateUser) => apiSend<PersonRow>('POST', '/api/people/users', request);
 export const updatePerson = (id: number, request: UpdateUser) => apiSend<PersonRow>('PATCH', `/api/people/users/${id}`, request);
+export const setPassword = (id: number, password: string) => apiSend<PersonRow>('POST', `/api/people/users/${id}/password`, { password });
 export const setPersonActive = (id: number, active: boolean) => apiSend<PersonRow>('POST', `/api/people/users/${id}/${active ? 'reactivate' : 'deactivate'}`, {});
 
 export const listHospitals = () => apiGet<HospitalRow[]>('/api/people/hospitals');

@@ -29,6 +29,7 @@ export const usePeopleStore = defineStore('people', () => {
 
   const addPerson = async (request: CreateUser) => put(people.value, await api.createPerson(request));
   const editPerson = async (id: number, request: UpdateUser) => put(people.value, await api.updatePerson(id, request));
+  const setPassword = async (id: number, password: string) => put(people.value, await api.setPassword(id, password));
   const setActive = async (id: number, active: boolean) => put(people.value, await api.setPersonActive(id, active));
   async function addHospital(fields: HospitalFields) {
     const row = put(hospitals.value, await api.createHospital(fields));
@@ -42,5 +43,5 @@ export const usePeopleStore = defineStore('people', () => {
   const editUnit = async (unitId: number, fields: UpdateUnit) => put(agencies.value, await api.updateUnit(unitId, fields));
   const setDestinations = async (agencyId: number, hospitalIds: number[]) => put(agencies.value, await api.setDestinations(agencyId, hospitalIds));
 
-  return { people, hospitals, agencies, allHospitals, loaded, load, addPerson, editPerson, setActive, addHospital, editHospital, addAgency, editAgency, addUnit, editUnit, setDestinations };
+  return { people, hospitals, agencies, allHospitals, loaded, load, addPerson, editPerson, setPassword, setActive, addHospital, editHospital, addAgency, editAgency, addUnit, editUnit, setDestinations };
 });

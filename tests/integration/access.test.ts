@@ -59,6 +59,7 @@ const TABLE: Record<string, RouteEntry> = {
   'POST /api/people/users': { access: ['admin'], request: () => ({ path: '/api/people/users', body: {} }), allowed: 400 },
   'PATCH /api/people/users/:id': { access: ['admin'], request: (ids) => ({ path: `/api/people/users/${ids.nurse}`, body: { name: '' } }), allowed: 400 },
   'POST /api/people/users/:id/reactivate': { access: ['admin'], request: () => ({ path: `/api/people/users/${NONE}/reactivate` }), allowed: 404 },
+  'POST /api/people/users/:id/password': { access: ['admin'], request: () => ({ path: `/api/people/users/${NONE}/password`, body: { password: 'long-enough-1' } }), allowed: 404 },
   'POST /api/people/users/:id/deactivate': { access: ['admin'], request: () => ({ path: `/api/people/users/${NONE}/deactivate` }), allowed: 404 },
   'GET /api/people/hospitals': { access: ['admin'], request: () => ({ path: '/api/people/hospitals' }), allowed: 200 },
   'POST /api/people/hospitals': { access: ['admin'], request: () => ({ path: '/api/people/hospitals', body: {} }), allowed: 400 },

@@ -57,6 +57,22 @@ describe('people', () => {
     expect(await auditRows('user', person.id)).toEqual(['user.created']);
   });
 
+  it('gives a new person a password for the built-in sign-in, so they can sign in through the real flow', async () => {
+    const created = await (await admin.send('POST', '/api/people/users', { email: 'tomas.reyne@plumbline.test', name: 'Tomas Reyne', roles: ['charge_nurse'], memberships: [{ kind: 'hospital', id: community }] })).json();
+    await expect(signIn(server.url, 'tomas.reyne@plumbline.test', 'a-new-password')).rejects.toThrow(/HTTP 401/);
+    const short = await admin.send('POST', `/api/people/users/${created.id}/password`, { password: 'short' });
+    expect(short.status).toBe(400);
+    expect((await short.json()).error).toMatchObject({ field: 'password', message: 'password: must be at least 10 characters' });
+    const set = await admin.send('POST', `/api/people/users/${created.id}/password`, { password: 'a-new-password' });
+    expect(set.status).toBe(200);
+    const me = await (await (await signIn(server.url, 'tomas.reyne@plumbline.test', 'a-new-password')).get('/api/me')).json();
+    expect([me.user.email, me.roles]).toEqual(['tomas.reyne@plumbline.test', ['charge_nurse']]);
+    const audit = await server.db('audit_log').where({ entity: 'user', entity_id: String(created.id) }).orderBy('id').select('action', 'after');
+    expect(audit.map((row) => row.action)).toEqual(['user.created', 'user.password-set']);
+    // The audit row records that the password changed, never the password.
+    expect(audit[1].after).toBe('{"passwordSet":true}');
+  });
+
   it('refuses an e-mail that is not an address, and a second account for one address', async () => {
     const bad = await admin.send('POST', '/api/people/users', { email: 'ines at fenmoor', name: 'Ines', roles: ['quality'], memberships: [{ kind: 'hospital', id: community }] });
     expect(bad.status).toBe(400);

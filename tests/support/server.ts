@@ -6,11 +6,15 @@ import { startServer, type RunningServer, type StartOptions } from '../../server
 
 export interface TestServer extends RunningServer { dataDir: string; config: Config }
 
-/** The real product on an ephemeral port with a temporary SQLite file and the demo scenario. */
+/**
+ * The real product on an ephemeral port with a temporary SQLite file and the demo scenario.
+ * Its timed jobs are off unless asked for, so the demo's live cases do not turn overdue (and
+ * change) in the middle of a test; escalation tests run the job themselves on a fake clock.
+ */
 export async function startTestServer(overrides: Partial<Config> = {}, opts: StartOptions = {}): Promise<TestServer> {
   const dataDir = mkdtempSync(join(tmpdir(), 'plumbline-test-'));
   const config = loadConfig({ NODE_ENV: 'test' }, { port: 0, host: '127.0.0.1', dataDir, logLevel: 'silent', ...overrides });
-  const server = await startServer(config, opts);
+  const server = await startServer(config, { backgroundJobs: false, ...opts });
   return {
     ...server,
     dataDir,
