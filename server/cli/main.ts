@@ -6,6 +6,7 @@ import { loadConfig } from '../config';
 import { createDb, migrate } from '../db';
 import { systemClock } from '../deps';
 import { DEMO_PASSWORD, demoAccounts, isEmpty, seedDemo } from '../services/seed';
+import { FENMOOR_NURSE } from '../services/board-demo';
 
 const usage = `Usage: plumbline <command>
 
@@ -96,7 +97,8 @@ async function serve(dev: boolean): Promise<number> {
   console.log(`Data: ${config.dataDir}${server.mailer.local ? '  ·  mail: built-in SMTP fake (read it on the Mail sent page)' : ''}`);
   if (local) {
     console.log(`\nDemo sign-ins (password "${DEMO_PASSWORD}"):`);
-    for (const account of demoAccounts) console.log(`  ${account.email.padEnd(26)} ${account.label}`);
+    for (const account of demoAccounts) console.log(`  ${account.email.padEnd(30)} ${account.label}`);
+    console.log(`  ${FENMOOR_NURSE.email.padEnd(30)} charge nurse, Fenmoor Community`);
   }
   console.log('');
   const stop = async () => {
