@@ -87,6 +87,7 @@ export async function submitPreAlert(db: Knex, clock: Clock, actor: CaseActor, p
   const at = clock.now();
   const result = await evaluateFor(db, payload.hospitalId, payload.clinical, at);
   try {
+    let written: WrittenRevision | undefined;
     const caseId = await db.transaction(async (trx) => {
       const [inserted] = await trx('cases')
         .insert({
@@ -110,7 +111,7 @@ export async function submitPreAlert(db: Knex, clock: Clock, actor: CaseActor, p
         .returning('id');
       const id = inserted.id as number;
       await trx('cases').where({ id }).update({ case_number: caseNumberOf(id, at) });
-      await insertRevision(trx, id, 1, payload.clinical, result, payload.etaMinutes ?? null, payload.notes ?? null, actor.me.user.id, at);
+      written = await insertRevision(trx, id, 1, payload.clinical, result, payload.etaMinutes ?? null, payload.notes ?? null, actor.me.user.id, at);
       await recordCaseEvent(trx, {
         caseId: id,
         kind: 'received',
@@ -121,6 +122,7 @@ export async function submitPreAlert(db: Knex, clock: Clock, actor: CaseActor, p
       });
       return id;
     });
+    rememberWritten(db, written!);
     return { caseId, created: true };
   } catch (err) {
     // Two sends of the same pre-alert raced; the first one made the case.
@@ -132,12 +134,14 @@ export async function submitPreAlert(db: Knex, clock: Clock, actor: CaseActor, p
   }
 }
 
-async function insertRevision(db: Knex, caseId: number, revision: number, input: ClinicalInput, result: Evaluation, etaMinutes: number | null, notes: string | null, userId: number, at: number) {
+/** Writes a revision; returns its JSON as stored, for the cache once the transaction commits. */
+async function insertRevision(db: Knex, caseId: number, revision: number, input: ClinicalInput, result: Evaluation, etaMinutes: number | null, notes: string | null, userId: number, at: number): Promise<WrittenRevision> {
+  const written = { caseId, revision, input: JSON.stringify(input), result: JSON.stringify(result) };
   await db('case_revisions').insert({
     case_id: caseId,
     revision,
-    input: JSON.stringify(input),
-    result: JSON.stringify(result),
+    input: written.input,
+    result: written.result,
     criteria_set: result.set,
     policy_id: result.policy.id,
     policy_version: result.policy.version,
@@ -148,6 +152,14 @@ async function insertRevision(db: Knex, caseId: number, revision: number, input:
     created_by: userId,
     created_at: at,
   });
+  return written;
+}
+
+interface WrittenRevision { caseId: number; revision: number; input: string; result: string }
+
+/** After the commit: the summary announced next finds the revision parsed exactly as it will read back. */
+function rememberWritten(db: Knex, written: WrittenRevision): void {
+  rememberRevision(revisionCacheOf(db), revisionKey(written.caseId, written.revision), { input: JSON.parse(written.input) as ClinicalInput, result: JSON.parse(written.result) as Evaluation });
 }
 
 /** An update en route: a new revision, evaluated again; a rising recommendation is flagged. */
@@ -157,7 +169,7 @@ export async function reviseCase(db: Knex, clock: Clock, actor: CaseActor, paylo
   const result = await evaluateFor(db, row.hospital_id, payload.clinical, at);
   const from = row.recommended_level;
   const rose = LEVEL_RANK[result.activation] > LEVEL_RANK[from];
-  await db.transaction(async (trx) => {
+  const written = await db.transaction(async (trx) => {
     const revision = row.current_revision + 1;
     const changed = await trx('cases')
       .where({ id: row.id, row_version: row.row_version })
@@ -173,7 +185,7 @@ export async function reviseCase(db: Knex, clock: Clock, actor: CaseActor, paylo
         row_version: row.row_version + 1,
       });
     if (!changed) throw conflict('The case changed while this update was sent; send it again.');
-    await insertRevision(trx, row.id, revision, payload.clinical, result, payload.etaMinutes ?? null, payload.notes ?? null, actor.me.user.id, at);
+    const stored = await insertRevision(trx, row.id, revision, payload.clinical, result, payload.etaMinutes ?? null, payload.notes ?? null, actor.me.user.id, at);
     await recordCaseEvent(trx, {
       caseId: row.id,
       kind: 'revised',
@@ -182,7 +194,9 @@ export async function reviseCase(db: Knex, clock: Clock, actor: CaseActor, paylo
       data: { revision, from, to: result.activation, rose, fieldRisk: result.fieldRisk, criteria: result.criteria.map((c) => c.id), etaMinutes: payload.etaMinutes ?? null },
       policy: result.policy,
     });
+    return stored;
   });
+  rememberWritten(db, written);
   return { caseId: row.id, rose, from, to: result.activation };
 }
 
@@ -207,7 +221,7 @@ export async function redirectCase(db: Knex, clock: Clock, actor: CaseActor, pay
   const input = JSON.parse(latest.input) as ClinicalInput;
   const at = clock.now();
   const result = await evaluateFor(db, payload.hospitalId, input, at);
-  await db.transaction(async (trx) => {
+  const written = await db.transaction(async (trx) => {
     const revision = row.current_revision + 1;
     const changed = await trx('cases').where({ id: row.id, row_version: row.row_version }).update({
       hospital_id: payload.hospitalId,
@@ -224,7 +238,7 @@ export async function redirectCase(db: Knex, clock: Clock, actor: CaseActor, pay
       row_version: row.row_version + 1,
     });
     if (!changed) throw conflict('The case changed at the same moment; look again before redirecting.');
-    await insertRevision(trx, row.id, revision, input, result, latest.eta_minutes, latest.notes, actor.me.user.id, at);
+    const stored = await insertRevision(trx, row.id, revision, input, result, latest.eta_minutes, latest.notes, actor.me.user.id, at);
     await recordCaseEvent(trx, {
       caseId: row.id,
       kind: 'redirected',
@@ -234,7 +248,9 @@ export async function redirectCase(db: Knex, clock: Clock, actor: CaseActor, pay
       data: { hospitalId: payload.hospitalId, reason: payload.reason, revision, activation: result.activation },
       policy: result.policy,
     });
+    return stored;
   });
+  rememberWritten(db, written);
   return { caseId: row.id, fromHospitalId: row.hospital_id };
 }
 
@@ -246,7 +262,56 @@ export interface CaseFilter {
   limit?: number;
 }
 
-/** Case summaries in arrival order (no ETA last), in three queries whatever the count. */
+interface ParsedRevision { input: ClinicalInput; result: Evaluation }
+
+// Parsed input and evaluation of recent revisions, per database. A revision row is never changed
+// once written, so an entry cannot go stale; without it every board's reload after a restart or
+// a dropped link parsed each open case's JSON again (250 open cases: about a third of the
+// listing's time), all while the live pre-alerts waited behind it. Only committed rows go in,
+// so a transaction that rolls back cannot leave a revision that never was.
+const REVISION_CACHE_SIZE = 2000;
+const revisionCaches = new WeakMap<Knex, Map<string, ParsedRevision>>();
+const revisionKey = (caseId: number, revision: number) => `${caseId}:${revision}`;
+
+function revisionCacheOf(db: Knex): Map<string, ParsedRevision> | null {
+  if (db.isTransaction) return null;
+  let cache = revisionCaches.get(db);
+  if (!cache) revisionCaches.set(db, (cache = new Map()));
+  return cache;
+}
+
+function rememberRevision(cache: Map<string, ParsedRevision> | null, key: string, parsed: ParsedRevision): void {
+  if (!cache) return;
+  cache.delete(key);
+  cache.set(key, parsed);
+  // Oldest first out: the open cases a board reloads were written or read most recently.
+  if (cache.size > REVISION_CACHE_SIZE) cache.delete(cache.keys().next().value!);
+}
+
+/** The parsed JSON of these revisions, reading from the table only those not in the cache. */
+async function parsedRevisions(db: Knex, wanted: Array<[caseId: number, revision: number]>): Promise<Map<string, ParsedRevision>> {
+  const cache = revisionCacheOf(db);
+  const found = new Map<string, ParsedRevision>();
+  const missing: Array<[number, number]> = [];
+  for (const [caseId, revision] of wanted) {
+    const key = revisionKey(caseId, revision);
+    const hit = cache?.get(key);
+    if (hit) found.set(key, hit);
+    else missing.push([caseId, revision]);
+  }
+  for (let i = 0; i < missing.length; i += 400) {
+    const rows = await db('case_revisions').whereIn(['case_id', 'revision'], missing.slice(i, i + 400)).select('case_id', 'revision', 'input', 'result');
+    for (const row of rows) {
+      const key = revisionKey(row.case_id, row.revision);
+      const parsed = { input: JSON.parse(row.input) as ClinicalInput, result: JSON.parse(row.result) as Evaluation };
+      found.set(key, parsed);
+      rememberRevision(cache, key, parsed);
+    }
+  }
+  return found;
+}
+
+/** Case summaries in arrival order (no ETA last), in three queries whatever the count (two once the revisions are cached). */
 export async function listCaseSummaries(db: Knex, filter: CaseFilter): Promise<CaseSummary[]> {
   const query = db('cases as c')
     .join('hospitals as h', 'h.id', 'c.hospital_id')
@@ -275,7 +340,8 @@ export async function listCaseSummaries(db: Knex, filter: CaseFilter): Promise<C
     })
     .leftJoin('users as by', 'by.id', 'r.created_by')
     .whereIn('r.case_id', ids)
-    .select('r.case_id', 'r.revision', 'r.input', 'r.result', 'r.eta_minutes', 'r.notes', 'r.created_at', 'by.name as created_by_name', 'c.current_revision');
+    .select('r.case_id', 'r.revision', 'r.eta_minutes', 'r.notes', 'r.created_at', 'by.name as created_by_name', 'c.current_revision');
+  const parsed = await parsedRevisions(db, revisions.map((r) => [r.case_id as number, r.revision as number]));
   const latest = new Map<number, (typeof revisions)[number]>();
   const first = new Map<number, (typeof revisions)[number]>();
   for (const rev of revisions) {
@@ -284,8 +350,9 @@ export async function listCaseSummaries(db: Knex, filter: CaseFilter): Promise<C
   }
   return rows.map((row) => {
     const rev = latest.get(row.id)!;
-    const result = JSON.parse(rev.result) as Evaluation;
-    const firstInput = JSON.parse((first.get(row.id) ?? rev).input) as ClinicalInput;
+    const { input, result } = parsed.get(revisionKey(row.id, rev.revision))!;
+    const firstRev = first.get(row.id) ?? rev;
+    const firstInput = parsed.get(revisionKey(row.id, firstRev.revision))!.input;
     return {
       id: row.id,
       caseNumber: row.case_number,
@@ -298,7 +365,7 @@ export async function listCaseSummaries(db: Knex, filter: CaseFilter): Promise<C
       updatedAt: Number(row.updated_at),
       etaAt: num(row.eta_at),
       revision: row.current_revision,
-      latest: { revision: rev.revision, input: JSON.parse(rev.input), result, etaMinutes: rev.eta_minutes, notes: rev.notes, createdAt: Number(rev.created_at), createdBy: rev.created_by_name },
+      latest: { revision: rev.revision, input, result, etaMinutes: rev.eta_minutes, notes: rev.notes, createdAt: Number(rev.created_at), createdBy: rev.created_by_name },
       firstVitals: firstInput.vitals ?? null,
       fieldRisk: row.field_risk,
       recommendedLevel: row.recommended_level,
