@@ -6,7 +6,6 @@ import { loadConfig } from '../config';
 import { createDb, migrate } from '../db';
 import { systemClock } from '../deps';
 import { DEMO_PASSWORD, demoAccounts, isEmpty, seedDemo } from '../services/seed';
-import { FENMOOR_NURSE } from '../services/board-demo';
 
 const usage = `Usage: plumbline <command>
 
@@ -98,7 +97,6 @@ async function serve(dev: boolean): Promise<number> {
   if (local) {
     console.log(`\nDemo sign-ins (password "${DEMO_PASSWORD}"):`);
     for (const account of demoAccounts) console.log(`  ${account.email.padEnd(30)} ${account.label}`);
-    console.log(`  ${FENMOOR_NURSE.email.padEnd(30)} charge nurse, Fenmoor Community`);
   }
   console.log('');
   const stop = async () => {

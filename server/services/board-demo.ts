@@ -5,7 +5,6 @@ import type { BoardAction } from '../../shared/schemas/board';
 import type { ClinicalInput } from '../../shared/schemas/clinical';
 import type { LevelId } from '../../shared/triage/policy';
 import { LEVEL_RANK } from '../../shared/triage/policy';
-import { hashPassword } from '../auth/passwords';
 import type { Clock } from '../deps';
 import type { Mailer } from '../mail';
 import { actOnCase } from './board';
@@ -104,7 +103,8 @@ async function actorsOf(db: Knex, ids: DemoIds): Promise<Actors> {
 }
 
 /** A charge nurse at the community hospital, so its board and its past cases have someone real behind them. */
-export const FENMOOR_NURSE = { email: 'fenmoor.nurse@plumbline.test', name: 'Ilse Brannagh' };
+/** The demo account (in seed.ts) that decides for Fenmoor Community's cases. */
+const FENMOOR_NURSE = { email: 'fenmoor.nurse@plumbline.test' };
 
 interface Script {
   hospitalId: number;
@@ -155,10 +155,6 @@ async function recommendedLevel(db: Knex, caseId: number): Promise<LevelId> {
  */
 export async function seedBoardDemo(db: Knex, ids: DemoIds, clock: Clock): Promise<void> {
   const now = clock.now();
-  await db('users').insert({ email: FENMOOR_NURSE.email, name: FENMOOR_NURSE.name, password_hash: await hashPassword('demo'), active: true, created_at: now });
-  const fenmoorNurse = (await db('users').where({ email: FENMOOR_NURSE.email }).first('id')).id;
-  await db('user_roles').insert({ user_id: fenmoorNurse, role: 'charge_nurse' });
-  await db('memberships').insert({ user_id: fenmoorNurse, hospital_id: ids.hospitals.community, agency_id: null });
   const actors = await actorsOf(db, ids);
   const rnd = random(20261201);
   const pick = <T>(list: readonly T[]) => list[Math.floor(rnd() * list.length)];

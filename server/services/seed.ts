@@ -14,6 +14,7 @@ export const DEMO_PASSWORD = 'demo';
 export const demoAccounts: Array<{ email: string; name: string; roles: Role[]; label: string }> = [
   { email: 'paramedic@plumbline.test', name: 'Robin Vasquez-Hale', roles: ['paramedic'], label: 'paramedic, Alderwick County Ambulance' },
   { email: 'nurse@plumbline.test', name: 'Morgan Achterberg', roles: ['charge_nurse'], label: 'charge nurse, Alderwick General' },
+  { email: 'fenmoor.nurse@plumbline.test', name: 'Ilse Brannagh', roles: ['charge_nurse'], label: 'charge nurse, Fenmoor Community' },
   { email: 'lead@plumbline.test', name: 'Dr. Sasha Imbert', roles: ['trauma_lead'], label: 'trauma lead, Alderwick General' },
   { email: 'quality@plumbline.test', name: 'Jules Oyelaran', roles: ['quality'], label: 'quality team, Alderwick General' },
   { email: 'admin@plumbline.test', name: 'Kit Marchetti', roles: ['admin'], label: 'administrator, all of Alderwick County' },
@@ -57,6 +58,7 @@ export async function seedDemo(db: Knex, clock: Clock): Promise<DemoIds> {
     await trx('memberships').insert([
       member('paramedic@plumbline.test', { agency_id: agency.id }),
       member('nurse@plumbline.test', { hospital_id: hospitals.general }),
+      member('fenmoor.nurse@plumbline.test', { hospital_id: hospitals.community }),
       member('lead@plumbline.test', { hospital_id: hospitals.general }),
       member('quality@plumbline.test', { hospital_id: hospitals.general }),
       member('admin@plumbline.test', { hospital_id: hospitals.general }),
