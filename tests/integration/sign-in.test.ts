@@ -41,8 +41,11 @@ describe('the built-in identity provider', () => {
     expect(url.pathname).toBe('/idp/auth');
     expect(url.searchParams.get('code_challenge_method')).toBe('S256');
     expect(url.searchParams.get('code_challenge')).toMatch(/^[A-Za-z0-9_-]{43}$/);
-    expect(url.searchParams.get('state')).toBeTruthy();
-    expect(url.searchParams.get('nonce')).toBeTruthy();
+    // openid-client's random state and nonce: 32 random bytes, base64url without padding.
+    expect(url.searchParams.get('state')).toMatch(/^[A-Za-z0-9_-]{43}$/);
+    expect(url.searchParams.get('nonce')).toMatch(/^[A-Za-z0-9_-]{43}$/);
+    const again = new URL((await fetch(`${server.url}/auth/login`, { redirect: 'manual' })).headers.get('location')!);
+    expect(again.searchParams.get('state')).not.toBe(url.searchParams.get('state'));
   });
 });
 
