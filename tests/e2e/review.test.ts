@@ -75,8 +75,11 @@ describeInBrowser('Activation review in Chromium', () => {
     await expectAccessible(page, 'Activation review, table');
     await screenshot(page, 'review-table');
 
-    // Today only, decided below the recommendation: exactly what the database holds.
-    const today = new Date().toISOString().slice(0, 10);
+    // The day the cases were made (UTC), decided below the recommendation: exactly what the
+    // database holds. The day comes from the row, not the wall clock: made an hour back, a case
+    // started just after midnight belongs to yesterday.
+    const { created_at } = await server.db('cases').where({ id: below.id }).first('created_at');
+    const today = new Date(created_at).toISOString().slice(0, 10);
     await page.getByLabel('From', { exact: true }).fill(today);
     await page.getByLabel('To', { exact: true }).fill(today);
     await page.getByLabel('Decided below the recommendation').check();
