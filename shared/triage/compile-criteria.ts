@@ -22,14 +22,80 @@ export interface CompiledCriterion extends CompiledCondition {
   criterion: Criterion;
   /** 2 high, 1 moderate, 0 none (policy-catalog conditions). */
   tierRank: number;
-  /** For single-leaf criteria, a shape the evaluator tests inline without a call. */
-  inline: { kind: typeof INLINE_FINDING | typeof INLINE_CONSIDERATION | typeof INLINE_FLAG; arg: number } | null;
+  /** The same condition as operands the evaluator compares in its own loop, without a call. */
+  shape: Shape;
 }
 
-export const INLINE_NONE = 0;
-export const INLINE_FINDING = 1;
-export const INLINE_CONSIDERATION = 2;
-export const INLINE_FLAG = 3;
+/**
+ * Most criteria are one comparison, perhaps inside an age band, or a finding, a consideration or
+ * a flag: the evaluator reads those from these numbers in one loop. `OP_CALL` leaves the rest
+ * (nested "any"/"all", SpO2 on room air, pregnancy) to `test`. Same answers as `test`.
+ */
+export interface Shape {
+  op: number;
+  /** A quantity, flag index or bit; `b` and `c` the second quantity or further flags. */
+  a: number;
+  b: number;
+  c: number;
+  /** Threshold, upper threshold (OP_OUTSIDE), and the threshold's rise per completed year of age. */
+  t: number;
+  t2: number;
+  perYear: number;
+  /** The age band in completed years, [from, below): −∞ to ∞ when the criterion has none. */
+  from: number;
+  below: number;
+}
+
+export const OP_CALL = 0;
+export const OP_FINDING = 1;
+export const OP_CONSIDERATION = 2;
+export const OP_FLAG = 3;
+/** Quantity < t + perYear × years, in the age band. */
+export const OP_BELOW = 4;
+/** Quantity > t, in the age band. */
+export const OP_ABOVE = 5;
+/** Quantity ≤ t, in the age band. */
+export const OP_AT_MOST = 6;
+/** Quantity a > quantity b, in the age band. */
+export const OP_EXCEEDS = 7;
+/** Quantity < t or > t2. */
+export const OP_OUTSIDE = 8;
+/** Any of the flags a, b, c met. */
+export const OP_ANY_FLAG = 9;
+
+function shapeOf(when: Condition): Shape {
+  const shape: Shape = { op: OP_CALL, a: 0, b: 0, c: 0, t: 0, t2: 0, perYear: 0, from: -Infinity, below: Infinity };
+  let leaf = when;
+  if (when.kind === 'all' && when.of.length === 2 && when.of[0].kind === 'age') {
+    const band = when.of[0];
+    leaf = when.of[1];
+    if (leaf.kind !== 'below' && leaf.kind !== 'above' && leaf.kind !== 'at-most' && leaf.kind !== 'exceeds') return shape;
+    shape.from = band.from ?? -Infinity;
+    shape.below = band.below ?? Infinity;
+  }
+  switch (leaf.kind) {
+    case 'finding': return { ...shape, op: OP_FINDING, a: FINDING_BIT[leaf.finding] };
+    case 'consideration': return { ...shape, op: OP_CONSIDERATION, a: CONSIDERATION_BIT[leaf.consideration] };
+    case 'flag': return { ...shape, op: OP_FLAG, a: FLAG_INDEX[leaf.flag] };
+    case 'below': return { ...shape, op: OP_BELOW, a: QUANTITY_INDEX[leaf.quantity], t: leaf.value, perYear: leaf.perYearOfAge ?? 0 };
+    case 'above': return { ...shape, op: OP_ABOVE, a: QUANTITY_INDEX[leaf.quantity], t: leaf.value };
+    case 'at-most': return { ...shape, op: OP_AT_MOST, a: QUANTITY_INDEX[leaf.quantity], t: leaf.value };
+    case 'exceeds': return { ...shape, op: OP_EXCEEDS, a: QUANTITY_INDEX[leaf.quantity], b: QUANTITY_INDEX[leaf.other] };
+    case 'any': {
+      const [x, y] = leaf.of;
+      if (leaf.of.length === 2 && x.kind === 'below' && y.kind === 'above' && x.quantity === y.quantity && !x.perYearOfAge) {
+        return { ...shape, op: OP_OUTSIDE, a: QUANTITY_INDEX[x.quantity], t: x.value, t2: y.value };
+      }
+      if (leaf.of.length <= 3 && leaf.of.every((c) => c.kind === 'flag')) {
+        // Fewer than three flags repeat the first: "a or a" is "a".
+        const idx = leaf.of.map((c) => FLAG_INDEX[(c as Extract<Condition, { kind: 'flag' }>).flag]);
+        return { ...shape, op: OP_ANY_FLAG, a: idx[0], b: idx[1] ?? idx[0], c: idx[2] ?? idx[0] };
+      }
+      return shape;
+    }
+    default: return shape;
+  }
+}
 
 // Whole numbers are most recorded values; a table spares a number-to-text conversion per explanation.
 const WHOLE = Array.from({ length: 1001 }, (_, i) => String(i));
@@ -329,14 +395,8 @@ export function ageText(ageYears: number): string {
 
 export function compileCriterion(criterion: Criterion): CompiledCriterion {
   const compiled = compileCondition(criterion.when);
-  const when = criterion.when;
-  const inline =
-    when.kind === 'finding' ? { kind: INLINE_FINDING as typeof INLINE_FINDING, arg: FINDING_BIT[when.finding] }
-    : when.kind === 'consideration' ? { kind: INLINE_CONSIDERATION as typeof INLINE_CONSIDERATION, arg: CONSIDERATION_BIT[when.consideration] }
-    : when.kind === 'flag' ? { kind: INLINE_FLAG as typeof INLINE_FLAG, arg: FLAG_INDEX[when.flag] }
-    : null;
   return {
-    inline,
+    shape: shapeOf(criterion.when),
     criterion,
     tierRank: criterion.tier === 'high' ? 2 : criterion.tier === 'moderate' ? 1 : 0,
     test: compiled.test,

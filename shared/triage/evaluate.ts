@@ -51,9 +51,22 @@ export interface EvaluateOptions {
 interface Plan {
   members: CompiledCriterion[];
   tests: CompiledCriterion['test'][];
-  /** Per member, INLINE_* and its bit or flag index: findings, considerations and flags need no call. */
-  inlineKind: Uint8Array;
-  inlineArg: Int32Array;
+  /**
+   * The members' shapes as columns (see compile-criteria.ts), for the members `loop` lists: those
+   * other than findings and considerations, which are tested only when the input has any.
+   */
+  op: Uint8Array;
+  a: Int32Array;
+  b: Int32Array;
+  c: Int32Array;
+  t: Float64Array;
+  t2: Float64Array;
+  perYear: Float64Array;
+  from: Float64Array;
+  below: Float64Array;
+  loop: Int32Array;
+  findingMembers: Int32Array;
+  considerationMembers: Int32Array;
   tierRank: Int8Array;
   setCount: number;
   calls: (LevelId | null)[];
@@ -62,7 +75,7 @@ interface Plan {
   ruleLevel: LevelId[];
   levelName: Record<LevelId, string>;
   policyRef: Evaluation['policy'];
-  /** Scratch: the members met and the members unknown in one evaluation, in member order. */
+  /** Scratch: the members met and the members unknown in one evaluation. */
   met: Int32Array;
   unknown: Int32Array;
 }
@@ -98,11 +111,28 @@ function buildPlan(setId: CriteriaSetId, policy: Policy): Plan {
   }
   const levelName = { full: 'full', limited: 'limited', consult: 'consult', none: 'none' } as Record<LevelId, string>;
   for (const level of policy.levels) levelName[level.id] = level.name;
+  const indices = members.map((_, i) => i);
+  const withOp = (op: number) => Int32Array.from(indices.filter((i) => members[i].shape.op === op));
+  const column = <A extends Float64Array | Int32Array>(make: (n: number) => A, key: keyof CompiledCriterion['shape']) => {
+    const out = make(members.length);
+    members.forEach((m, i) => (out[i] = m.shape[key]));
+    return out;
+  };
   return {
     members, setCount, calls, firstRule,
     tests: members.map((m) => m.test),
-    inlineKind: Uint8Array.from(members, (m) => m.inline?.kind ?? compiled.INLINE_NONE),
-    inlineArg: Int32Array.from(members, (m) => m.inline?.arg ?? 0),
+    op: Uint8Array.from(members, (m) => m.shape.op),
+    a: column((n) => new Int32Array(n), 'a'),
+    b: column((n) => new Int32Array(n), 'b'),
+    c: column((n) => new Int32Array(n), 'c'),
+    t: column((n) => new Float64Array(n), 't'),
+    t2: column((n) => new Float64Array(n), 't2'),
+    perYear: column((n) => new Float64Array(n), 'perYear'),
+    from: column((n) => new Float64Array(n), 'from'),
+    below: column((n) => new Float64Array(n), 'below'),
+    loop: Int32Array.from(indices.filter((i) => members[i].shape.op !== compiled.OP_FINDING && members[i].shape.op !== compiled.OP_CONSIDERATION)),
+    findingMembers: withOp(compiled.OP_FINDING),
+    considerationMembers: withOp(compiled.OP_CONSIDERATION),
     tierRank: Int8Array.from(members, (m) => m.tierRank),
     ruleLevel: policy.rules.map((r) => r.level),
     levelName,
@@ -127,7 +157,7 @@ function planFor(setId: CriteriaSetId, policy: Policy): Plan {
 
 // Module-local copies of imported bindings used per evaluation (see compile-criteria.ts).
 const { MET, NOT_MET, UNKNOWN } = TRI;
-const { INLINE_NONE, INLINE_FINDING, INLINE_CONSIDERATION } = compiled;
+const { OP_FLAG, OP_BELOW, OP_ABOVE, OP_AT_MOST, OP_EXCEEDS, OP_OUTSIDE, OP_ANY_FLAG } = compiled;
 const MISSING = MISSING_INPUTS;
 const read = readFacts;
 const impactOf = fallImpact;
@@ -141,22 +171,58 @@ export function evaluate(input: ClinicalInput, options: EvaluateOptions = {}): E
   const set = options.set ?? defaultSet;
   const plan = planFor(set, options.policy ?? defaultPolicy);
   const f = read(input, facts);
-  const { members, tests, inlineKind, inlineArg, tierRank, setCount, firstRule, calls, met, unknown } = plan;
-  const findings = f.findings, considerations = f.considerations, flags = f.flags;
-  const n = members.length;
+  const { members, tests, op, a, b, c, t, t2, perYear, from, below, loop, tierRank, setCount, firstRule, calls, met, unknown } = plan;
+  const lo = f.lo, hi = f.hi, years = f.years, flags = f.flags;
 
   // One pass over the criteria: the field risk, the first rule with a met member (the lowest
   // firstRule among them) and the met and unknown members for the two lists below.
   let risk = 0;
   let matched = plan.ruleLevel.length;
   let metCount = 0, unknownCount = 0;
-  for (let i = 0; i < n; i++) {
-    const kind = inlineKind[i];
-    const s =
-      kind === INLINE_NONE ? tests[i](f)
-      : kind === INLINE_FINDING ? ((findings & inlineArg[i]) !== 0 ? MET : NOT_MET)
-      : kind === INLINE_CONSIDERATION ? ((considerations & inlineArg[i]) !== 0 ? MET : NOT_MET)
-      : flags[inlineArg[i]];
+  for (let k = 0; k < loop.length; k++) {
+    const i = loop[k];
+    let s: number;
+    switch (op[i]) {
+      case OP_FLAG:
+        s = flags[a[i]];
+        break;
+      case OP_BELOW: {
+        if (years < from[i] || years >= below[i]) { s = NOT_MET; break; }
+        const q = a[i], threshold = t[i] + perYear[i] * years;
+        s = hi[q] < threshold ? MET : lo[q] >= threshold ? NOT_MET : UNKNOWN;
+        break;
+      }
+      case OP_ABOVE: {
+        if (years < from[i] || years >= below[i]) { s = NOT_MET; break; }
+        const q = a[i];
+        s = lo[q] > t[i] ? MET : hi[q] <= t[i] ? NOT_MET : UNKNOWN;
+        break;
+      }
+      case OP_AT_MOST: {
+        if (years < from[i] || years >= below[i]) { s = NOT_MET; break; }
+        const q = a[i];
+        s = hi[q] <= t[i] ? MET : lo[q] > t[i] ? NOT_MET : UNKNOWN;
+        break;
+      }
+      case OP_EXCEEDS: {
+        if (years < from[i] || years >= below[i]) { s = NOT_MET; break; }
+        const x = a[i], y = b[i];
+        s = lo[x] > hi[y] ? MET : hi[x] <= lo[y] ? NOT_MET : UNKNOWN;
+        break;
+      }
+      case OP_OUTSIDE: {
+        const q = a[i];
+        s = hi[q] < t[i] || lo[q] > t2[i] ? MET : lo[q] >= t[i] && hi[q] <= t2[i] ? NOT_MET : UNKNOWN;
+        break;
+      }
+      case OP_ANY_FLAG: {
+        const x = flags[a[i]], y = flags[b[i]], z = flags[c[i]];
+        s = x === MET || y === MET || z === MET ? MET : x === UNKNOWN || y === UNKNOWN || z === UNKNOWN ? UNKNOWN : NOT_MET;
+        break;
+      }
+      default:
+        s = tests[i](f);
+    }
     if (s === MET) {
       if (i < setCount && tierRank[i] > risk) risk = tierRank[i];
       if (firstRule[i] < matched) matched = firstRule[i];
@@ -165,6 +231,27 @@ export function evaluate(input: ClinicalInput, options: EvaluateOptions = {}): E
       unknown[unknownCount++] = i;
     }
   }
+  // Findings and considerations are known when absent (an empty list is "none"), so they are
+  // only ever met or not met, and none is met when the input lists none.
+  for (let g = 0; g < 2; g++) {
+    const bits = g === 0 ? f.findings : f.considerations;
+    if (bits === 0) continue;
+    const group = g === 0 ? plan.findingMembers : plan.considerationMembers;
+    for (let k = 0; k < group.length; k++) {
+      const i = group[k];
+      if ((bits & a[i]) === 0) continue;
+      if (i < setCount && tierRank[i] > risk) risk = tierRank[i];
+      if (firstRule[i] < matched) matched = firstRule[i];
+      met[metCount++] = i;
+    }
+  }
+  // Back into member order (the set's order, then the policy's own): a few entries at most.
+  for (let k = 1; k < metCount; k++) {
+    const i = met[k];
+    let j = k - 1;
+    while (j >= 0 && met[j] > i) met[j + 1] = met[j--];
+    met[j + 1] = i;
+  }
   const activation: LevelId = matched < plan.ruleLevel.length ? plan.ruleLevel[matched] : 'none';
 
   const criteria: FiredCriterion[] = [];
@@ -172,9 +259,10 @@ export function evaluate(input: ClinicalInput, options: EvaluateOptions = {}): E
     const i = met[k];
     if (i >= setCount && calls[i] === null) continue;
     const m = members[i];
-    const c = m.criterion;
+    const criterion = m.criterion;
     criteria.push({
-      id: c.id, set: c.set, tier: c.tier, label: c.label, because: m.explain(f), source: c.source, calls: calls[i], nemsis: c.nemsis,
+      id: criterion.id, set: criterion.set, tier: criterion.tier, label: criterion.label, because: m.explain(f),
+      source: criterion.source, calls: calls[i], nemsis: criterion.nemsis,
     });
   }
   let missingBits = 0;
@@ -183,7 +271,12 @@ export function evaluate(input: ClinicalInput, options: EvaluateOptions = {}): E
     if ((i < setCount && tierRank[i] > risk) || firstRule[i] < matched) missingBits |= members[i].missing(f);
   }
   const missing: MissingInput[] = [];
-  for (let b = 0; missingBits !== 0; b++, missingBits >>>= 1) if (missingBits & 1) missing.push(MISSING[b]);
+  // Lowest bit first, which is MISSING_INPUTS order.
+  while (missingBits !== 0) {
+    const low = missingBits & -missingBits;
+    missing.push(MISSING[31 - Math.clz32(low)]);
+    missingBits ^= low;
+  }
 
   return {
     set,

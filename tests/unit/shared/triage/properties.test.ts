@@ -3,7 +3,10 @@ import { describe, expect, it } from 'vitest';
 import type { ClinicalInput } from '../../../../shared/schemas/clinical';
 import { CONSIDERATIONS, FINDINGS } from '../../../../shared/schemas/clinical-options';
 import { evaluate } from '../../../../shared/triage/evaluate';
-import { LEVEL_RANK } from '../../../../shared/triage/policy';
+import { EXAMPLE_POLICY, LEVEL_RANK } from '../../../../shared/triage/policy';
+import { CRITERIA_SETS, compiledCriterion } from '../../../../shared/triage/catalog';
+import { POLICY_CRITERIA } from '../../../../shared/triage/policy-criteria';
+import { TRI, createFacts, readFacts } from '../../../../shared/triage/facts';
 
 const RISK_RANK = { none: 0, moderate: 1, high: 2 } as const;
 const orNull = <T>(arb: fc.Arbitrary<T>) => fc.option(arb, { nil: null });
@@ -85,5 +88,25 @@ describe('unknown is never read as normal', () => {
         expect(unknown.missing.map((m) => m.field)).toContain('vitals.sbp');
       }
     }), { numRuns: 400 });
+  });
+});
+
+describe('the evaluator’s shortcuts read the criteria as their general form does', () => {
+  // The evaluator compares most criteria from columns of numbers in its own loop; each criterion
+  // also keeps the general three-valued test compiled straight from its condition tree. Both must
+  // give the same met criteria, in the same order, for any input [ours: an internal consistency check].
+  it('met criteria and field risk as a plain walk over every criterion’s own test', () => {
+    fc.assert(fc.property(input, sets, (x, set) => {
+      const facts = readFacts(x, createFacts());
+      const expectedMet = CRITERIA_SETS[set].criteria.filter((c) => compiledCriterion(c.id)!.test(facts) === TRI.MET);
+      const result = evaluate(x, { set });
+      expect(result.criteria.filter((c) => c.set === set).map((c) => c.id)).toEqual(expectedMet.map((c) => c.id));
+      const rank = Math.max(0, ...expectedMet.map((c) => (c.tier === 'high' ? 2 : 1)));
+      expect(result.fieldRisk).toBe((['none', 'moderate', 'high'] as const)[rank]);
+      // The policy's own conditions that the policy names, the same way.
+      const named = new Set(EXAMPLE_POLICY.rules.flatMap((r) => r.criteria));
+      const policyMet = POLICY_CRITERIA.filter((c) => named.has(c.id) && compiledCriterion(c.id)!.test(facts) === TRI.MET).map((c) => c.id);
+      expect(result.criteria.filter((c) => c.set === 'policy').map((c) => c.id)).toEqual(policyMet);
+    }), { numRuns: 1000 });
   });
 });
