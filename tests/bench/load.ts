@@ -253,6 +253,9 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
         });
         board.socket.on('case:updated', (summary) => observe(board, summary, true));
         board.socket.on('disconnect', (reason) => {
+          // Until the next 'connect' the board is across a cut: socket.io hands a recovered
+          // socket the packets it missed before it fires 'connect', and those are not timed.
+          board.connectedAt = Infinity;
           if (reason === 'io server disconnect') board.socket.connect();
         });
         boards.push(board);
