@@ -120,6 +120,29 @@ describeInBrowser('New pre-alert on a phone in Chromium', () => {
     await screenshot(page, 'pre-alert-phone-acknowledged');
   });
 
+  it('an update is evaluated again on the server; a cancel asks for the reason the ED will read', async () => {
+    const { id, case_number: caseNumber } = await server.db('cases').orderBy('id', 'desc').first('id', 'case_number');
+    await page.getByRole('tab', { name: /^Open cases/ }).click();
+    await page.getByRole('button', { name: `Send an update for case ${caseNumber}` }).click();
+    const update = page.getByRole('dialog', { name: `Update for case ${caseNumber}` });
+    // The second set of vitals: SBP 128 with the 12 ft fall is moderate risk only [source: Newgard 2022],
+    // which the example policy answers with a consult.
+    await update.getByLabel('Systolic BP (SBP) (mmHg)', { exact: true }).fill('128');
+    await update.getByRole('button', { name: 'Send update' }).click();
+    await update.waitFor({ state: 'hidden' });
+    expect(await server.db('cases').where({ id }).first('current_revision', 'recommended_level', 'field_risk')).toEqual({ current_revision: 2, recommended_level: 'consult', field_risk: 'moderate' });
+
+    await page.getByRole('button', { name: `Cancel case ${caseNumber}` }).click();
+    const cancel = page.getByRole('dialog', { name: `Cancel case ${caseNumber}` });
+    await cancel.getByRole('button', { name: 'Cancel the pre-alert' }).click();
+    await cancel.getByText(/^Reason /).waitFor();
+    expect((await server.db('cases').where({ id }).first('state')).state).not.toBe('cancelled');
+    await cancel.getByLabel('Reason').fill('Patient declined transport after reassessment');
+    await cancel.getByRole('button', { name: 'Cancel the pre-alert' }).click();
+    await cancel.waitFor({ state: 'hidden' });
+    expect(await server.db('cases').where({ id }).first('state', 'cancel_reason')).toEqual({ state: 'cancelled', cancel_reason: 'Patient declined transport after reassessment' });
+  });
+
   it('without signal the pre-alert waits on the device, survives a reload, and reaches the server exactly once when the signal is back', async () => {
     await loseSignal();
     await page.getByRole('tab', { name: 'Pre-alert form' }).click();
