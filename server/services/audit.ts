@@ -72,13 +72,31 @@ export async function appendAudit(db: Knex, entry: AuditEntry): Promise<number> 
 
 export type ChainCheck = { ok: true; rows: number } | { ok: false; rows: number; brokenAt: number; reason: string };
 
+/**
+ * Rows read and hashed at a time. Each batch runs on the event loop without a break, so it is
+ * kept small enough that a long check does not hold up the boards' live updates for long.
+ */
+const CHECK_BATCH = 1000;
+
+// Checks already under way, per database: two leads opening the review screen at once share one walk.
+const checking = new WeakMap<Knex, Promise<ChainCheck>>();
+
 /** Walks the whole chain in id order and names the first row whose hash or link does not hold. */
-export async function verifyAuditChain(db: Knex): Promise<ChainCheck> {
+export function verifyAuditChain(db: Knex): Promise<ChainCheck> {
+  let check = checking.get(db);
+  if (!check) {
+    check = walkChain(db).finally(() => checking.delete(db));
+    checking.set(db, check);
+  }
+  return check;
+}
+
+async function walkChain(db: Knex): Promise<ChainCheck> {
   let prev = GENESIS_HASH;
   let rows = 0;
   let lastId = 0;
   for (;;) {
-    const batch: AuditRow[] = await db('audit_log').where('id', '>', lastId).orderBy('id').limit(5000);
+    const batch: AuditRow[] = await db('audit_log').where('id', '>', lastId).orderBy('id').limit(CHECK_BATCH);
     if (!batch.length) return { ok: true, rows };
     for (const row of batch) {
       rows++;

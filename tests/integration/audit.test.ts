@@ -2,7 +2,7 @@ import { execFile } from 'node:child_process';
 import { randomUUID } from 'node:crypto';
 import { promisify } from 'node:util';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { verifyAuditChain } from '../../server/services/audit';
+import { appendAudit, systemActor, verifyAuditChain } from '../../server/services/audit';
 import type { Mailer } from '../../server/mail';
 import { startTestServer, type TestServer } from '../support/server';
 import { signIn, type SignedInClient } from '../support/sign-in';
@@ -125,6 +125,20 @@ describe('plumbline audit verify', () => {
       return { code: e.code, stdout: e.stdout };
     }
   };
+
+  it('walks a chain longer than one batch of rows, and two checks at once share one walk', async () => {
+    // Enough rows that the walk reads several batches and carries the link across each boundary.
+    for (let i = 0; i < 2100; i++) await appendAudit(server.db, { at: Date.now(), actor: systemActor, action: 'setting.changed', entity: 'setting', entityId: `bulk-${i}`, after: { i } });
+    const count = Number((await server.db('audit_log').count({ n: '*' }).first())?.n);
+    expect(count).toBeGreaterThan(2100);
+    const first = verifyAuditChain(server.db);
+    expect(verifyAuditChain(server.db)).toBe(first);
+    expect(await first).toEqual({ ok: true, rows: count });
+    // Once done, the next check walks again rather than answering from the last one.
+    const again = verifyAuditChain(server.db);
+    expect(again).not.toBe(first);
+    expect(await again).toEqual({ ok: true, rows: count });
+  }, 60_000);
 
   it('finds a row changed behind the application’s back, names it, and says so on the review API', async () => {
     const count = Number((await server.db('audit_log').count({ n: '*' }).first())?.n);
