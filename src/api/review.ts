@@ -1,6 +1,6 @@
 import { apiGet, apiSend } from './http';
 import type {
-  AuditChainStatus, CaseTimeline, ComplianceReport, DiscussionItem, ReviewListPage, ReviewListRequest, ReviewView,
+  AuditChainStatus, CaseTimeline, ComplianceReport, DiscussionItem, ResponseSettings, ReviewListPage, ReviewListRequest, ReviewView,
 } from '../../shared/schemas/review';
 
 export type { AuditChainStatus, CaseTimeline, ComplianceReport, DiscussionItem, ReviewListPage, ReviewListRequest, ReviewView };
@@ -26,3 +26,5 @@ export const closeDiscussion = (reviewId: number, outcome: string) => apiSend<Re
 export const listDiscussion = (hospitalId?: number) => apiGet<{ items: DiscussionItem[] }>(`/api/review/discussion${query({ hospitalId })}`);
 export const getCompliance = (request: { hospitalId?: number; from?: string; to?: string; timeZone?: string }) => apiGet<ComplianceReport>(`/api/review/compliance${query(request)}`);
 export const checkAuditChain = () => apiGet<AuditChainStatus>('/api/review/audit-chain');
+export const getResponseSettings = (hospitalId: number) => apiGet<ResponseSettings>(`/api/review/settings${query({ hospitalId })}`);
+export const saveResponseSettings = (settings: ResponseSettings) => apiSend<ResponseSettings>('PUT', '/api/review/settings', settings);

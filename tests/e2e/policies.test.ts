@@ -98,7 +98,7 @@ describeInBrowser('Policies in Chromium', () => {
     expect(old.case.policy).toEqual({ id: 'example-tiered', version: 1, example: true });
   });
 
-  it('People & places passes axe on each tab', async () => {
+  it('People & places passes axe on each tab, and a hospital’s response target is set on its card', async () => {
     const { context, page } = await newSignedInPage(browser, server.url, 'admin@plumbline.test', { path: '/people' });
     await page.getByRole('cell', { name: 'Dr. Sasha Imbert', exact: true }).waitFor();
     await expectAccessible(page, 'People');
@@ -107,6 +107,22 @@ describeInBrowser('Policies in Chromium', () => {
     await page.getByLabel('Paged for the full team').first().waitFor();
     await expectAccessible(page, 'Hospitals');
     await screenshot(page, 'people-hospitals');
+    // The response standard the review screen measures against, set on the hospital's card: the
+    // shipped 15 minutes for 80 % (CLINICAL.md section 3) changed to a local 20 minutes for 75 %.
+    const general = (await server.db('hospitals').where({ short_name: 'Alderwick General' }).first('id')).id;
+    const minutes = page.locator(`#h${general}-target-minutes`);
+    await expect.poll(() => minutes.inputValue()).toBe('15');
+    expect(await page.locator(`#h${general}-target-share`).inputValue()).toBe('80');
+    const save = page.getByRole('button', { name: 'Save the response target of Alderwick General' });
+    await minutes.fill('');
+    await save.click();
+    await page.getByRole('alert').filter({ hasText: 'Minutes from arrival must be a number of minutes' }).waitFor();
+    await minutes.fill('20');
+    await page.locator(`#h${general}-target-share`).fill('75');
+    await save.click();
+    await page.getByText('Alderwick General: response target saved').waitFor();
+    const lead = await signIn(server.url, 'lead@plumbline.test');
+    expect(await (await lead.get(`/api/review/settings?hospitalId=${general}`)).json()).toEqual({ hospitalId: general, targetMinutes: 20, compliance: 0.75 });
     await page.getByRole('tab', { name: 'Ambulance agencies' }).click();
     await page.getByText('Medic 11').waitFor();
     await expectAccessible(page, 'Agencies');
