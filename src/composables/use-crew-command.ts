@@ -1,28 +1,18 @@
-import { ref } from 'vue';
 import { connection } from '../api/socket';
+import { useBusyAction } from './use-busy-action';
 
 /**
  * A crew command sent from a dialog (an update, a cancel, a redirect). It needs the server's
- * answer, so without signal it is refused at once with `noSignal`; while it goes the dialog is
- * busy; a refusal shows the server's message. `run` gives the answer, or null when there is none.
+ * answer, so without signal it is refused at once with `noSignal`; otherwise it is a busy action.
  */
 export function useCrewCommand(noSignal: string) {
-  const sending = ref(false);
-  const failure = ref<string | null>(null);
+  const { busy: sending, failure, run: send } = useBusyAction();
   async function run<T>(command: () => Promise<T>): Promise<T | null> {
     if (!connection.connected.value) {
       failure.value = noSignal;
       return null;
     }
-    sending.value = true;
-    try {
-      return await command();
-    } catch (err) {
-      failure.value = (err as Error).message;
-      return null;
-    } finally {
-      sending.value = false;
-    }
+    return send(command);
   }
   return { sending, failure, run };
 }

@@ -151,4 +151,24 @@ describeInBrowser('Triage quality in Chromium', () => {
     await screenshot(page, 'quality-what-if');
     expect(errors).toEqual([]);
   });
+
+  it('the quality team sets a committee-approved target; a range upside down is refused by name; the report reads against the new one', async () => {
+    await page.getByRole('tab', { name: 'Targets' }).click();
+    // The shipped under-triage target: below 5 % [source: Mohan D et al., Arch Surg 2011].
+    const under = page.getByLabel('Under-triage below (%)');
+    await expect.poll(() => under.inputValue()).toBe('5');
+    await page.getByLabel('Over-triage for a hospital, from (%)').fill('40');
+    await page.getByLabel('Over-triage for a hospital, to (%)').fill('30');
+    await page.getByRole('button', { name: 'Save the targets' }).click();
+    await page.getByRole('alert').filter({ hasText: 'Over-triage range for a hospital the lower bound must not be above the upper bound' }).waitFor();
+    await page.getByLabel('Over-triage for a hospital, from (%)').fill('25');
+    await under.fill('10');
+    await page.getByRole('button', { name: 'Save the targets' }).click();
+    await page.getByText('Targets saved; the report now reads against them').waitFor();
+    await expectAccessible(page, 'Targets');
+    await page.getByRole('tab', { name: 'Report' }).click();
+    await expect.poll(() => page.locator('[data-rate="under"] .target').innerText()).toBe('Target: below 10.0 %');
+    expect(await page.locator('[data-rate="over"] .target').innerText()).toBe('Target: 25.0 %–30.0 % for a hospital, below 50.0 % for a system');
+    expect(errors).toEqual([]);
+  });
 });
