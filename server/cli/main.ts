@@ -6,6 +6,7 @@ import { loadConfig } from '../config';
 import { createDb, migrate } from '../db';
 import { systemClock } from '../deps';
 import { DEMO_PASSWORD, demoAccounts, isEmpty, seedDemo } from '../services/seed';
+import { BUILT_CLIENT, clientBuildIsStale } from './client-build';
 
 const usage = `Usage: plumbline <command>
 
@@ -80,8 +81,8 @@ export async function main(argv: string[]): Promise<number> {
 
 async function serve(dev: boolean): Promise<number> {
   const config = loadConfig(process.env, { dev });
-  if (!dev && !existsSync('dist/client/index.html')) {
-    console.log('Building the client (first start)…');
+  if (!dev && clientBuildIsStale()) {
+    console.log(existsSync(BUILT_CLIENT) ? 'Building the client (its sources changed since the last build)…' : 'Building the client (first start)…');
     // In a child process, so the server does not keep the bundler's memory for its whole life.
     const built = spawnSync(process.execPath, [join(dirname(require.resolve('vite/package.json')), 'bin', 'vite.js'), 'build', '--logLevel', 'warn'], { stdio: 'inherit' });
     if (built.status !== 0) {
