@@ -179,8 +179,7 @@ function thresholdText(c: { quantity: Quantity; value: number; display?: string 
   return c.display ?? (c.quantity === 'heightM' ? `${c.value} m` : String(c.value));
 }
 
-// The comparisons, shared by the leaf closures and the fused shortcuts below; small enough for the
-// engine to inline into each closure, so a fused shortcut makes no call.
+// The comparisons of the leaf closures (the evaluator's own loop makes the same ones from its columns).
 function belowState(f: Facts, i: number, t: number): TriState {
   return f.hi[i] < t ? MET : f.lo[i] >= t ? NOT_MET : UNKNOWN;
 }
@@ -336,23 +335,12 @@ export function compileCondition(c: Condition): CompiledCondition {
   }
 }
 
-// Shortcuts for the common shapes (flags or age bands joined by "or"; an age band and one other
-// condition joined by "and"): one closure instead of a call per part. Same answers as the general form.
+// Shortcuts for shapes that sit inside other conditions (two age bands joined by "or"; an age band
+// and one other condition joined by "and"): one closure instead of a call per part. Same answers
+// as the general form. Whole criteria of a common shape the evaluator reads itself (shapeOf).
 type Test = (f: Facts) => TriState;
 
 function fastAny(conditions: readonly Condition[]): Test | null {
-  if (conditions.every((c) => c.kind === 'flag')) {
-    const idx = Int32Array.from(conditions, (c) => FLAG_INDEX[(c as Extract<Condition, { kind: 'flag' }>).flag]);
-    return (f) => {
-      let out: TriState = NOT_MET;
-      for (let i = 0; i < idx.length; i++) {
-        const s = f.flags[idx[i]];
-        if (s === MET) return MET;
-        if (s === UNKNOWN) out = UNKNOWN;
-      }
-      return out;
-    };
-  }
   if (conditions.length === 2 && conditions.every((c) => c.kind === 'age')) {
     const [a, b] = conditions as Extract<Condition, { kind: 'age' }>[];
     const aFrom = a.from ?? -Infinity, aBelow = a.below ?? Infinity, bFrom = b.from ?? -Infinity, bBelow = b.below ?? Infinity;
@@ -365,19 +353,6 @@ function fastAll(conditions: readonly Condition[], parts: readonly CompiledCondi
   if (conditions.length !== 2 || conditions[0].kind !== 'age') return null;
   const age = conditions[0], other = conditions[1];
   const from = age.from ?? -Infinity, below = age.below ?? Infinity;
-  // An age band and one comparison (most physiologic and fall criteria): no call for the comparison.
-  if (other.kind === 'below') {
-    const i = QUANTITY_INDEX[other.quantity], base = other.value, perYear = other.perYearOfAge ?? 0;
-    return (f) => (f.years >= from && f.years < below ? belowState(f, i, base + perYear * f.years) : NOT_MET);
-  }
-  if (other.kind === 'above') {
-    const i = QUANTITY_INDEX[other.quantity], t = other.value;
-    return (f) => (f.years >= from && f.years < below ? aboveState(f, i, t) : NOT_MET);
-  }
-  if (other.kind === 'exceeds') {
-    const a = QUANTITY_INDEX[other.quantity], b = QUANTITY_INDEX[other.other];
-    return (f) => (f.years >= from && f.years < below ? exceedsState(f, a, b) : NOT_MET);
-  }
   const rest = parts[1].test;
   return (f) => (f.years >= from && f.years < below ? rest(f) : NOT_MET);
 }
