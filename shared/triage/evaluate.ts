@@ -113,23 +113,18 @@ function buildPlan(setId: CriteriaSetId, policy: Policy): Plan {
   for (const level of policy.levels) levelName[level.id] = level.name;
   const indices = members.map((_, i) => i);
   const withOp = (op: number) => Int32Array.from(indices.filter((i) => members[i].shape.op === op));
-  const column = <A extends Float64Array | Int32Array>(make: (n: number) => A, key: keyof CompiledCriterion['shape']) => {
-    const out = make(members.length);
-    members.forEach((m, i) => (out[i] = m.shape[key]));
-    return out;
-  };
   return {
     members, setCount, calls, firstRule,
     tests: members.map((m) => m.test),
     op: Uint8Array.from(members, (m) => m.shape.op),
-    a: column((n) => new Int32Array(n), 'a'),
-    b: column((n) => new Int32Array(n), 'b'),
-    c: column((n) => new Int32Array(n), 'c'),
-    t: column((n) => new Float64Array(n), 't'),
-    t2: column((n) => new Float64Array(n), 't2'),
-    perYear: column((n) => new Float64Array(n), 'perYear'),
-    from: column((n) => new Float64Array(n), 'from'),
-    below: column((n) => new Float64Array(n), 'below'),
+    a: Int32Array.from(members, (m) => m.shape.a),
+    b: Int32Array.from(members, (m) => m.shape.b),
+    c: Int32Array.from(members, (m) => m.shape.c),
+    t: Float64Array.from(members, (m) => m.shape.t),
+    t2: Float64Array.from(members, (m) => m.shape.t2),
+    perYear: Float64Array.from(members, (m) => m.shape.perYear),
+    from: Float64Array.from(members, (m) => m.shape.from),
+    below: Float64Array.from(members, (m) => m.shape.below),
     loop: Int32Array.from(indices.filter((i) => members[i].shape.op !== compiled.OP_FINDING && members[i].shape.op !== compiled.OP_CONSIDERATION)),
     findingMembers: withOp(compiled.OP_FINDING),
     considerationMembers: withOp(compiled.OP_CONSIDERATION),
