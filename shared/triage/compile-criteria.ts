@@ -149,18 +149,57 @@ function gcsParts(f: Facts): string {
   return `E${gcsPart(f.eye)} V${gcsPart(f.verbal)} M${gcsPart(f.motor)}`;
 }
 
+/** True when the text is the value alone: one recorded value, not a bound or a GCS put together from the rest. */
+function isPlain(q: Quantity, i: number, f: Facts): boolean {
+  if (q === 'heightM') return true;
+  if (f.lo[i] !== f.hi[i]) return false;
+  if (q === 'gcsMotor') return f.motor === f.motor;
+  if (q === 'gcsTotal') return f.gcsTotalRecorded === f.gcsTotalRecorded;
+  return true;
+}
+
+function plainText(q: Quantity, v: number): string {
+  if (q === 'heightM') return v === 0 ? 'fall from standing (0 m)' : `fall ${fmt(v, 3)} m (${fmt(v / 0.3048)} ft)`;
+  return `${LABEL[q]} ${fmt(v)}`;
+}
+
 /** The value as recorded, or the bound that decided the comparison when only a range is known. */
 function valueText(q: Quantity, i: number, f: Facts, bound: 'lo' | 'hi'): string {
   const lo = f.lo[i], hi = f.hi[i];
-  if (q === 'heightM') return lo === 0 ? 'fall from standing (0 m)' : `fall ${fmt(lo, 3)} m (${fmt(lo / 0.3048)} ft)`;
+  if (isPlain(q, i, f)) return plainText(q, lo);
   if (lo === hi) {
-    if (q === 'gcsMotor' && f.motor !== f.motor) return `motor GCS ${fmt(lo)} (GCS total ${fmt(f.gcsTotalRecorded)})`;
-    if (q === 'gcsTotal' && f.gcsTotalRecorded !== f.gcsTotalRecorded) return `GCS ${fmt(lo)} (${gcsParts(f)})`;
-    return `${LABEL[q]} ${fmt(lo)}`;
+    if (q === 'gcsMotor') return `motor GCS ${fmt(lo)} (GCS total ${fmt(f.gcsTotalRecorded)})`;
+    return `GCS ${fmt(lo)} (${gcsParts(f)})`;
   }
   const side = bound === 'hi' ? `at most ${fmt(hi)}` : `at least ${fmt(lo)}`;
   const basis = q === 'gcsMotor' && f.gcsTotalRecorded === f.gcsTotalRecorded ? `GCS total ${fmt(f.gcsTotalRecorded)}` : gcsParts(f);
   return `${LABEL[q]} ${side} (${basis})`;
+}
+
+/**
+ * Texts that depend on one number, made once per value and kept in 64 slots: recorded values
+ * repeat (whole vitals, tenth-metre heights, whole years), so most explanations are a lookup.
+ * A slot holds the last value that fell in it and is matched exactly (Object.is, so that −0 and
+ * +0 keep their own texts).
+ */
+function textsByValue(make: (v: number) => string): (v: number) => string {
+  const values = new Float64Array(64).fill(NaN);
+  const texts: string[] = new Array<string>(64).fill('');
+  return (v) => {
+    // 21 is odd, so 64 whole numbers in a row take 64 different slots.
+    const k = (v * 21) & 63;
+    if (!Object.is(values[k], v)) {
+      values[k] = v;
+      texts[k] = make(v);
+    }
+    return texts[k];
+  };
+}
+
+/** A comparison's explanation: the value and the fixed tail (" < 90"), kept per value when the value alone is the text. */
+function comparisonText(q: Quantity, i: number, bound: 'lo' | 'hi', tail: string): (f: Facts) => string {
+  const byValue = textsByValue((v) => plainText(q, v) + tail);
+  return (f) => (isPlain(q, i, f) ? byValue(f.lo[i]) : valueText(q, i, f, bound) + tail);
 }
 
 function quantityMissing(q: Quantity, i: number, f: Facts): number {
@@ -197,11 +236,11 @@ export function compileCondition(c: Condition): CompiledCondition {
       const base = c.value;
       const perYear = c.perYearOfAge ?? 0;
       // The constant tail of the explanation is joined once, here, not per explanation.
-      const fixedTail = ` < ${thresholdText(c)}`;
+      const fixed = comparisonText(c.quantity, i, 'hi', ` < ${thresholdText(c)}`);
       return {
         test: (f) => belowState(f, i, base + perYear * f.years),
         explain: (f) => {
-          if (!perYear) return valueText(c.quantity, i, f, 'hi') + fixedTail;
+          if (!perYear) return fixed(f);
           const t = base + perYear * f.years;
           return `${valueText(c.quantity, i, f, 'hi')} < ${fmt(t)} (${fmt(base)} + ${fmt(perYear)} × ${fmt(f.years)})`;
         },
@@ -211,20 +250,20 @@ export function compileCondition(c: Condition): CompiledCondition {
     case 'above': {
       const i = QUANTITY_INDEX[c.quantity];
       const t = c.value;
-      const tail = ` > ${thresholdText(c)}`;
+      const explain = comparisonText(c.quantity, i, 'lo', ` > ${thresholdText(c)}`);
       return {
         test: (f) => aboveState(f, i, t),
-        explain: (f) => valueText(c.quantity, i, f, 'lo') + tail,
+        explain,
         missing: (f) => quantityMissing(c.quantity, i, f),
       };
     }
     case 'at-most': {
       const i = QUANTITY_INDEX[c.quantity];
       const t = c.value;
-      const tail = ` ≤ ${thresholdText(c)}`;
+      const explain = comparisonText(c.quantity, i, 'hi', ` ≤ ${thresholdText(c)}`);
       return {
         test: (f) => (f.hi[i] <= t ? MET : f.lo[i] > t ? NOT_MET : UNKNOWN),
-        explain: (f) => valueText(c.quantity, i, f, 'hi') + tail,
+        explain,
         missing: (f) => quantityMissing(c.quantity, i, f),
       };
     }
@@ -238,10 +277,10 @@ export function compileCondition(c: Condition): CompiledCondition {
     }
     case 'age': {
       const from = c.from ?? -Infinity, below = c.below ?? Infinity;
-      const tail = ` (${c.label})`;
+      const byAge = textsByValue((age) => `${ageText(age)} (${c.label})`);
       return {
         test: (f) => (f.years >= from && f.years < below ? MET : NOT_MET),
-        explain: (f) => ageText(f.ageYears) + tail,
+        explain: (f) => byAge(f.ageYears),
         missing: () => 0,
       };
     }

@@ -50,6 +50,12 @@ export interface EvaluateOptions {
 
 interface Plan {
   members: CompiledCriterion[];
+  /**
+   * Per member, the fixed fields of its FiredCriterion in one object layout: the criteria of the
+   * sets and the policy catalog are built in different ways, so their own objects differ in layout
+   * and reading them would be a slow lookup per field.
+   */
+  about: Omit<FiredCriterion, 'because'>[];
   tests: CompiledCriterion['test'][];
   /**
    * The members' shapes as columns (see compile-criteria.ts), for the members `loop` lists: those
@@ -115,6 +121,9 @@ function buildPlan(setId: CriteriaSetId, policy: Policy): Plan {
   const withOp = (op: number) => Int32Array.from(indices.filter((i) => members[i].shape.op === op));
   return {
     members, setCount, calls, firstRule,
+    about: members.map(({ criterion: c }, i) => ({
+      id: c.id, set: c.set, tier: c.tier, label: c.label, source: c.source, calls: calls[i], nemsis: c.nemsis,
+    })),
     tests: members.map((m) => m.test),
     op: Uint8Array.from(members, (m) => m.shape.op),
     a: Int32Array.from(members, (m) => m.shape.a),
@@ -166,7 +175,7 @@ export function evaluate(input: ClinicalInput, options: EvaluateOptions = {}): E
   const set = options.set ?? defaultSet;
   const plan = planFor(set, options.policy ?? defaultPolicy);
   const f = read(input, facts);
-  const { members, tests, op, a, b, c, t, t2, perYear, from, below, loop, tierRank, setCount, firstRule, calls, met, unknown } = plan;
+  const { members, about, tests, op, a, b, c, t, t2, perYear, from, below, loop, tierRank, setCount, firstRule, calls, met, unknown } = plan;
   const lo = f.lo, hi = f.hi, years = f.years, flags = f.flags;
 
   // One pass over the criteria: the field risk, the first rule with a met member (the lowest
@@ -253,11 +262,10 @@ export function evaluate(input: ClinicalInput, options: EvaluateOptions = {}): E
   for (let k = 0; k < metCount; k++) {
     const i = met[k];
     if (i >= setCount && calls[i] === null) continue;
-    const m = members[i];
-    const criterion = m.criterion;
+    const c = about[i];
     criteria.push({
-      id: criterion.id, set: criterion.set, tier: criterion.tier, label: criterion.label, because: m.explain(f),
-      source: criterion.source, calls: calls[i], nemsis: criterion.nemsis,
+      id: c.id, set: c.set, tier: c.tier, label: c.label, because: members[i].explain(f),
+      source: c.source, calls: c.calls, nemsis: c.nemsis,
     });
   }
   let missingBits = 0;

@@ -110,3 +110,34 @@ describe('the evaluator’s shortcuts read the criteria as their general form do
     }), { numRuns: 1000 });
   });
 });
+
+describe('explanations kept per value', () => {
+  // The text of a comparison or an age band is kept per value in a few slots, and a slot is
+  // reused by whichever value falls in it next. A result must read the same whatever was
+  // evaluated before it [ours: an internal consistency check].
+  it('the same input gives the same explanations in any order of evaluation', () => {
+    fc.assert(fc.property(fc.array(input, { minLength: 50, maxLength: 200 }), sets, (xs, set) => {
+      const first = xs.map((x) => JSON.stringify(evaluate(x, { set })));
+      // Backwards, and each input after one that differs from it, so that slots are overwritten in between.
+      for (let k = xs.length - 1; k >= 0; k--) {
+        evaluate(xs[(k * 7 + 3) % xs.length], { set });
+        expect(JSON.stringify(evaluate(xs[k], { set }))).toBe(first[k]);
+      }
+    }), { numRuns: 60 });
+  });
+
+  it('the texts read the recorded values themselves', () => {
+    // Values a slot could confuse [ours].
+    const adult = (sbp: number, heightM: number): ClinicalInput => ({
+      ageYears: 40, fall: { heightM }, vitals: { sbp, hr: 70, rr: 16, gcsTotal: 15 }, findings: [],
+    });
+    const because = (x: ClinicalInput, id: string) => evaluate(x).criteria.find((c) => c.id === id)?.because;
+    // Whole numbers 64 apart share a slot (84 and 20), and so do 7.5 m and 4.43 m: (v × 21) & 63 is 29 for both.
+    expect(because(adult(84, 0), 'field-2021:sbp-below-90-age-10-64')).toBe('SBP 84 < 90, age 40 (10–64)');
+    expect(because(adult(20, 0), 'field-2021:sbp-below-90-age-10-64')).toBe('SBP 20 < 90, age 40 (10–64)');
+    expect(because(adult(84, 0), 'field-2021:sbp-below-90-age-10-64')).toBe('SBP 84 < 90, age 40 (10–64)');
+    expect(because(adult(120, 7.5), 'field-2021:fall-above-10-ft')).toBe('fall 7.5 m (24.6 ft) > 3.048 m (10 ft)');
+    expect(because(adult(120, 4.43), 'field-2021:fall-above-10-ft')).toBe('fall 4.43 m (14.5 ft) > 3.048 m (10 ft)');
+    expect(because(adult(120, 7.5), 'field-2021:fall-above-10-ft')).toBe('fall 7.5 m (24.6 ft) > 3.048 m (10 ft)');
+  });
+});
