@@ -4,7 +4,8 @@ import { CONSIDERATION_BIT, FINDING_BIT, FLAG_INDEX, QUANTITY_INDEX, TRI } from 
 import type { Facts, TriState } from './facts';
 import { MISSING_BIT } from './missing-inputs';
 
-// Turns criterion data into closures once, so an evaluation is a few comparisons per criterion.
+// Turns criterion data, once, into steps the evaluator runs from columns of numbers in its own
+// loop, and into closures: test() is the general three-valued form the steps are held to,
 // explain() runs only for a met criterion, missing() only for an unknown one.
 
 // Module-local copies: some loaders compile imported bindings into getter calls, which the
@@ -22,18 +23,19 @@ export interface CompiledCriterion extends CompiledCondition {
   criterion: Criterion;
   /** 2 high, 1 moderate, 0 none (policy-catalog conditions). */
   tierRank: number;
-  /** The same condition as operands the evaluator compares in its own loop, without a call. */
-  shape: Shape;
+  /** The same condition as steps the evaluator runs in its own loop, without a call. */
+  steps: Step[];
 }
 
 /**
- * Most criteria are one comparison, perhaps inside an age band, or a finding, a consideration or
- * a flag: the evaluator reads those from these numbers in one loop. `OP_CALL` leaves the rest
- * (nested "any"/"all", SpO2 on room air, pregnancy) to `test`. Same answers as `test`.
+ * One step of a criterion's program, in post-order: a leaf compares numbers of the facts and
+ * gives a three-valued state; `OP_ALL` and `OP_ANY` join the states of the `a` steps before them.
+ * A comparison joined with an age band by "and" is one step with the band as [from, below).
+ * Same answers as `test` (a property test holds them to it).
  */
-export interface Shape {
+export interface Step {
   op: number;
-  /** A quantity, flag index or bit; `b` and `c` the second quantity or further flags. */
+  /** A quantity, flag index or bit, or the number of parts joined; `b` and `c` the second quantity or further flags. */
   a: number;
   b: number;
   c: number;
@@ -41,12 +43,11 @@ export interface Shape {
   t: number;
   t2: number;
   perYear: number;
-  /** The age band in completed years, [from, below): −∞ to ∞ when the criterion has none. */
+  /** The age band in completed years, [from, below): −∞ to ∞ when the step has none. */
   from: number;
   below: number;
 }
 
-export const OP_CALL = 0;
 export const OP_FINDING = 1;
 export const OP_CONSIDERATION = 2;
 export const OP_FLAG = 3;
@@ -62,39 +63,61 @@ export const OP_EXCEEDS = 7;
 export const OP_OUTSIDE = 8;
 /** Any of the flags a, b, c met. */
 export const OP_ANY_FLAG = 9;
+/** Met in the age band, not met outside it. */
+export const OP_AGE = 10;
+/** SpO2 < t on room air. */
+export const OP_ROOM_AIR_SPO2_BELOW = 11;
+/** Pregnant more than t weeks. */
+export const OP_PREGNANCY_ABOVE = 12;
+/** All of the `a` states before it; any of them. */
+export const OP_ALL = 13;
+export const OP_ANY = 14;
 
-function shapeOf(when: Condition): Shape {
-  const shape: Shape = { op: OP_CALL, a: 0, b: 0, c: 0, t: 0, t2: 0, perYear: 0, from: -Infinity, below: Infinity };
-  let leaf = when;
-  if (when.kind === 'all' && when.of.length === 2 && when.of[0].kind === 'age') {
-    const band = when.of[0];
-    leaf = when.of[1];
-    if (leaf.kind !== 'below' && leaf.kind !== 'above' && leaf.kind !== 'at-most' && leaf.kind !== 'exceeds') return shape;
-    shape.from = band.from ?? -Infinity;
-    shape.below = band.below ?? Infinity;
-  }
-  switch (leaf.kind) {
-    case 'finding': return { ...shape, op: OP_FINDING, a: FINDING_BIT[leaf.finding] };
-    case 'consideration': return { ...shape, op: OP_CONSIDERATION, a: CONSIDERATION_BIT[leaf.consideration] };
-    case 'flag': return { ...shape, op: OP_FLAG, a: FLAG_INDEX[leaf.flag] };
-    case 'below': return { ...shape, op: OP_BELOW, a: QUANTITY_INDEX[leaf.quantity], t: leaf.value, perYear: leaf.perYearOfAge ?? 0 };
-    case 'above': return { ...shape, op: OP_ABOVE, a: QUANTITY_INDEX[leaf.quantity], t: leaf.value };
-    case 'at-most': return { ...shape, op: OP_AT_MOST, a: QUANTITY_INDEX[leaf.quantity], t: leaf.value };
-    case 'exceeds': return { ...shape, op: OP_EXCEEDS, a: QUANTITY_INDEX[leaf.quantity], b: QUANTITY_INDEX[leaf.other] };
+const step = (op: number, fields: Partial<Step> = {}): Step => ({
+  op, a: 0, b: 0, c: 0, t: 0, t2: 0, perYear: 0, from: -Infinity, below: Infinity, ...fields,
+});
+const COMPARISONS = new Set([OP_BELOW, OP_ABOVE, OP_AT_MOST, OP_EXCEEDS]);
+
+/** The condition as one step when it is a leaf or one of the joined forms read in one go. */
+function leafStep(c: Condition): Step | null {
+  switch (c.kind) {
+    case 'finding': return step(OP_FINDING, { a: FINDING_BIT[c.finding] });
+    case 'consideration': return step(OP_CONSIDERATION, { a: CONSIDERATION_BIT[c.consideration] });
+    case 'flag': return step(OP_FLAG, { a: FLAG_INDEX[c.flag] });
+    case 'below': return step(OP_BELOW, { a: QUANTITY_INDEX[c.quantity], t: c.value, perYear: c.perYearOfAge ?? 0 });
+    case 'above': return step(OP_ABOVE, { a: QUANTITY_INDEX[c.quantity], t: c.value });
+    case 'at-most': return step(OP_AT_MOST, { a: QUANTITY_INDEX[c.quantity], t: c.value });
+    case 'exceeds': return step(OP_EXCEEDS, { a: QUANTITY_INDEX[c.quantity], b: QUANTITY_INDEX[c.other] });
+    case 'age': return step(OP_AGE, { from: c.from ?? -Infinity, below: c.below ?? Infinity });
+    case 'room-air-spo2-below': return step(OP_ROOM_AIR_SPO2_BELOW, { t: c.value });
+    case 'pregnancy-above': return step(OP_PREGNANCY_ABOVE, { t: c.weeks });
     case 'any': {
-      const [x, y] = leaf.of;
-      if (leaf.of.length === 2 && x.kind === 'below' && y.kind === 'above' && x.quantity === y.quantity && !x.perYearOfAge) {
-        return { ...shape, op: OP_OUTSIDE, a: QUANTITY_INDEX[x.quantity], t: x.value, t2: y.value };
+      const [x, y] = c.of;
+      if (c.of.length === 2 && x.kind === 'below' && y.kind === 'above' && x.quantity === y.quantity && !x.perYearOfAge) {
+        return step(OP_OUTSIDE, { a: QUANTITY_INDEX[x.quantity], t: x.value, t2: y.value });
       }
-      if (leaf.of.length <= 3 && leaf.of.every((c) => c.kind === 'flag')) {
+      if (c.of.length <= 3 && c.of.every((part) => part.kind === 'flag')) {
         // Fewer than three flags repeat the first: "a or a" is "a".
-        const idx = leaf.of.map((c) => FLAG_INDEX[(c as Extract<Condition, { kind: 'flag' }>).flag]);
-        return { ...shape, op: OP_ANY_FLAG, a: idx[0], b: idx[1] ?? idx[0], c: idx[2] ?? idx[0] };
+        const idx = c.of.map((part) => FLAG_INDEX[(part as Extract<Condition, { kind: 'flag' }>).flag]);
+        return step(OP_ANY_FLAG, { a: idx[0], b: idx[1] ?? idx[0], c: idx[2] ?? idx[0] });
       }
-      return shape;
+      return null;
     }
-    default: return shape;
+    case 'all': {
+      const [band, rest] = c.of;
+      if (c.of.length !== 2 || band.kind !== 'age') return null;
+      const inner = leafStep(rest);
+      if (!inner || !COMPARISONS.has(inner.op)) return null;
+      return { ...inner, from: band.from ?? -Infinity, below: band.below ?? Infinity };
+    }
   }
+}
+
+export function stepsOf(c: Condition): Step[] {
+  const leaf = leafStep(c);
+  if (leaf) return [leaf];
+  if (c.kind !== 'any' && c.kind !== 'all') throw new Error(`no step for condition ${c.kind}`);
+  return [...c.of.flatMap(stepsOf), step(c.kind === 'any' ? OP_ANY : OP_ALL, { a: c.of.length })];
 }
 
 // Whole numbers are most recorded values; a table spares a number-to-text conversion per explanation.
@@ -166,7 +189,7 @@ function plainText(q: Quantity, v: number): string {
 /** The value as recorded, or the bound that decided the comparison when only a range is known. */
 function valueText(q: Quantity, i: number, f: Facts, bound: 'lo' | 'hi'): string {
   const lo = f.lo[i], hi = f.hi[i];
-  if (isPlain(q, i, f)) return plainText(q, lo);
+  if (isPlain(q, i, f)) return PLAIN[i](lo);
   if (lo === hi) {
     if (q === 'gcsMotor') return `motor GCS ${fmt(lo)} (GCS total ${fmt(f.gcsTotalRecorded)})`;
     return `GCS ${fmt(lo)} (${gcsParts(f)})`;
@@ -177,17 +200,17 @@ function valueText(q: Quantity, i: number, f: Facts, bound: 'lo' | 'hi'): string
 }
 
 /**
- * Texts that depend on one number, made once per value and kept in 64 slots: recorded values
- * repeat (whole vitals, tenth-metre heights, whole years), so most explanations are a lookup.
- * A slot holds the last value that fell in it and is matched exactly (Object.is, so that −0 and
- * +0 keep their own texts).
+ * Texts that depend on one number, made once per value and kept in 256 slots: recorded values
+ * repeat (whole vitals, heights in tenths of a metre or whole feet, whole years), so most
+ * explanations are a lookup. A slot holds the last value that fell in it and is matched exactly
+ * (Object.is, so that −0 and +0 keep their own texts).
  */
 function textsByValue(make: (v: number) => string): (v: number) => string {
-  const values = new Float64Array(64).fill(NaN);
-  const texts: string[] = new Array<string>(64).fill('');
+  const values = new Float64Array(256).fill(NaN);
+  const texts: string[] = new Array<string>(256).fill('');
   return (v) => {
-    // 21 is odd, so 64 whole numbers in a row take 64 different slots.
-    const k = (v * 21) & 63;
+    // 21 is odd, so 256 whole numbers in a row take 256 different slots, and tenths spread too.
+    const k = (v * 21) & 255;
     if (!Object.is(values[k], v)) {
       values[k] = v;
       texts[k] = make(v);
@@ -195,6 +218,10 @@ function textsByValue(make: (v: number) => string): (v: number) => string {
     return texts[k];
   };
 }
+
+/** Per quantity (by QUANTITY_INDEX), its plain texts kept per value. */
+const PLAIN: ((v: number) => string)[] = [];
+for (const [q, i] of Object.entries(QUANTITY_INDEX)) PLAIN[i] = textsByValue((v) => plainText(q as Quantity, v));
 
 /** A comparison's explanation: the value and the fixed tail (" < 90"), kept per value when the value alone is the text. */
 function comparisonText(q: Quantity, i: number, bound: 'lo' | 'hi', tail: string): (f: Facts) => string {
@@ -328,7 +355,7 @@ export function compileCondition(c: Condition): CompiledCondition {
     case 'any': {
       const parts = c.of.map(compileCondition);
       return {
-        test: fastAny(c.of) ?? ((f) => {
+        test: (f) => {
           let out: TriState = NOT_MET;
           for (let i = 0; i < parts.length; i++) {
             const s = parts[i].test(f);
@@ -336,7 +363,7 @@ export function compileCondition(c: Condition): CompiledCondition {
             if (s === UNKNOWN) out = UNKNOWN;
           }
           return out;
-        }),
+        },
         explain: (f) => {
           let text = '';
           for (let i = 0; i < parts.length; i++) {
@@ -354,7 +381,7 @@ export function compileCondition(c: Condition): CompiledCondition {
         .sort((x, y) => Number(x.sub.kind === 'age') - Number(y.sub.kind === 'age'))
         .map((x) => x.part);
       return {
-        test: fastAll(c.of, parts) ?? ((f) => {
+        test: (f) => {
           let out: TriState = MET;
           for (let i = 0; i < parts.length; i++) {
             const s = parts[i].test(f);
@@ -362,7 +389,7 @@ export function compileCondition(c: Condition): CompiledCondition {
             if (s === UNKNOWN) out = UNKNOWN;
           }
           return out;
-        }),
+        },
         explain: (f) => {
           let text = spoken[0].explain(f);
           for (let i = 1; i < spoken.length; i++) text += ', ' + spoken[i].explain(f);
@@ -372,28 +399,6 @@ export function compileCondition(c: Condition): CompiledCondition {
       };
     }
   }
-}
-
-// Shortcuts for shapes that sit inside other conditions (two age bands joined by "or"; an age band
-// and one other condition joined by "and"): one closure instead of a call per part. Same answers
-// as the general form. Whole criteria of a common shape the evaluator reads itself (shapeOf).
-type Test = (f: Facts) => TriState;
-
-function fastAny(conditions: readonly Condition[]): Test | null {
-  if (conditions.length === 2 && conditions.every((c) => c.kind === 'age')) {
-    const [a, b] = conditions as Extract<Condition, { kind: 'age' }>[];
-    const aFrom = a.from ?? -Infinity, aBelow = a.below ?? Infinity, bFrom = b.from ?? -Infinity, bBelow = b.below ?? Infinity;
-    return (f) => ((f.years >= aFrom && f.years < aBelow) || (f.years >= bFrom && f.years < bBelow) ? MET : NOT_MET);
-  }
-  return null;
-}
-
-function fastAll(conditions: readonly Condition[], parts: readonly CompiledCondition[]): Test | null {
-  if (conditions.length !== 2 || conditions[0].kind !== 'age') return null;
-  const age = conditions[0], other = conditions[1];
-  const from = age.from ?? -Infinity, below = age.below ?? Infinity;
-  const rest = parts[1].test;
-  return (f) => (f.years >= from && f.years < below ? rest(f) : NOT_MET);
 }
 
 function unknownPartsMissing(parts: readonly CompiledCondition[], f: Facts): number {
@@ -410,7 +415,7 @@ export function ageText(ageYears: number): string {
 export function compileCriterion(criterion: Criterion): CompiledCriterion {
   const compiled = compileCondition(criterion.when);
   return {
-    shape: shapeOf(criterion.when),
+    steps: stepsOf(criterion.when),
     criterion,
     tierRank: criterion.tier === 'high' ? 2 : criterion.tier === 'moderate' ? 1 : 0,
     test: compiled.test,

@@ -56,10 +56,10 @@ interface Plan {
    * and reading them would be a slow lookup per field.
    */
   about: Omit<FiredCriterion, 'because'>[];
-  tests: CompiledCriterion['test'][];
   /**
-   * The members' shapes as columns (see compile-criteria.ts), for the members `loop` lists: those
-   * other than findings and considerations, which are tested only when the input has any.
+   * The steps of the members `loop` lists, one after another, as columns (see compile-criteria.ts):
+   * every member but a lone finding or consideration, which are tested only when the input lists
+   * any. `root[n]` is the member whose last step is n, −1 for a step inside a member.
    */
   op: Uint8Array;
   a: Int32Array;
@@ -70,20 +70,23 @@ interface Plan {
   perYear: Float64Array;
   from: Float64Array;
   below: Float64Array;
-  loop: Int32Array;
+  root: Int32Array;
+  /** Lone findings and considerations: the members and their bits. */
   findingMembers: Int32Array;
+  findingBits: Int32Array;
   considerationMembers: Int32Array;
+  considerationBits: Int32Array;
   tierRank: Int8Array;
   setCount: number;
-  calls: (LevelId | null)[];
   /** Per member, the index of the first rule naming it; rules.length when none does. */
   firstRule: Int32Array;
   ruleLevel: LevelId[];
   levelName: Record<LevelId, string>;
   policyRef: Evaluation['policy'];
-  /** Scratch: the members met and the members unknown in one evaluation. */
+  /** Scratch: the members met and the members unknown in one evaluation, and the states of steps not yet joined. */
   met: Int32Array;
   unknown: Int32Array;
+  pending: Uint8Array;
 }
 
 // Compiled once per policy object and set; a policy edited in place would keep its old plan.
@@ -117,32 +120,44 @@ function buildPlan(setId: CriteriaSetId, policy: Policy): Plan {
   }
   const levelName = { full: 'full', limited: 'limited', consult: 'consult', none: 'none' } as Record<LevelId, string>;
   for (const level of policy.levels) levelName[level.id] = level.name;
-  const indices = members.map((_, i) => i);
-  const withOp = (op: number) => Int32Array.from(indices.filter((i) => members[i].shape.op === op));
+  const lone = (op: number) => members.flatMap((m, i) => (m.steps.length === 1 && m.steps[0].op === op ? [[i, m.steps[0].a]] : []));
+  const findings = lone(compiled.OP_FINDING), considerations = lone(compiled.OP_CONSIDERATION);
+  const alone = new Set([...findings, ...considerations].map(([i]) => i));
+  const steps: compiled.Step[] = [];
+  const root: number[] = [];
+  members.forEach((m, i) => {
+    if (alone.has(i)) return;
+    m.steps.forEach((s, k) => {
+      steps.push(s);
+      root.push(k === m.steps.length - 1 ? i : -1);
+    });
+  });
   return {
-    members, setCount, calls, firstRule,
+    members, setCount, firstRule,
     about: members.map(({ criterion: c }, i) => ({
       id: c.id, set: c.set, tier: c.tier, label: c.label, source: c.source, calls: calls[i], nemsis: c.nemsis,
     })),
-    tests: members.map((m) => m.test),
-    op: Uint8Array.from(members, (m) => m.shape.op),
-    a: Int32Array.from(members, (m) => m.shape.a),
-    b: Int32Array.from(members, (m) => m.shape.b),
-    c: Int32Array.from(members, (m) => m.shape.c),
-    t: Float64Array.from(members, (m) => m.shape.t),
-    t2: Float64Array.from(members, (m) => m.shape.t2),
-    perYear: Float64Array.from(members, (m) => m.shape.perYear),
-    from: Float64Array.from(members, (m) => m.shape.from),
-    below: Float64Array.from(members, (m) => m.shape.below),
-    loop: Int32Array.from(indices.filter((i) => members[i].shape.op !== compiled.OP_FINDING && members[i].shape.op !== compiled.OP_CONSIDERATION)),
-    findingMembers: withOp(compiled.OP_FINDING),
-    considerationMembers: withOp(compiled.OP_CONSIDERATION),
+    op: Uint8Array.from(steps, (s) => s.op),
+    a: Int32Array.from(steps, (s) => s.a),
+    b: Int32Array.from(steps, (s) => s.b),
+    c: Int32Array.from(steps, (s) => s.c),
+    t: Float64Array.from(steps, (s) => s.t),
+    t2: Float64Array.from(steps, (s) => s.t2),
+    perYear: Float64Array.from(steps, (s) => s.perYear),
+    from: Float64Array.from(steps, (s) => s.from),
+    below: Float64Array.from(steps, (s) => s.below),
+    root: Int32Array.from(root),
+    findingMembers: Int32Array.from(findings, ([i]) => i),
+    findingBits: Int32Array.from(findings, ([, bit]) => bit),
+    considerationMembers: Int32Array.from(considerations, ([i]) => i),
+    considerationBits: Int32Array.from(considerations, ([, bit]) => bit),
     tierRank: Int8Array.from(members, (m) => m.tierRank),
     ruleLevel: policy.rules.map((r) => r.level),
     levelName,
     policyRef: Object.freeze({ id: policy.id, version: policy.version, example: policy.example }),
     met: new Int32Array(members.length),
     unknown: new Int32Array(members.length),
+    pending: new Uint8Array(steps.length),
   };
 }
 
@@ -161,7 +176,15 @@ function planFor(setId: CriteriaSetId, policy: Policy): Plan {
 
 // Module-local copies of imported bindings used per evaluation (see compile-criteria.ts).
 const { MET, NOT_MET, UNKNOWN } = TRI;
-const { OP_FLAG, OP_BELOW, OP_ABOVE, OP_AT_MOST, OP_EXCEEDS, OP_OUTSIDE, OP_ANY_FLAG } = compiled;
+// The switch below writes the step numbers of compile-criteria.ts out as literals, each named in
+// a comment: over literal labels it compiles to one jump, over imported names to a comparison per
+// case. This holds the two together.
+const STEP_ORDER = [
+  compiled.OP_FINDING, compiled.OP_CONSIDERATION, compiled.OP_FLAG, compiled.OP_BELOW, compiled.OP_ABOVE,
+  compiled.OP_AT_MOST, compiled.OP_EXCEEDS, compiled.OP_OUTSIDE, compiled.OP_ANY_FLAG, compiled.OP_AGE,
+  compiled.OP_ROOM_AIR_SPO2_BELOW, compiled.OP_PREGNANCY_ABOVE, compiled.OP_ALL, compiled.OP_ANY,
+];
+if (STEP_ORDER.some((op, k) => op !== k + 1)) throw new Error('the evaluator reads steps numbered 1 to 14 in the order of compile-criteria.ts');
 const MISSING = MISSING_INPUTS;
 const read = readFacts;
 const impactOf = fallImpact;
@@ -175,59 +198,95 @@ export function evaluate(input: ClinicalInput, options: EvaluateOptions = {}): E
   const set = options.set ?? defaultSet;
   const plan = planFor(set, options.policy ?? defaultPolicy);
   const f = read(input, facts);
-  const { members, about, tests, op, a, b, c, t, t2, perYear, from, below, loop, tierRank, setCount, firstRule, calls, met, unknown } = plan;
+  const { members, about, op, a, b, c, t, t2, perYear, from, below, root, tierRank, setCount, firstRule, met, unknown, pending } = plan;
   const lo = f.lo, hi = f.hi, years = f.years, flags = f.flags;
 
-  // One pass over the criteria: the field risk, the first rule with a met member (the lowest
+  // One pass over the steps: the field risk, the first rule with a met member (the lowest
   // firstRule among them) and the met and unknown members for the two lists below.
   let risk = 0;
   let matched = plan.ruleLevel.length;
-  let metCount = 0, unknownCount = 0;
-  for (let k = 0; k < loop.length; k++) {
-    const i = loop[k];
+  let metCount = 0, unknownCount = 0, depth = 0;
+  for (let n = 0; n < op.length; n++) {
     let s: number;
-    switch (op[i]) {
-      case OP_FLAG:
-        s = flags[a[i]];
+    switch (op[n]) {
+      case 3: // OP_FLAG
+        s = flags[a[n]];
         break;
-      case OP_BELOW: {
-        if (years < from[i] || years >= below[i]) { s = NOT_MET; break; }
-        const q = a[i], threshold = t[i] + perYear[i] * years;
+      case 4: { // OP_BELOW
+        if (years < from[n] || years >= below[n]) { s = NOT_MET; break; }
+        const q = a[n], threshold = t[n] + perYear[n] * years;
         s = hi[q] < threshold ? MET : lo[q] >= threshold ? NOT_MET : UNKNOWN;
         break;
       }
-      case OP_ABOVE: {
-        if (years < from[i] || years >= below[i]) { s = NOT_MET; break; }
-        const q = a[i];
-        s = lo[q] > t[i] ? MET : hi[q] <= t[i] ? NOT_MET : UNKNOWN;
+      case 5: { // OP_ABOVE
+        if (years < from[n] || years >= below[n]) { s = NOT_MET; break; }
+        const q = a[n];
+        s = lo[q] > t[n] ? MET : hi[q] <= t[n] ? NOT_MET : UNKNOWN;
         break;
       }
-      case OP_AT_MOST: {
-        if (years < from[i] || years >= below[i]) { s = NOT_MET; break; }
-        const q = a[i];
-        s = hi[q] <= t[i] ? MET : lo[q] > t[i] ? NOT_MET : UNKNOWN;
+      case 6: { // OP_AT_MOST
+        if (years < from[n] || years >= below[n]) { s = NOT_MET; break; }
+        const q = a[n];
+        s = hi[q] <= t[n] ? MET : lo[q] > t[n] ? NOT_MET : UNKNOWN;
         break;
       }
-      case OP_EXCEEDS: {
-        if (years < from[i] || years >= below[i]) { s = NOT_MET; break; }
-        const x = a[i], y = b[i];
+      case 7: { // OP_EXCEEDS
+        if (years < from[n] || years >= below[n]) { s = NOT_MET; break; }
+        const x = a[n], y = b[n];
         s = lo[x] > hi[y] ? MET : hi[x] <= lo[y] ? NOT_MET : UNKNOWN;
         break;
       }
-      case OP_OUTSIDE: {
-        const q = a[i];
-        s = hi[q] < t[i] || lo[q] > t2[i] ? MET : lo[q] >= t[i] && hi[q] <= t2[i] ? NOT_MET : UNKNOWN;
+      case 8: { // OP_OUTSIDE
+        const q = a[n];
+        s = hi[q] < t[n] || lo[q] > t2[n] ? MET : lo[q] >= t[n] && hi[q] <= t2[n] ? NOT_MET : UNKNOWN;
         break;
       }
-      case OP_ANY_FLAG: {
-        const x = flags[a[i]], y = flags[b[i]], z = flags[c[i]];
+      case 9: { // OP_ANY_FLAG
+        const x = flags[a[n]], y = flags[b[n]], z = flags[c[n]];
         s = x === MET || y === MET || z === MET ? MET : x === UNKNOWN || y === UNKNOWN || z === UNKNOWN ? UNKNOWN : NOT_MET;
         break;
       }
+      case 10: // OP_AGE
+        s = years >= from[n] && years < below[n] ? MET : NOT_MET;
+        break;
+      case 11: { // OP_ROOM_AIR_SPO2_BELOW
+        // On oxygen the reading is not a room-air one (see compile-criteria.ts).
+        const spo2 = f.spo2, roomAir = f.roomAir;
+        s = roomAir === NOT_MET || spo2 >= t[n] ? NOT_MET : spo2 !== spo2 || roomAir !== MET ? UNKNOWN : MET;
+        break;
+      }
+      case 12: { // OP_PREGNANCY_ABOVE
+        const weeks = f.pregnancyWeeks;
+        s = weeks === weeks ? (weeks > t[n] ? MET : NOT_MET) : f.sex === 'male' || years < 10 || years >= 60 ? NOT_MET : UNKNOWN;
+        break;
+      }
+      case 1: // OP_FINDING
+        s = (f.findings & a[n]) !== 0 ? MET : NOT_MET;
+        break;
+      case 2: // OP_CONSIDERATION
+        s = (f.considerations & a[n]) !== 0 ? MET : NOT_MET;
+        break;
+      case 13: // OP_ALL
+      case 14: { // OP_ANY
+        // Join the last a[n] states: "all" is not met by one not met, "any" met by one met.
+        const all = op[n] === 13;
+        const decides = all ? NOT_MET : MET;
+        s = all ? MET : NOT_MET;
+        for (let k = depth - a[n]; k < depth; k++) {
+          const part = pending[k];
+          if (part === decides) { s = decides; break; }
+          if (part === UNKNOWN) s = UNKNOWN;
+        }
+        depth -= a[n];
+        break;
+      }
       default:
-        s = tests[i](f);
+        throw new Error(`unknown step ${op[n]}`);
     }
-    if (s === MET) {
+    const i = root[n];
+    if (i < 0) {
+      pending[depth++] = s;
+    } else if (s === MET) {
       if (i < setCount && tierRank[i] > risk) risk = tierRank[i];
       if (firstRule[i] < matched) matched = firstRule[i];
       met[metCount++] = i;
@@ -235,15 +294,16 @@ export function evaluate(input: ClinicalInput, options: EvaluateOptions = {}): E
       unknown[unknownCount++] = i;
     }
   }
-  // Findings and considerations are known when absent (an empty list is "none"), so they are
-  // only ever met or not met, and none is met when the input lists none.
+  // Lone findings and considerations are known when absent (an empty list is "none"), so they
+  // are only ever met or not met, and none is met when the input lists none.
   for (let g = 0; g < 2; g++) {
     const bits = g === 0 ? f.findings : f.considerations;
     if (bits === 0) continue;
     const group = g === 0 ? plan.findingMembers : plan.considerationMembers;
+    const groupBits = g === 0 ? plan.findingBits : plan.considerationBits;
     for (let k = 0; k < group.length; k++) {
+      if ((bits & groupBits[k]) === 0) continue;
       const i = group[k];
-      if ((bits & a[i]) === 0) continue;
       if (i < setCount && tierRank[i] > risk) risk = tierRank[i];
       if (firstRule[i] < matched) matched = firstRule[i];
       met[metCount++] = i;
@@ -261,7 +321,7 @@ export function evaluate(input: ClinicalInput, options: EvaluateOptions = {}): E
   const criteria: FiredCriterion[] = [];
   for (let k = 0; k < metCount; k++) {
     const i = met[k];
-    if (i >= setCount && calls[i] === null) continue;
+    if (i >= setCount && about[i].calls === null) continue;
     const c = about[i];
     criteria.push({
       id: c.id, set: c.set, tier: c.tier, label: c.label, because: members[i].explain(f),
