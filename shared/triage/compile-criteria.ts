@@ -241,6 +241,27 @@ function quantityMissing(q: Quantity, i: number, f: Facts): number {
   return bits;
 }
 
+const QUANTITY_AT = Object.entries(QUANTITY_INDEX).sort((x, y) => x[1] - y[1]).map(([q]) => q as Quantity);
+const FLAG_BIT_AT = Object.entries(FLAG_INDEX).sort((x, y) => x[1] - y[1]).map(([flag]) => FLAG_FIELD_BIT[flag as keyof typeof FLAG_FIELD_BIT]);
+
+/**
+ * The missing inputs of one leaf step left unknown, as missing() of its condition gives them.
+ * Only a step in the unknown state is asked.
+ */
+export function stepMissing(s: Step, f: Facts): number {
+  switch (s.op) {
+    case OP_FLAG: return FLAG_BIT_AT[s.a];
+    case OP_BELOW: case OP_ABOVE: case OP_AT_MOST: case OP_OUTSIDE: return quantityMissing(QUANTITY_AT[s.a], s.a, f);
+    case OP_EXCEEDS: return quantityMissing(QUANTITY_AT[s.a], s.a, f) | quantityMissing(QUANTITY_AT[s.b], s.b, f);
+    case OP_ANY_FLAG:
+      return (f.flags[s.a] === UNKNOWN ? FLAG_BIT_AT[s.a] : 0) | (f.flags[s.b] === UNKNOWN ? FLAG_BIT_AT[s.b] : 0)
+        | (f.flags[s.c] === UNKNOWN ? FLAG_BIT_AT[s.c] : 0);
+    case OP_ROOM_AIR_SPO2_BELOW: return (f.spo2 !== f.spo2 ? BIT.spo2 : 0) | (f.roomAir === UNKNOWN ? BIT.roomAir : 0);
+    case OP_PREGNANCY_ABOVE: return BIT.pregnancy;
+    default: return 0;
+  }
+}
+
 function thresholdText(c: { quantity: Quantity; value: number; display?: string }): string {
   return c.display ?? (c.quantity === 'heightM' ? `${c.value} m` : String(c.value));
 }

@@ -6,6 +6,7 @@ import type { CompiledCriterion } from './compile-criteria';
 import type { CriteriaSetId, CriterionSetId, NemsisCode, RiskTier } from './criteria';
 import { TRI, createFacts, readFacts } from './facts';
 import { MISSING_INPUTS, type MissingInput } from './missing-inputs';
+import { straightLine, type StraightLine } from './straight-line';
 import { EXAMPLE_POLICY, type LevelId, type Policy } from './policy';
 
 export type FieldRisk = RiskTier | 'none';
@@ -71,6 +72,10 @@ interface Plan {
   from: Float64Array;
   below: Float64Array;
   root: Int32Array;
+  /** The same steps as one function with constants, where the engine allows making one. */
+  run: StraightLine | null;
+  out: Int32Array;
+  unknownMissing: Int32Array;
   /** Lone findings and considerations: the members and their bits. */
   findingMembers: Int32Array;
   findingBits: Int32Array;
@@ -88,6 +93,12 @@ interface Plan {
   unknown: Int32Array;
   pending: Uint8Array;
 }
+
+/**
+ * Whether a plan's steps run as one generated function (see straight-line.ts) where that can be
+ * made, or always in the step loop a browser runs. Tests switch it to hold the two to each other.
+ */
+export const stepRunner = { straightLine: true };
 
 // Compiled once per policy object and set; a policy edited in place would keep its old plan.
 const plans = new WeakMap<Policy, Partial<Record<CriteriaSetId, Plan>>>();
@@ -147,6 +158,11 @@ function buildPlan(setId: CriteriaSetId, policy: Policy): Plan {
     from: Float64Array.from(steps, (s) => s.from),
     below: Float64Array.from(steps, (s) => s.below),
     root: Int32Array.from(root),
+    run: straightLine(members.flatMap((m, i) => (alone.has(i) ? [] : [{
+      index: i, steps: m.steps, risk: i < setCount ? m.tierRank : 0, firstRule: firstRule[i],
+    }])), policy.rules.length),
+    out: new Int32Array(4),
+    unknownMissing: new Int32Array(members.length),
     findingMembers: Int32Array.from(findings, ([i]) => i),
     findingBits: Int32Array.from(findings, ([, bit]) => bit),
     considerationMembers: Int32Array.from(considerations, ([i]) => i),
@@ -206,7 +222,12 @@ export function evaluate(input: ClinicalInput, options: EvaluateOptions = {}): E
   let risk = 0;
   let matched = plan.ruleLevel.length;
   let metCount = 0, unknownCount = 0, depth = 0;
-  for (let n = 0; n < op.length; n++) {
+  const run = stepRunner.straightLine ? plan.run : null;
+  if (run !== null) {
+    const out = plan.out;
+    run(lo, hi, years, flags, f, met, unknown, plan.unknownMissing, out);
+    risk = out[0]; matched = out[1]; metCount = out[2]; unknownCount = out[3];
+  } else for (let n = 0; n < op.length; n++) {
     let s: number;
     switch (op[n]) {
       case 3: // OP_FLAG
@@ -331,7 +352,7 @@ export function evaluate(input: ClinicalInput, options: EvaluateOptions = {}): E
   let missingBits = 0;
   for (let k = 0; k < unknownCount; k++) {
     const i = unknown[k];
-    if ((i < setCount && tierRank[i] > risk) || firstRule[i] < matched) missingBits |= members[i].missing(f);
+    if ((i < setCount && tierRank[i] > risk) || firstRule[i] < matched) missingBits |= run !== null ? plan.unknownMissing[k] : members[i].missing(f);
   }
   const missing: MissingInput[] = [];
   // Lowest bit first, which is MISSING_INPUTS order.

@@ -1,12 +1,13 @@
 import fc from 'fast-check';
-import { describe, expect, it } from 'vitest';
+import { afterEach, describe, expect, it } from 'vitest';
 import type { ClinicalInput } from '../../../../shared/schemas/clinical';
 import { CONSIDERATIONS, FINDINGS } from '../../../../shared/schemas/clinical-options';
-import { evaluate } from '../../../../shared/triage/evaluate';
+import { evaluate, stepRunner } from '../../../../shared/triage/evaluate';
 import { EXAMPLE_POLICY, LEVEL_RANK } from '../../../../shared/triage/policy';
 import { CRITERIA_SETS, compiledCriterion } from '../../../../shared/triage/catalog';
 import { POLICY_CRITERIA } from '../../../../shared/triage/policy-criteria';
 import { TRI, createFacts, readFacts } from '../../../../shared/triage/facts';
+import { CAN_MAKE_CODE } from '../../../../shared/triage/straight-line';
 
 const RISK_RANK = { none: 0, moderate: 1, high: 2 } as const;
 const orNull = <T>(arb: fc.Arbitrary<T>) => fc.option(arb, { nil: null });
@@ -17,7 +18,8 @@ const input: fc.Arbitrary<ClinicalInput> = fc.record({
   pregnancyWeeks: orNull(fc.integer({ min: 0, max: 42 })),
   anticoagulant: orNull(fc.boolean()),
   fall: fc.record({
-    heightM: fc.double({ min: 0, max: 40, noNaN: true }),
+    // Thresholds exactly (10 and 20 ft) as well as anywhere between.
+    heightM: fc.oneof(fc.double({ min: 0, max: 40, noNaN: true }), fc.constantFrom(0, 3.048, 6.096, 9.144)),
     headImpact: orNull(fc.boolean()),
     firstImpact: orNull(fc.constantFrom('head', 'back', 'unknown') as fc.Arbitrary<'head' | 'back' | 'unknown'>),
   }),
@@ -91,23 +93,50 @@ describe('unknown is never read as normal', () => {
   });
 });
 
-describe('the evaluator’s shortcuts read the criteria as their general form does', () => {
-  // The evaluator compares most criteria from columns of numbers in its own loop; each criterion
-  // also keeps the general three-valued test compiled straight from its condition tree. Both must
-  // give the same met criteria, in the same order, for any input [ours: an internal consistency check].
-  it('met criteria and field risk as a plain walk over every criterion’s own test', () => {
+describe('the evaluator’s steps read the criteria as their general form does', () => {
+  // The evaluator runs each criterion as steps over columns of numbers, in its own loop (as in a
+  // browser) or as one generated function (under Node.js); each criterion also keeps the general
+  // three-valued test compiled straight from its condition tree. All must give the same met
+  // criteria, in the same order, for any input [ours: an internal consistency check].
+  afterEach(() => { stepRunner.straightLine = true; });
+
+  for (const straightLine of [true, false]) {
+    it(`met criteria and field risk as a plain walk over every criterion’s own test (${straightLine ? 'generated function' : 'step loop'})`, () => {
+      stepRunner.straightLine = straightLine;
+      fc.assert(fc.property(input, sets, (x, set) => {
+        const facts = readFacts(x, createFacts());
+        const expectedMet = CRITERIA_SETS[set].criteria.filter((c) => compiledCriterion(c.id)!.test(facts) === TRI.MET);
+        const result = evaluate(x, { set });
+        expect(result.criteria.filter((c) => c.set === set).map((c) => c.id)).toEqual(expectedMet.map((c) => c.id));
+        const rank = Math.max(0, ...expectedMet.map((c) => (c.tier === 'high' ? 2 : 1)));
+        expect(result.fieldRisk).toBe((['none', 'moderate', 'high'] as const)[rank]);
+        // The policy's own conditions that the policy names, the same way.
+        const named = new Set(EXAMPLE_POLICY.rules.flatMap((r) => r.criteria));
+        const policyMet = POLICY_CRITERIA.filter((c) => named.has(c.id) && compiledCriterion(c.id)!.test(facts) === TRI.MET).map((c) => c.id);
+        expect(result.criteria.filter((c) => c.set === 'policy').map((c) => c.id)).toEqual(policyMet);
+      }), { numRuns: 1000 });
+    });
+  }
+
+  it('the generated function and the step loop give the same whole result, missing inputs included', () => {
     fc.assert(fc.property(input, sets, (x, set) => {
-      const facts = readFacts(x, createFacts());
-      const expectedMet = CRITERIA_SETS[set].criteria.filter((c) => compiledCriterion(c.id)!.test(facts) === TRI.MET);
-      const result = evaluate(x, { set });
-      expect(result.criteria.filter((c) => c.set === set).map((c) => c.id)).toEqual(expectedMet.map((c) => c.id));
-      const rank = Math.max(0, ...expectedMet.map((c) => (c.tier === 'high' ? 2 : 1)));
-      expect(result.fieldRisk).toBe((['none', 'moderate', 'high'] as const)[rank]);
-      // The policy's own conditions that the policy names, the same way.
-      const named = new Set(EXAMPLE_POLICY.rules.flatMap((r) => r.criteria));
-      const policyMet = POLICY_CRITERIA.filter((c) => named.has(c.id) && compiledCriterion(c.id)!.test(facts) === TRI.MET).map((c) => c.id);
-      expect(result.criteria.filter((c) => c.set === 'policy').map((c) => c.id)).toEqual(policyMet);
-    }), { numRuns: 1000 });
+      stepRunner.straightLine = true;
+      const generated = evaluate(x, { set });
+      stepRunner.straightLine = false;
+      expect(evaluate(x, { set })).toEqual(generated);
+    }), { numRuns: 2000 });
+  });
+
+  it('the step loop and the generated function are both used', () => {
+    // Node.js can make code, so the tests run both; a result of each carries the same level.
+    expect(CAN_MAKE_CODE).toBe(true);
+    const x: ClinicalInput = { ageYears: 70, fall: { heightM: 0, headImpact: true }, vitals: { sbp: 100 }, findings: [] };
+    stepRunner.straightLine = false;
+    const loop = evaluate(x);
+    stepRunner.straightLine = true;
+    expect(evaluate(x)).toEqual(loop);
+    // Age 65 or older with SBP 100 < 110 [source: Newgard 2022]: high risk.
+    expect(loop.fieldRisk).toBe('high');
   });
 });
 
