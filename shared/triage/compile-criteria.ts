@@ -262,6 +262,24 @@ export function stepMissing(s: Step, f: Facts): number {
   }
 }
 
+/**
+ * stepMissing() of a step when it is the same for every input that leaves the step unknown (a
+ * flag, a vital sign that was not recorded, pregnancy), null when it depends on more.
+ */
+export function fixedStepMissing(s: Step): number | null {
+  switch (s.op) {
+    case OP_FLAG: return FLAG_BIT_AT[s.a];
+    case OP_BELOW: case OP_ABOVE: case OP_AT_MOST: case OP_OUTSIDE: {
+      const q = QUANTITY_AT[s.a];
+      // Unknown only when not recorded: a recorded value decides every comparison.
+      return q === 'sbp' || q === 'hr' || q === 'rr' ? BIT[q] : q === 'heightM' ? 0 : null;
+    }
+    case OP_PREGNANCY_ABOVE: return BIT.pregnancy;
+    case OP_AGE: case OP_FINDING: case OP_CONSIDERATION: return 0;
+    default: return null;
+  }
+}
+
 function thresholdText(c: { quantity: Quantity; value: number; display?: string }): string {
   return c.display ?? (c.quantity === 'heightM' ? `${c.value} m` : String(c.value));
 }

@@ -86,7 +86,8 @@ interface Plan {
   /** Per member, the index of the first rule naming it; rules.length when none does. */
   firstRule: Int32Array;
   ruleLevel: LevelId[];
-  levelName: Record<LevelId, string>;
+  /** The policy's display name of each rule's level, then of none. */
+  ruleName: string[];
   policyRef: Evaluation['policy'];
   /** Scratch: the members met and the members unknown in one evaluation, and the states of steps not yet joined. */
   met: Int32Array;
@@ -131,6 +132,7 @@ function buildPlan(setId: CriteriaSetId, policy: Policy): Plan {
   }
   const levelName = { full: 'full', limited: 'limited', consult: 'consult', none: 'none' } as Record<LevelId, string>;
   for (const level of policy.levels) levelName[level.id] = level.name;
+  const ruleName = [...policy.rules.map((r) => levelName[r.level]), levelName.none];
   const lone = (op: number) => members.flatMap((m, i) => (m.steps.length === 1 && m.steps[0].op === op ? [[i, m.steps[0].a]] : []));
   const findings = lone(compiled.OP_FINDING), considerations = lone(compiled.OP_CONSIDERATION);
   const alone = new Set([...findings, ...considerations].map(([i]) => i));
@@ -169,7 +171,7 @@ function buildPlan(setId: CriteriaSetId, policy: Policy): Plan {
     considerationBits: Int32Array.from(considerations, ([, bit]) => bit),
     tierRank: Int8Array.from(members, (m) => m.tierRank),
     ruleLevel: policy.rules.map((r) => r.level),
-    levelName,
+    ruleName,
     policyRef: Object.freeze({ id: policy.id, version: policy.version, example: policy.example }),
     met: new Int32Array(members.length),
     unknown: new Int32Array(members.length),
@@ -366,7 +368,7 @@ export function evaluate(input: ClinicalInput, options: EvaluateOptions = {}): E
     set,
     fieldRisk: RISK[risk],
     activation,
-    activationName: plan.levelName[activation],
+    activationName: plan.ruleName[matched],
     criteria,
     missing,
     impact: impactOf(input.fall.heightM, input.fall.surface, input.weightKg),

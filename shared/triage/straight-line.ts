@@ -91,7 +91,8 @@ function memberCode(m: LineMember, rules: number, steps: Step[]): string {
     } else {
       const outside = band(s);
       lines.push(`const ${name} = ${outside ? `${outside} ? 0 : ` : ''}(${leaf(s)});`);
-      stack.push({ name, missing: `stepMissing(steps[${steps.push(s) - 1}], f)` });
+      const fixed = compiled.fixedStepMissing(s);
+      stack.push({ name, missing: fixed !== null ? literal(fixed) : `stepMissing(steps[${steps.push(s) - 1}], f)` });
     }
   });
   const onMet: string[] = [];
