@@ -72,8 +72,9 @@ interface Plan {
   from: Float64Array;
   below: Float64Array;
   root: Int32Array;
-  /** The same steps as one function with constants, where the engine allows making one. */
-  run: StraightLine | null;
+  /** The same steps as one function with constants, where the engine allows making one, and as the step loop. */
+  generated: StraightLine | null;
+  loop: StraightLine;
   out: Int32Array;
   unknownMissing: Int32Array;
   /** Lone findings and considerations: the members and their bits. */
@@ -145,7 +146,7 @@ function buildPlan(setId: CriteriaSetId, policy: Policy): Plan {
       root.push(k === m.steps.length - 1 ? i : -1);
     });
   });
-  return {
+  const plan: Omit<Plan, 'loop'> = {
     members, setCount, firstRule,
     about: members.map(({ criterion: c }, i) => ({
       id: c.id, set: c.set, tier: c.tier, label: c.label, source: c.source, calls: calls[i], nemsis: c.nemsis,
@@ -160,7 +161,7 @@ function buildPlan(setId: CriteriaSetId, policy: Policy): Plan {
     from: Float64Array.from(steps, (s) => s.from),
     below: Float64Array.from(steps, (s) => s.below),
     root: Int32Array.from(root),
-    run: straightLine(members.flatMap((m, i) => (alone.has(i) ? [] : [{
+    generated: straightLine(members.flatMap((m, i) => (alone.has(i) ? [] : [{
       index: i, steps: m.steps, risk: i < setCount ? m.tierRank : 0, firstRule: firstRule[i],
     }])), policy.rules.length),
     out: new Int32Array(4),
@@ -177,6 +178,7 @@ function buildPlan(setId: CriteriaSetId, policy: Policy): Plan {
     unknown: new Int32Array(members.length),
     pending: new Uint8Array(steps.length),
   };
+  return { ...plan, loop: stepLoop(plan) };
 }
 
 let lastPolicy: Policy | null = null;
@@ -211,112 +213,119 @@ const defaultPolicy = EXAMPLE_POLICY;
 const facts = createFacts();
 const RISK: readonly FieldRisk[] = ['none', 'moderate', 'high'];
 
+/** The plan's steps run one by one from the columns: the same pass as the generated function. */
+function stepLoop(plan: Omit<Plan, 'loop'>): StraightLine {
+  const { members, op, a, b, c, t, t2, perYear, from, below, root, tierRank, setCount, firstRule, pending } = plan;
+  return (lo, hi, years, flags, f, met, unknown, unknownMissing, out) => {
+    let risk = 0;
+    let matched = plan.ruleLevel.length;
+    let metCount = 0, unknownCount = 0, depth = 0;
+    for (let n = 0; n < op.length; n++) {
+      let s: number;
+      switch (op[n]) {
+        case 3: // OP_FLAG
+          s = flags[a[n]];
+          break;
+        case 4: { // OP_BELOW
+          if (years < from[n] || years >= below[n]) { s = NOT_MET; break; }
+          const q = a[n], threshold = t[n] + perYear[n] * years;
+          s = hi[q] < threshold ? MET : lo[q] >= threshold ? NOT_MET : UNKNOWN;
+          break;
+        }
+        case 5: { // OP_ABOVE
+          if (years < from[n] || years >= below[n]) { s = NOT_MET; break; }
+          const q = a[n];
+          s = lo[q] > t[n] ? MET : hi[q] <= t[n] ? NOT_MET : UNKNOWN;
+          break;
+        }
+        case 6: { // OP_AT_MOST
+          if (years < from[n] || years >= below[n]) { s = NOT_MET; break; }
+          const q = a[n];
+          s = hi[q] <= t[n] ? MET : lo[q] > t[n] ? NOT_MET : UNKNOWN;
+          break;
+        }
+        case 7: { // OP_EXCEEDS
+          if (years < from[n] || years >= below[n]) { s = NOT_MET; break; }
+          const x = a[n], y = b[n];
+          s = lo[x] > hi[y] ? MET : hi[x] <= lo[y] ? NOT_MET : UNKNOWN;
+          break;
+        }
+        case 8: { // OP_OUTSIDE
+          const q = a[n];
+          s = hi[q] < t[n] || lo[q] > t2[n] ? MET : lo[q] >= t[n] && hi[q] <= t2[n] ? NOT_MET : UNKNOWN;
+          break;
+        }
+        case 9: { // OP_ANY_FLAG
+          const x = flags[a[n]], y = flags[b[n]], z = flags[c[n]];
+          s = x === MET || y === MET || z === MET ? MET : x === UNKNOWN || y === UNKNOWN || z === UNKNOWN ? UNKNOWN : NOT_MET;
+          break;
+        }
+        case 10: // OP_AGE
+          s = years >= from[n] && years < below[n] ? MET : NOT_MET;
+          break;
+        case 11: { // OP_ROOM_AIR_SPO2_BELOW
+          // On oxygen the reading is not a room-air one (see compile-criteria.ts).
+          const spo2 = f.spo2, roomAir = f.roomAir;
+          s = roomAir === NOT_MET || spo2 >= t[n] ? NOT_MET : spo2 !== spo2 || roomAir !== MET ? UNKNOWN : MET;
+          break;
+        }
+        case 12: { // OP_PREGNANCY_ABOVE
+          const weeks = f.pregnancyWeeks;
+          s = weeks === weeks ? (weeks > t[n] ? MET : NOT_MET) : f.sex === 'male' || years < 10 || years >= 60 ? NOT_MET : UNKNOWN;
+          break;
+        }
+        case 1: // OP_FINDING
+          s = (f.findings & a[n]) !== 0 ? MET : NOT_MET;
+          break;
+        case 2: // OP_CONSIDERATION
+          s = (f.considerations & a[n]) !== 0 ? MET : NOT_MET;
+          break;
+        case 13: // OP_ALL
+        case 14: { // OP_ANY
+          // Join the last a[n] states: "all" is not met by one not met, "any" met by one met.
+          const all = op[n] === 13;
+          const decides = all ? NOT_MET : MET;
+          s = all ? MET : NOT_MET;
+          for (let k = depth - a[n]; k < depth; k++) {
+            const part = pending[k];
+            if (part === decides) { s = decides; break; }
+            if (part === UNKNOWN) s = UNKNOWN;
+          }
+          depth -= a[n];
+          break;
+        }
+        default:
+          throw new Error(`unknown step ${op[n]}`);
+      }
+      const i = root[n];
+      if (i < 0) {
+        pending[depth++] = s;
+      } else if (s === MET) {
+        if (i < setCount && tierRank[i] > risk) risk = tierRank[i];
+        if (firstRule[i] < matched) matched = firstRule[i];
+        met[metCount++] = i;
+      } else if (s === UNKNOWN) {
+        unknownMissing[unknownCount] = members[i].missing(f);
+        unknown[unknownCount++] = i;
+      }
+    }
+    out[0] = risk; out[1] = matched; out[2] = metCount; out[3] = unknownCount;
+  };
+}
+
 /** The input is trusted to have passed ClinicalInput; parse at the boundary, not here. */
 export function evaluate(input: ClinicalInput, options: EvaluateOptions = {}): Evaluation {
   const set = options.set ?? defaultSet;
   const plan = planFor(set, options.policy ?? defaultPolicy);
   const f = read(input, facts);
-  const { members, about, op, a, b, c, t, t2, perYear, from, below, root, tierRank, setCount, firstRule, met, unknown, pending } = plan;
-  const lo = f.lo, hi = f.hi, years = f.years, flags = f.flags;
+  const { members, about, tierRank, setCount, firstRule, met, unknown, unknownMissing, out } = plan;
 
   // One pass over the steps: the field risk, the first rule with a met member (the lowest
   // firstRule among them) and the met and unknown members for the two lists below.
-  let risk = 0;
-  let matched = plan.ruleLevel.length;
-  let metCount = 0, unknownCount = 0, depth = 0;
-  const run = stepRunner.straightLine ? plan.run : null;
-  if (run !== null) {
-    const out = plan.out;
-    run(lo, hi, years, flags, f, met, unknown, plan.unknownMissing, out);
-    risk = out[0]; matched = out[1]; metCount = out[2]; unknownCount = out[3];
-  } else for (let n = 0; n < op.length; n++) {
-    let s: number;
-    switch (op[n]) {
-      case 3: // OP_FLAG
-        s = flags[a[n]];
-        break;
-      case 4: { // OP_BELOW
-        if (years < from[n] || years >= below[n]) { s = NOT_MET; break; }
-        const q = a[n], threshold = t[n] + perYear[n] * years;
-        s = hi[q] < threshold ? MET : lo[q] >= threshold ? NOT_MET : UNKNOWN;
-        break;
-      }
-      case 5: { // OP_ABOVE
-        if (years < from[n] || years >= below[n]) { s = NOT_MET; break; }
-        const q = a[n];
-        s = lo[q] > t[n] ? MET : hi[q] <= t[n] ? NOT_MET : UNKNOWN;
-        break;
-      }
-      case 6: { // OP_AT_MOST
-        if (years < from[n] || years >= below[n]) { s = NOT_MET; break; }
-        const q = a[n];
-        s = hi[q] <= t[n] ? MET : lo[q] > t[n] ? NOT_MET : UNKNOWN;
-        break;
-      }
-      case 7: { // OP_EXCEEDS
-        if (years < from[n] || years >= below[n]) { s = NOT_MET; break; }
-        const x = a[n], y = b[n];
-        s = lo[x] > hi[y] ? MET : hi[x] <= lo[y] ? NOT_MET : UNKNOWN;
-        break;
-      }
-      case 8: { // OP_OUTSIDE
-        const q = a[n];
-        s = hi[q] < t[n] || lo[q] > t2[n] ? MET : lo[q] >= t[n] && hi[q] <= t2[n] ? NOT_MET : UNKNOWN;
-        break;
-      }
-      case 9: { // OP_ANY_FLAG
-        const x = flags[a[n]], y = flags[b[n]], z = flags[c[n]];
-        s = x === MET || y === MET || z === MET ? MET : x === UNKNOWN || y === UNKNOWN || z === UNKNOWN ? UNKNOWN : NOT_MET;
-        break;
-      }
-      case 10: // OP_AGE
-        s = years >= from[n] && years < below[n] ? MET : NOT_MET;
-        break;
-      case 11: { // OP_ROOM_AIR_SPO2_BELOW
-        // On oxygen the reading is not a room-air one (see compile-criteria.ts).
-        const spo2 = f.spo2, roomAir = f.roomAir;
-        s = roomAir === NOT_MET || spo2 >= t[n] ? NOT_MET : spo2 !== spo2 || roomAir !== MET ? UNKNOWN : MET;
-        break;
-      }
-      case 12: { // OP_PREGNANCY_ABOVE
-        const weeks = f.pregnancyWeeks;
-        s = weeks === weeks ? (weeks > t[n] ? MET : NOT_MET) : f.sex === 'male' || years < 10 || years >= 60 ? NOT_MET : UNKNOWN;
-        break;
-      }
-      case 1: // OP_FINDING
-        s = (f.findings & a[n]) !== 0 ? MET : NOT_MET;
-        break;
-      case 2: // OP_CONSIDERATION
-        s = (f.considerations & a[n]) !== 0 ? MET : NOT_MET;
-        break;
-      case 13: // OP_ALL
-      case 14: { // OP_ANY
-        // Join the last a[n] states: "all" is not met by one not met, "any" met by one met.
-        const all = op[n] === 13;
-        const decides = all ? NOT_MET : MET;
-        s = all ? MET : NOT_MET;
-        for (let k = depth - a[n]; k < depth; k++) {
-          const part = pending[k];
-          if (part === decides) { s = decides; break; }
-          if (part === UNKNOWN) s = UNKNOWN;
-        }
-        depth -= a[n];
-        break;
-      }
-      default:
-        throw new Error(`unknown step ${op[n]}`);
-    }
-    const i = root[n];
-    if (i < 0) {
-      pending[depth++] = s;
-    } else if (s === MET) {
-      if (i < setCount && tierRank[i] > risk) risk = tierRank[i];
-      if (firstRule[i] < matched) matched = firstRule[i];
-      met[metCount++] = i;
-    } else if (s === UNKNOWN) {
-      unknown[unknownCount++] = i;
-    }
-  }
+  const run = stepRunner.straightLine && plan.generated !== null ? plan.generated : plan.loop;
+  run(f.lo, f.hi, f.years, f.flags, f, met, unknown, unknownMissing, out);
+  let risk = out[0], matched = out[1], metCount = out[2];
+  const unknownCount = out[3];
   // Lone findings and considerations are known when absent (an empty list is "none"), so they
   // are only ever met or not met, and none is met when the input lists none.
   for (let g = 0; g < 2; g++) {
@@ -354,7 +363,7 @@ export function evaluate(input: ClinicalInput, options: EvaluateOptions = {}): E
   let missingBits = 0;
   for (let k = 0; k < unknownCount; k++) {
     const i = unknown[k];
-    if ((i < setCount && tierRank[i] > risk) || firstRule[i] < matched) missingBits |= run !== null ? plan.unknownMissing[k] : members[i].missing(f);
+    if ((i < setCount && tierRank[i] > risk) || firstRule[i] < matched) missingBits |= unknownMissing[k];
   }
   const missing: MissingInput[] = [];
   // Lowest bit first, which is MISSING_INPUTS order.
