@@ -10,7 +10,7 @@ import { measureBareEcho } from './bare-echo';
 import { defaultLoadOptions, runLoad } from './load';
 import { measureMemory } from './memory';
 import { repoRoot } from './support/child-server';
-import { measureEvaluateRate } from './support/evaluate-rate';
+import { measureEvaluateRateApart } from './support/evaluate-rate';
 
 const json = process.argv.includes('--json');
 const LIMIT_MS = 5 * 60_000;
@@ -58,8 +58,8 @@ async function main(): Promise<void> {
     payload: load.sampleSummary,
   });
   log(`bare echo: p50 ${bare.p50Ms} ms, p99 ${bare.p99Ms} ms over ${bare.samples} receipts`);
-  const evaluate = measureEvaluateRate();
-  log(`evaluate: ${evaluate.perSecond.toLocaleString('en')}/s`);
+  const evaluate = await measureEvaluateRateApart();
+  log(evaluate ? `evaluate: ${evaluate.perSecond.toLocaleString('en')}/s` : 'evaluate: the measuring process gave no figure; reported as null');
   const memory = await measureMemory({ sockets: 1000, log });
   // Last, in what is left of the time limit: a figure that does not come in time is null.
   const report = await measureReport(LIMIT_MS - (Date.now() - started) - 15_000);
@@ -109,7 +109,7 @@ async function main(): Promise<void> {
       duplicated: load.duplicated <= TARGETS.duplicated,
       auditChain: load.auditChain.ok,
       p99WithinThreeTimesBare: p99Ms != null && bare.p99Ms != null && p99Ms <= TARGETS.p99OverBare * bare.p99Ms,
-      evaluate: evaluate.perSecond >= TARGETS.evaluatePerSecond,
+      evaluate: evaluate ? evaluate.perSecond >= TARGETS.evaluatePerSecond : null,
       report: report ? report.ms <= TARGETS.reportMs : null,
       rss: memory.rssMb <= TARGETS.rssMb,
     },
@@ -128,7 +128,7 @@ Realtime  ${r.ambulances} ambulances, ${r.boards} boards at ${r.hospitals} EDs, 
           audit chain ${r.auditChain.ok ? 'verifies' : `BROKEN at row ${r.auditChain.brokenAt}`} over ${r.auditChain.rows} rows
           ${r.drops} connections cut, ${r.restarts} server restarts (${r.restartKinds.join(', ')}), ${r.resent} resends
           emit → board p50 ${r.p50Ms} ms, p99 ${r.p99Ms} ms; bare socket.io p50 ${r.bareP50Ms} ms, p99 ${r.bareP99Ms} ms (×${r.p99OverBare})
-Evaluate  ${result.evaluate.perSecond.toLocaleString('en')} evaluations/s on one core
+Evaluate  ${result.evaluate ? `${result.evaluate.perSecond.toLocaleString('en')} evaluations/s on one core` : 'not measured (the measuring process gave no figure)'}
 Report    ${result.report ? `${result.report.cases.toLocaleString('en')} cases in ${result.report.ms} ms` : 'not measured (tests/bench/quality-report.ts gave no figure)'}
 Memory    ${result.memory.sockets} sockets, ${result.memory.rssMb} MB resident
 Targets   ${Object.entries(result.targets).map(([k, v]) => `${k} ${v === null ? 'n/a' : v ? 'met' : 'MISSED'}`).join(', ')}
