@@ -20,6 +20,34 @@ const migrationSource: Knex.MigrationSource<string> = {
   },
 };
 
+export interface SqliteConnection {
+  pragma(sql: string): unknown;
+  prepare(sql: string): unknown;
+}
+
+/**
+ * Knex prepares every query's SQL anew, and SQLite spends more on preparing a small statement
+ * than on running it. Statements are kept per connection by their SQL text, at most `size` of
+ * them, the least recently used going first. Knex runs a statement to its end with all() or run()
+ * before the next one starts, so a kept statement is never in use twice; SQLite prepares a kept
+ * statement again by itself after a schema change.
+ */
+export function keepStatements(conn: SqliteConnection, size = 500): void {
+  const prepare = conn.prepare.bind(conn);
+  const kept = new Map<string, unknown>();
+  conn.prepare = (sql: string) => {
+    let statement = kept.get(sql);
+    if (statement === undefined) {
+      statement = prepare(sql);
+      if (kept.size >= size) kept.delete(kept.keys().next().value!);
+    } else {
+      kept.delete(sql);
+    }
+    kept.set(sql, statement);
+    return statement;
+  };
+}
+
 export function createDb(filename: string): Db {
   return knex({
     client: 'better-sqlite3',
@@ -28,12 +56,13 @@ export function createDb(filename: string): Db {
     pool: {
       min: 1,
       max: 1,
-      afterCreate(conn: { pragma(sql: string): unknown }, done: (err: Error | null, conn: unknown) => void) {
+      afterCreate(conn: SqliteConnection, done: (err: Error | null, conn: unknown) => void) {
         // WAL lets readers go on while a pre-alert is written; foreign keys are off by default in SQLite.
         conn.pragma('journal_mode = WAL');
         conn.pragma('synchronous = NORMAL');
         conn.pragma('foreign_keys = ON');
         conn.pragma('busy_timeout = 5000');
+        keepStatements(conn);
         done(null, conn);
       },
     },
