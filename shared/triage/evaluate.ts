@@ -58,9 +58,9 @@ interface Plan {
    */
   about: Omit<FiredCriterion, 'because'>[];
   /**
-   * The steps of the members `loop` lists, one after another, as columns (see compile-criteria.ts):
-   * every member but a lone finding or consideration, which are tested only when the input lists
-   * any. `root[n]` is the member whose last step is n, −1 for a step inside a member.
+   * The steps of every member but a lone finding or consideration (those are tested only when
+   * the input lists any), one member after another, as columns (see compile-criteria.ts).
+   * `root[n]` is the member whose last step is n, −1 for a step inside a member.
    */
   op: Uint8Array;
   a: Int32Array;
@@ -75,8 +75,6 @@ interface Plan {
   /** The same steps as one function with constants, where the engine allows making one, and as the step loop. */
   generated: StraightLine | null;
   loop: StraightLine;
-  out: Int32Array;
-  unknownMissing: Int32Array;
   /** Lone findings and considerations: the members and their bits. */
   findingMembers: Int32Array;
   findingBits: Int32Array;
@@ -90,9 +88,15 @@ interface Plan {
   /** The policy's display name of each rule's level, then of none. */
   ruleName: string[];
   policyRef: Evaluation['policy'];
-  /** Scratch: the members met and the members unknown in one evaluation, and the states of steps not yet joined. */
+  /**
+   * Scratch for one evaluation: the members met, the members unknown and their missing inputs,
+   * the runner's four counts (risk, matched rule, met, unknown), and the step loop's states of
+   * steps not yet joined.
+   */
   met: Int32Array;
   unknown: Int32Array;
+  unknownMissing: Int32Array;
+  out: Int32Array;
   pending: Uint8Array;
 }
 

@@ -1,3 +1,5 @@
+// A plan's steps (compile-criteria.ts) written out as the text of one JavaScript function, made
+// once per plan where the engine allows code to be made at run time; see evaluate.ts.
 import * as compiled from './compile-criteria';
 import type { Step } from './compile-criteria';
 import type { Facts } from './facts';
@@ -74,7 +76,10 @@ interface Value {
   missing: string;
 }
 
-/** `steps` collects the steps the code reads missing inputs of; `at` is the name of that list. */
+/**
+ * One member's steps as a block of constants and comparisons. `steps` collects the steps whose
+ * missing inputs the code asks stepMissing() for at run time, by their place in that list.
+ */
 function memberCode(m: LineMember, rules: number, steps: Step[]): string {
   const lines: string[] = [];
   const stack: Value[] = [];

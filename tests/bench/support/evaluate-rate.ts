@@ -7,6 +7,7 @@ import { spawn } from 'node:child_process';
 import { fileURLToPath } from 'node:url';
 import type { ClinicalInput } from '../../../shared/schemas/clinical';
 import { evaluate } from '../../../shared/triage/evaluate';
+import { repoRoot } from './child-server';
 import { engineTraffic } from './engine-traffic';
 
 const cpuMs = () => {
@@ -33,7 +34,7 @@ export function measureEvaluateRate(budgetMs = 1000): { perSecond: number } {
 
 /** The same measurement in a child process; null when it gives no figure within the time. */
 export async function measureEvaluateRateApart(timeoutMs = 60_000): Promise<{ perSecond: number } | null> {
-  const child = spawn(process.execPath, ['--import', 'tsx', fileURLToPath(import.meta.url)], { stdio: ['ignore', 'pipe', 'inherit'] });
+  const child = spawn(process.execPath, ['--import', 'tsx', fileURLToPath(import.meta.url)], { cwd: repoRoot, stdio: ['ignore', 'pipe', 'inherit'] });
   let out = '';
   child.stdout.setEncoding('utf8').on('data', (chunk: string) => (out += chunk));
   const timer = setTimeout(() => child.kill('SIGKILL'), timeoutMs);
