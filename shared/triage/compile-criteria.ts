@@ -181,9 +181,22 @@ function isPlain(q: Quantity, i: number, f: Facts): boolean {
   return true;
 }
 
+/**
+ * A fall height in metres and feet, with places enough not to read the same as the threshold it
+ * is compared with: "fall 6.1 m (20.01 ft) > 6.096 m (20 ft)", not "(20 ft) > (20 ft)" [ours].
+ */
+function heightText(v: number, threshold?: number): string {
+  if (v === 0) return 'fall from standing (0 m)';
+  let m = 3, ft = 1;
+  if (threshold !== undefined && v !== threshold) {
+    while (m < 6 && fmt(v, m) === fmt(threshold, m)) m++;
+    while (ft < 4 && fmt(v / 0.3048, ft) === fmt(threshold / 0.3048, ft)) ft++;
+  }
+  return `fall ${fmt(v, m)} m (${fmt(v / 0.3048, ft)} ft)`;
+}
+
 function plainText(q: Quantity, v: number): string {
-  if (q === 'heightM') return v === 0 ? 'fall from standing (0 m)' : `fall ${fmt(v, 3)} m (${fmt(v / 0.3048)} ft)`;
-  return `${LABEL[q]} ${fmt(v)}`;
+  return q === 'heightM' ? heightText(v) : `${LABEL[q]} ${fmt(v)}`;
 }
 
 /** The value as recorded, or the bound that decided the comparison when only a range is known. */
@@ -224,8 +237,8 @@ const PLAIN: ((v: number) => string)[] = [];
 for (const [q, i] of Object.entries(QUANTITY_INDEX)) PLAIN[i] = textsByValue((v) => plainText(q as Quantity, v));
 
 /** A comparison's explanation: the value and the fixed tail (" < 90"), kept per value when the value alone is the text. */
-function comparisonText(q: Quantity, i: number, bound: 'lo' | 'hi', tail: string): (f: Facts) => string {
-  const byValue = textsByValue((v) => plainText(q, v) + tail);
+function comparisonText(q: Quantity, i: number, bound: 'lo' | 'hi', tail: string, threshold: number): (f: Facts) => string {
+  const byValue = textsByValue((v) => (q === 'heightM' ? heightText(v, threshold) : plainText(q, v)) + tail);
   return (f) => (isPlain(q, i, f) ? byValue(f.lo[i]) : valueText(q, i, f, bound) + tail);
 }
 
@@ -302,7 +315,7 @@ export function compileCondition(c: Condition): CompiledCondition {
       const base = c.value;
       const perYear = c.perYearOfAge ?? 0;
       // The constant tail of the explanation is joined once, here, not per explanation.
-      const fixed = comparisonText(c.quantity, i, 'hi', ` < ${thresholdText(c)}`);
+      const fixed = comparisonText(c.quantity, i, 'hi', ` < ${thresholdText(c)}`, c.value);
       return {
         test: (f) => belowState(f, i, base + perYear * f.years),
         explain: (f) => {
@@ -316,7 +329,7 @@ export function compileCondition(c: Condition): CompiledCondition {
     case 'above': {
       const i = QUANTITY_INDEX[c.quantity];
       const t = c.value;
-      const explain = comparisonText(c.quantity, i, 'lo', ` > ${thresholdText(c)}`);
+      const explain = comparisonText(c.quantity, i, 'lo', ` > ${thresholdText(c)}`, c.value);
       return {
         test: (f) => aboveState(f, i, t),
         explain,
@@ -326,7 +339,7 @@ export function compileCondition(c: Condition): CompiledCondition {
     case 'at-most': {
       const i = QUANTITY_INDEX[c.quantity];
       const t = c.value;
-      const explain = comparisonText(c.quantity, i, 'hi', ` ≤ ${thresholdText(c)}`);
+      const explain = comparisonText(c.quantity, i, 'hi', ` ≤ ${thresholdText(c)}`, c.value);
       return {
         test: (f) => (f.hi[i] <= t ? MET : f.lo[i] > t ? NOT_MET : UNKNOWN),
         explain,

@@ -127,6 +127,13 @@ describe('2021 field triage: falls and special considerations', () => {
     const above = evaluate(patient({ fall: { heightM: 3.049 } })).criteria[0];
     expect(above.id).toBe('field-2021:fall-above-10-ft');
     expect(above.nemsis).toEqual({ element: 'eInjury.04', code: '2904031' });
+    // Just over the threshold the feet get the places that tell them apart from it [ours]:
+    // 3.049 m / 0.3048 = 10.0033 ft and 6.1 m / 0.3048 = 20.013 ft, worked by hand.
+    expect(above.because).toBe('fall 3.049 m (10.003 ft) > 3.048 m (10 ft)');
+    const twenty = evaluate(patient({ fall: { heightM: 6.1 } })).criteria.find((c) => c.id === 'policy:fall-above-20-ft');
+    expect(twenty?.because).toBe('fall 6.1 m (20.01 ft) > 6.096 m (20 ft)');
+    // Away from it, one place as before: 4 m = 13.12 ft.
+    expect(evaluate(patient({ fall: { heightM: 4 } })).criteria[0].because).toBe('fall 4 m (13.1 ft) > 3.048 m (10 ft)');
   });
 
   it('a fall typed as 10 ft is exactly 3.048 m and does not fire; 11 ft does', () => {
