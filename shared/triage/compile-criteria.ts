@@ -258,26 +258,9 @@ const QUANTITY_AT = Object.entries(QUANTITY_INDEX).sort((x, y) => x[1] - y[1]).m
 const FLAG_BIT_AT = Object.entries(FLAG_INDEX).sort((x, y) => x[1] - y[1]).map(([flag]) => FLAG_FIELD_BIT[flag as keyof typeof FLAG_FIELD_BIT]);
 
 /**
- * The missing inputs of one leaf step left unknown, as missing() of its condition gives them.
- * Only a step in the unknown state is asked.
- */
-export function stepMissing(s: Step, f: Facts): number {
-  switch (s.op) {
-    case OP_FLAG: return FLAG_BIT_AT[s.a];
-    case OP_BELOW: case OP_ABOVE: case OP_AT_MOST: case OP_OUTSIDE: return quantityMissing(QUANTITY_AT[s.a], s.a, f);
-    case OP_EXCEEDS: return quantityMissing(QUANTITY_AT[s.a], s.a, f) | quantityMissing(QUANTITY_AT[s.b], s.b, f);
-    case OP_ANY_FLAG:
-      return (f.flags[s.a] === UNKNOWN ? FLAG_BIT_AT[s.a] : 0) | (f.flags[s.b] === UNKNOWN ? FLAG_BIT_AT[s.b] : 0)
-        | (f.flags[s.c] === UNKNOWN ? FLAG_BIT_AT[s.c] : 0);
-    case OP_ROOM_AIR_SPO2_BELOW: return (f.spo2 !== f.spo2 ? BIT.spo2 : 0) | (f.roomAir === UNKNOWN ? BIT.roomAir : 0);
-    case OP_PREGNANCY_ABOVE: return BIT.pregnancy;
-    default: return 0;
-  }
-}
-
-/**
- * stepMissing() of a step when it is the same for every input that leaves the step unknown (a
- * flag, a vital sign that was not recorded, pregnancy), null when it depends on more.
+ * The missing inputs of a leaf step left unknown when they are the same for every input that
+ * leaves it unknown (a flag, a vital sign that was not recorded, pregnancy); null when they
+ * depend on more (GCS parts, SpO2 on room air, two quantities, several flags).
  */
 export function fixedStepMissing(s: Step): number | null {
   switch (s.op) {
@@ -290,6 +273,24 @@ export function fixedStepMissing(s: Step): number | null {
     case OP_PREGNANCY_ABOVE: return BIT.pregnancy;
     case OP_AGE: case OP_FINDING: case OP_CONSIDERATION: return 0;
     default: return null;
+  }
+}
+
+/**
+ * The missing inputs of one leaf step left unknown, as missing() of its condition gives them.
+ * Only a step in the unknown state is asked.
+ */
+export function stepMissing(s: Step, f: Facts): number {
+  const fixed = fixedStepMissing(s);
+  if (fixed !== null) return fixed;
+  switch (s.op) {
+    case OP_BELOW: case OP_ABOVE: case OP_AT_MOST: case OP_OUTSIDE: return quantityMissing(QUANTITY_AT[s.a], s.a, f);
+    case OP_EXCEEDS: return quantityMissing(QUANTITY_AT[s.a], s.a, f) | quantityMissing(QUANTITY_AT[s.b], s.b, f);
+    case OP_ANY_FLAG:
+      return (f.flags[s.a] === UNKNOWN ? FLAG_BIT_AT[s.a] : 0) | (f.flags[s.b] === UNKNOWN ? FLAG_BIT_AT[s.b] : 0)
+        | (f.flags[s.c] === UNKNOWN ? FLAG_BIT_AT[s.c] : 0);
+    case OP_ROOM_AIR_SPO2_BELOW: return (f.spo2 !== f.spo2 ? BIT.spo2 : 0) | (f.roomAir === UNKNOWN ? BIT.roomAir : 0);
+    default: return 0;
   }
 }
 
