@@ -129,7 +129,10 @@ export function straightLine(members: readonly LineMember[], rules: number): Str
   const source = `"use strict";\nreturn function straightLine(lo, hi, years, flags, f, met, unknown, unknownMissing, out) {\n${body}\n};`;
   try {
     return new Function('steps', 'stepMissing', source)(steps, compiled.stepMissing) as StraightLine;
-  } catch {
-    return null;
+  } catch (err) {
+    // Node.js started with --disallow-code-generation-from-strings refuses with an EvalError; any
+    // other error is a fault in the code made here, which must not hide behind the step loop.
+    if (err instanceof EvalError) return null;
+    throw err;
   }
 }

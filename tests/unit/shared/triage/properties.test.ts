@@ -7,7 +7,7 @@ import { EXAMPLE_POLICY, LEVEL_RANK } from '../../../../shared/triage/policy';
 import { CRITERIA_SETS, compiledCriterion } from '../../../../shared/triage/catalog';
 import { POLICY_CRITERIA } from '../../../../shared/triage/policy-criteria';
 import { TRI, createFacts, readFacts } from '../../../../shared/triage/facts';
-import { CAN_MAKE_CODE } from '../../../../shared/triage/straight-line';
+import { CAN_MAKE_CODE, straightLine } from '../../../../shared/triage/straight-line';
 
 const RISK_RANK = { none: 0, moderate: 1, high: 2 } as const;
 const orNull = <T>(arb: fc.Arbitrary<T>) => fc.option(arb, { nil: null });
@@ -130,6 +130,17 @@ describe('the evaluator’s steps read the criteria as their general form does',
   it('the step loop and the generated function are both used', () => {
     // Node.js can make code, so the tests run both; a result of each carries the same level.
     expect(CAN_MAKE_CODE).toBe(true);
+    // The generator makes a function for every criterion of both sets and the policy catalog.
+    const all = [...CRITERIA_SETS['field-2021'].criteria, ...CRITERIA_SETS['field-2011'].criteria, ...POLICY_CRITERIA];
+    const members = all.map((c, index) => ({ index, steps: compiledCriterion(c.id)!.steps, risk: 1, firstRule: 0 }));
+    const run = straightLine(members, 1);
+    expect(run).toBeTypeOf('function');
+    const facts = readFacts({ ageYears: 70, fall: { heightM: 0, headImpact: true }, vitals: { sbp: 100 }, findings: [] }, createFacts());
+    const met = new Int32Array(all.length), unknown = new Int32Array(all.length), out = new Int32Array(4);
+    run!(facts.lo, facts.hi, facts.years, facts.flags, facts, met, unknown, new Int32Array(all.length), out);
+    const expected = all.flatMap((c, i) => (compiledCriterion(c.id)!.test(facts) === TRI.MET ? [i] : []));
+    expect(Array.from(met.subarray(0, out[2]))).toEqual(expected);
+    expect(expected.length).toBeGreaterThan(0);
     const x: ClinicalInput = { ageYears: 70, fall: { heightM: 0, headImpact: true }, vitals: { sbp: 100 }, findings: [] };
     stepRunner.straightLine = false;
     const loop = evaluate(x);
