@@ -355,9 +355,9 @@ export function evaluate(input: ClinicalInput, options: EvaluateOptions = {}): E
   const activation: LevelId = matched < plan.ruleLevel.length ? plan.ruleLevel[matched] : 'none';
 
   const criteria: FiredCriterion[] = [];
+  // Members past the set's own are there because a rule names them, so every met member is reported.
   for (let k = 0; k < metCount; k++) {
     const i = met[k];
-    if (i >= setCount && about[i].calls === null) continue;
     const c = about[i];
     criteria.push({
       id: c.id, set: c.set, tier: c.tier, label: c.label, because: members[i].explain(f),
