@@ -50,6 +50,13 @@ const axeSource = readFileSync(require.resolve('axe-core/axe.min.js'), 'utf8');
 
 /** axe-core in the page (evaluated through the browser's protocol, so our strict CSP still holds). */
 export async function expectAccessible(page: Page, what: string): Promise<void> {
+  // A dialog still fading in has its text blended with the page behind it, which axe measures as
+  // too little contrast; let every animation and transition that ends run to its end first.
+  await page.evaluate(() =>
+    Promise.all(document.getAnimations()
+      .filter((a) => a.effect?.getComputedTiming().endTime !== Infinity)
+      .map((a) => a.finished.catch(() => undefined))),
+  );
   await page.evaluate(axeSource);
   const violations = await page.evaluate(async () => {
     const axe = (window as unknown as { axe: { run(ctx: Document, opts: unknown): Promise<{ violations: Array<{ id: string; impact: string; help: string; nodes: Array<{ target: string[] }> }> }> } }).axe;
