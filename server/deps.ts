@@ -4,6 +4,7 @@ import type { Logger } from 'pino';
 import type { Config } from './config';
 import type { Mailer } from './mail';
 import type { RealtimeServer } from './realtime';
+import type { CatchUpLane } from './realtime/catch-up';
 
 export interface Clock { now(): number }
 export const systemClock: Clock = { now: () => Date.now() };
@@ -20,4 +21,6 @@ export interface AppDeps {
   sessionMiddleware: RequestHandler;
   /** socket.io, for broadcasting to hospital and agency rooms after a change commits. */
   io: RealtimeServer;
+  /** Where reconnecting clients' catch-up work waits, behind pre-alerts (realtime/catch-up.ts). */
+  catchUp: CatchUpLane;
 }

@@ -11,6 +11,7 @@ import { createSessionMiddleware } from './auth/session';
 import { createLocalIdp } from './idp/provider';
 import { createMailer, type Mailer } from './mail';
 import { attachSocketFeatures, createRealtime, type RealtimeServer } from './realtime';
+import { catchUpLane } from './realtime/catch-up';
 import { socketFeatures } from './realtime/features';
 import { backgroundJobs } from './services/jobs';
 import { isEmpty, seedDemo } from './services/seed';
@@ -61,8 +62,9 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
 
   const mailer = opts.mailer ?? (await createMailer({ smtpUrl: config.smtpUrl, from: config.mailFrom, db, logger, clock }));
   const sessionMiddleware = createSessionMiddleware({ db, secret: config.sessionSecret, secure: publicUrl.startsWith('https://') });
-  const io = createRealtime({ httpServer: http, sessionMiddleware, db, logger, publicOrigin: new URL(publicUrl).origin });
-  const deps: AppDeps = { config, db, logger, clock, mailer, publicUrl, sessionMiddleware, io };
+  const catchUp = catchUpLane();
+  const io = createRealtime({ httpServer: http, sessionMiddleware, db, logger, publicOrigin: new URL(publicUrl).origin, catchUp });
+  const deps: AppDeps = { config, db, logger, clock, mailer, publicUrl, sessionMiddleware, io, catchUp };
   attachSocketFeatures(io, socketFeatures(deps));
 
   const idp = config.oidc.issuer

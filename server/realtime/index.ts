@@ -7,6 +7,7 @@ import type { Me } from '../../shared/roles';
 import { roomOfAgency, roomOfHospital, roomOfUser, type ClientToServerEvents, type ServerToClientEvents } from '../../shared/realtime/events';
 import { loadMe } from '../auth/guards';
 import { AppError } from '../errors';
+import type { CatchUpLane } from './catch-up';
 
 export interface SocketData { me: Me }
 export type RealtimeServer = Server<ClientToServerEvents, ServerToClientEvents, Record<string, never>, SocketData>;
@@ -34,6 +35,8 @@ export function createRealtime(opts: {
   db: Knex;
   logger: Logger;
   publicOrigin: string;
+  /** Sign-in checks of (re)connecting sockets wait here, so pre-alerts go first in a reconnect storm. */
+  catchUp: CatchUpLane;
 }): RealtimeServer {
   const io: RealtimeServer = new Server(opts.httpServer, {
     serveClient: false,
@@ -45,11 +48,11 @@ export function createRealtime(opts: {
       callback(null, origin === undefined || origin === opts.publicOrigin);
     },
   });
-  io.engine.use(opts.sessionMiddleware);
+  io.engine.use(opts.catchUp.wrap(opts.sessionMiddleware));
   io.use(async (socket, next) => {
     const request = socket.request as IncomingMessage & { session?: { userId?: number; claimedRoles?: Me['roles'] } };
     try {
-      const me = await loadMe(opts.db, request.session?.userId, request.session?.claimedRoles);
+      const me = await opts.catchUp.run(() => loadMe(opts.db, request.session?.userId, request.session?.claimedRoles));
       if (!me) return next(new Error('unauthenticated'));
       socket.data.me = me;
       next();

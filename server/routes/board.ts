@@ -6,7 +6,8 @@ import { requireRole, requireUser } from '../auth/guards';
 import { errorBody, parseOr400 } from '../errors';
 import { CaseIdParam } from './params';
 import { announceCase } from '../realtime/broadcast';
-import { actOnCase, boardSnapshot, CaseActionError } from '../services/board';
+import { actOnCase, boardSnapshotJson, CaseActionError } from '../services/board';
+import { sendJsonText } from './json-text';
 
 const BoardQuery = z.object({ hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }).optional() });
 const CaseId = CaseIdParam;
@@ -15,12 +16,13 @@ const CaseId = CaseIdParam;
 const boardReaders = ['charge_nurse', 'trauma_lead', 'admin'] as const;
 
 export function boardRouter(deps: AppDeps): Router {
-  const { db, clock, io } = deps;
+  const { db, clock, io, catchUp } = deps;
   const router = Router();
 
   router.get('/api/board', requireUser(db), requireRole(...boardReaders), async (req, res) => {
     const { hospitalId } = parseOr400(BoardQuery, req.query);
-    res.json(await boardSnapshot(db, clock, req.me!, hospitalId));
+    // Every board reloads after a connection that did not recover: in the catch-up lane, behind pre-alerts.
+    sendJsonText(res, await catchUp.run(() => boardSnapshotJson(db, clock, req.me!, hospitalId)));
   });
 
   const act = (action: BoardAction) => async (req: Request, res: Response, next: NextFunction) => {

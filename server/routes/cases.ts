@@ -5,7 +5,8 @@ import type { AppDeps } from '../deps';
 import { agencyIdsOf, hospitalIdsOf, requireRole, requireUser } from '../auth/guards';
 import { parseOr400 } from '../errors';
 import { CaseIdParam } from './params';
-import { caseEvents, caseForReader, caseRevisions, caseSummary, listCaseSummaries } from '../services/cases';
+import { caseEvents, caseForReader, caseRevisions, caseSummary, listCaseSummariesJson } from '../services/cases';
+import { sendJsonText } from './json-text';
 
 const CaseListQuery = z.object({ state: z.enum(['open', 'all']).default('open') });
 const CaseId = CaseIdParam;
@@ -13,13 +14,16 @@ const CaseId = CaseIdParam;
 // Crews read their agency's cases; ED staff read their hospital's. Writes go over the socket.
 const readers = ['paramedic', 'charge_nurse', 'trauma_lead', 'quality', 'admin'] as const;
 
-export function casesRouter({ db, clock }: AppDeps): Router {
+export function casesRouter({ db, clock, catchUp }: AppDeps): Router {
   const router = Router();
   router.get('/api/cases', requireUser(db), requireRole(...readers), async (req, res) => {
     const { state } = parseOr400(CaseListQuery, req.query);
     const me = req.me!;
-    const cases = await listCaseSummaries(db, { hospitalIds: hospitalIdsOf(me), agencyIds: agencyIdsOf(me), states: state === 'open' ? OPEN_STATES : undefined });
-    res.json({ cases, at: clock.now() });
+    // A board reloads after every reconnect: in the catch-up lane, behind pre-alerts.
+    await catchUp.run(async () => {
+      const cases = await listCaseSummariesJson(db, { hospitalIds: hospitalIdsOf(me), agencyIds: agencyIdsOf(me), states: state === 'open' ? OPEN_STATES : undefined });
+      sendJsonText(res, `{"cases":${cases},"at":${clock.now()}}`);
+    });
   });
   router.get('/api/cases/:id', requireUser(db), requireRole(...readers), async (req, res) => {
     const { id } = parseOr400(CaseId, req.params);

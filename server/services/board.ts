@@ -20,7 +20,7 @@ import type { Clock } from '../deps';
 import { AppError, conflict, forbidden, invalid, parseOr400 } from '../errors';
 import type { Mailer } from '../mail';
 import { recordCaseEvent, type Actor } from './audit';
-import { caseSummary, listCaseSummaries, loadCaseRow, type CaseActor } from './cases';
+import { caseSummary, listCaseSummariesJson, loadCaseRow, type CaseActor } from './cases';
 import { composePage, notificationList } from './paging';
 import { policyInForce } from './policies';
 
@@ -38,8 +38,11 @@ export interface BoardOutcome { summary: CaseSummary; change: CaseChange }
 const actorOf = (a: CaseActor): Actor => ({ id: a.me.user.id, role: a.role });
 const clockTime = (at: number) => dayjs(at).format('HH:mm');
 
-/** The hospital a board shows: the one asked for if it is the person's, else their first. */
-export async function boardSnapshot(db: Knex, clock: Clock, me: Me, hospitalId?: number): Promise<BoardSnapshot> {
+/**
+ * The hospital a board shows (the one asked for if it is the person's, else their first), as the
+ * JSON text of a BoardSnapshot: its cases are joined from the kept summary texts.
+ */
+export async function boardSnapshotJson(db: Knex, clock: Clock, me: Me, hospitalId?: number): Promise<string> {
   const mine = hospitalIdsOf(me);
   const id = hospitalId ?? mine[0];
   if (id === undefined) throw forbidden('You are not a member of any hospital.');
@@ -47,12 +50,12 @@ export async function boardSnapshot(db: Knex, clock: Clock, me: Me, hospitalId?:
   const at = clock.now();
   const hospital = await db('hospitals').where({ id }).first('id', 'name', 'height_unit', 'escalation_minutes');
   const policy = await policyInForce(db, id, at);
-  return {
+  const head = {
     hospital: { id: hospital.id, name: hospital.name, heightUnit: hospital.height_unit, escalationMinutes: hospital.escalation_minutes },
     levels: policy.levels.map((l) => ({ id: l.id, name: l.name })),
-    cases: await listCaseSummaries(db, { hospitalIds: [id], states: OPEN_STATES }),
-    at,
-  };
+  } satisfies Omit<BoardSnapshot, 'cases' | 'at'>;
+  const cases = await listCaseSummariesJson(db, { hospitalIds: [id], states: OPEN_STATES });
+  return `{"hospital":${JSON.stringify(head.hospital)},"levels":${JSON.stringify(head.levels)},"cases":${cases},"at":${at}}`;
 }
 
 /** The level names of the policy version that evaluated a case (its names may differ from today's). */

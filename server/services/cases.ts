@@ -2,7 +2,7 @@ import type { Knex } from 'knex';
 import type { Me, Role } from '../../shared/roles';
 import type { CaseCancel, CaseEventView, CaseRedirect, CaseState, CaseSummary, PreAlert, PreAlertUpdate } from '../../shared/schemas/cases';
 import type { ClinicalInput } from '../../shared/schemas/clinical';
-import { evaluate, type Evaluation } from '../../shared/triage/evaluate';
+import { evaluate, type Evaluation, type FieldRisk } from '../../shared/triage/evaluate';
 import { LEVEL_RANK, type LevelId } from '../../shared/triage/policy';
 import { agencyIdsOf, hospitalIdsOf } from '../auth/guards';
 import type { Clock } from '../deps';
@@ -15,7 +15,7 @@ const actorOf = (a: CaseActor): Actor => ({ id: a.me.user.id, role: a.role });
 
 interface CaseRow {
   id: number; case_number: string; client_id: string; agency_id: number; unit_id: number | null; hospital_id: number;
-  created_by: number; state: CaseState; current_revision: number; eta_at: number | null; field_risk: string;
+  created_by: number; state: CaseState; current_revision: number; eta_at: number | null; field_risk: FieldRisk;
   recommended_level: LevelId; level_rose: number | boolean; decided_level: LevelId | null; decided_reason: string | null;
   decided_by: number | null; decided_at: number | null; acknowledged_by: number | null; acknowledged_at: number | null;
   bay: string | null; paged_at: number | null; arrived_at: number | null; team_at_bedside_at: number | null;
@@ -311,15 +311,14 @@ async function parsedRevisions(db: Knex, wanted: Array<[caseId: number, revision
   return found;
 }
 
-/** Case summaries in arrival order (no ETA last), in three queries whatever the count (two once the revisions are cached). */
-export async function listCaseSummaries(db: Knex, filter: CaseFilter): Promise<CaseSummary[]> {
+/** The cases a filter selects, with the names a summary shows joined in, in arrival order (no ETA last). */
+function filteredCases(db: Knex, filter: CaseFilter): Knex.QueryBuilder {
   const query = db('cases as c')
     .join('hospitals as h', 'h.id', 'c.hospital_id')
     .join('agencies as a', 'a.id', 'c.agency_id')
     .leftJoin('units as u', 'u.id', 'c.unit_id')
     .leftJoin('users as ack', 'ack.id', 'c.acknowledged_by')
-    .leftJoin('users as dec', 'dec.id', 'c.decided_by')
-    .select('c.*', 'h.name as hospital_name', 'h.height_unit', 'a.name as agency_name', 'u.call_sign', 'ack.name as acknowledged_by_name', 'dec.name as decided_by_name');
+    .leftJoin('users as dec', 'dec.id', 'c.decided_by');
   if (filter.ids) query.whereIn('c.id', filter.ids);
   if (filter.states) query.whereIn('c.state', filter.states as CaseState[]);
   if (filter.hospitalIds || filter.agencyIds) {
@@ -328,8 +327,20 @@ export async function listCaseSummaries(db: Knex, filter: CaseFilter): Promise<C
       if (filter.agencyIds) w.orWhereIn('c.agency_id', filter.agencyIds);
     });
   }
-  query.orderByRaw('c.eta_at IS NULL, c.eta_at, c.created_at').limit(filter.limit ?? 500);
-  const rows = await query;
+  return query.orderByRaw('c.eta_at IS NULL, c.eta_at, c.created_at').limit(filter.limit ?? 500);
+}
+
+type ListedRow = CaseRow & {
+  hospital_name: string; height_unit: CaseSummary['hospital']['heightUnit']; agency_name: string;
+  /** Null only when unit_id is, and then no unit is shown. */
+  call_sign: string;
+  acknowledged_by_name: string | null; decided_by_name: string | null;
+};
+
+/** Case summaries in arrival order (no ETA last), in three queries whatever the count (two once the revisions are cached). */
+export async function listCaseSummaries(db: Knex, filter: CaseFilter): Promise<CaseSummary[]> {
+  const query = filteredCases(db, filter).select('c.*', 'h.name as hospital_name', 'h.height_unit', 'a.name as agency_name', 'u.call_sign', 'ack.name as acknowledged_by_name', 'dec.name as decided_by_name');
+  const rows = (await query) as ListedRow[];
   if (!rows.length) return [];
   const ids = rows.map((r) => r.id as number);
   const revisions = await db('case_revisions as r')
@@ -394,6 +405,58 @@ export async function caseSummary(db: Knex, caseId: number): Promise<CaseSummary
   const [summary] = await listCaseSummaries(db, { ids: [caseId] });
   if (!summary) throw notFound('That case');
   return summary;
+}
+
+// A board or crew screen reloads its open cases after every connection that did not recover
+// (a restart, a dropped link), and every screen of one hospital asks for the same list at about
+// the same moment. Each case's summary is kept here as JSON text, under a key made of everything
+// it shows that can change: the case row's row_version (every change to a case bumps it) and the
+// names joined into it (a renamed nurse, unit or hospital shows at once). A reload reads the keys
+// of the cases in view in one indexed query of a few columns, builds only the summaries whose key
+// moved, and joins the kept texts. The key is read from the database each time, so the cache
+// stays true with several server processes on one database. Revisions never change once written.
+const SUMMARY_TEXT_CACHE_SIZE = 5000;
+const summaryTexts = new WeakMap<Knex, Map<number, { key: string; text: string }>>();
+
+interface SummaryKeyRow {
+  id: number; row_version: number; hospital_name: string; height_unit: string; agency_name: string;
+  call_sign: string | null; ack_name: string | null; dec_name: string | null; by_name: string | null;
+}
+const summaryKeyOf = (r: SummaryKeyRow) => [r.row_version, r.hospital_name, r.height_unit, r.agency_name, r.call_sign, r.ack_name, r.dec_name, r.by_name].join('\u0000');
+
+/** The same cases as `listCaseSummaries`, in the same order, as one JSON array's text. */
+export async function listCaseSummariesJson(db: Knex, filter: CaseFilter): Promise<string> {
+  if (db.isTransaction) return JSON.stringify(await listCaseSummaries(db, filter));
+  let cache = summaryTexts.get(db);
+  if (!cache) summaryTexts.set(db, (cache = new Map()));
+  const keyRows = (await filteredCases(db, filter)
+    .leftJoin('case_revisions as r', function () {
+      this.on('r.case_id', '=', 'c.id').andOn('r.revision', '=', 'c.current_revision');
+    })
+    .leftJoin('users as by', 'by.id', 'r.created_by')
+    .select('c.id', 'c.row_version', 'h.name as hospital_name', 'h.height_unit', 'a.name as agency_name', 'u.call_sign', 'ack.name as ack_name', 'dec.name as dec_name', 'by.name as by_name')) as SummaryKeyRow[];
+  const keys = keyRows.map(summaryKeyOf);
+  const texts = keyRows.map((row, i) => {
+    const kept = cache.get(row.id);
+    return kept?.key === keys[i] ? kept.text : undefined;
+  });
+  const stale = keyRows.filter((_, i) => texts[i] === undefined).map((row) => row.id);
+  if (stale.length) {
+    const at = new Map(keyRows.map((row, i) => [row.id, i]));
+    for (let from = 0; from < stale.length; from += 500) {
+      const ids = stale.slice(from, from + 500);
+      for (const summary of await listCaseSummaries(db, { ids, limit: ids.length })) {
+        const i = at.get(summary.id)!;
+        texts[i] = JSON.stringify(summary);
+        // Changed between the two reads: served as it is now, kept only under its own key.
+        if (summary.rowVersion !== keyRows[i].row_version) continue;
+        cache.delete(summary.id);
+        cache.set(summary.id, { key: keys[i], text: texts[i]! });
+        if (cache.size > SUMMARY_TEXT_CACHE_SIZE) cache.delete(cache.keys().next().value!);
+      }
+    }
+  }
+  return `[${texts.filter((text) => text !== undefined).join(',')}]`;
 }
 
 export async function caseRevisions(db: Knex, caseId: number) {

@@ -213,7 +213,8 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
     const snapshot = async (board: Board) => {
       for (let attempt = 0; attempt < 40; attempt++) {
         try {
-          const res = await board.client.get('/api/cases');
+          // What the product's board reads on each such connection (src/stores/board.ts).
+          const res = await board.client.get(`/api/board?hospitalId=${board.hospitalId}`);
           if (res.ok) {
             const body = (await res.json()) as { cases: CaseSummary[] };
             snapshots++;

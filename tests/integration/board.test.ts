@@ -4,6 +4,8 @@ import type { CaseSummary } from '../../shared/schemas/cases';
 import type { BoardSnapshot } from '../../shared/schemas/board';
 import { hashPassword } from '../../server/auth/passwords';
 import { verifyAuditChain } from '../../server/services/audit';
+import { listCaseSummaries, listCaseSummariesJson } from '../../server/services/cases';
+import { OPEN_STATES } from '../../shared/schemas/cases';
 import { startTestServer, type TestServer } from '../support/server';
 import { signIn, type SignedInClient } from '../support/sign-in';
 import { command, connectAs, nextEvent, type TestSocket } from '../support/socket';
@@ -85,6 +87,52 @@ describe('the board snapshot', () => {
     const bad = await nurse.get('/api/board?hospitalId=abc');
     expect(bad.status).toBe(400);
     expect((await bad.json()).error.field).toBe('hospitalId');
+  });
+});
+
+describe('the kept summary texts behind a reload', () => {
+  const board = async () => (await (await nurse.get('/api/board')).json()) as BoardSnapshot;
+  const crewList = async () => ((await (await medic.get('/api/cases')).json()) as { cases: CaseSummary[] }).cases;
+
+  it('give the same cases, in the same order, as building every summary afresh', async () => {
+    const { agency } = await submit(ladderFall);
+    await submit(stumble);
+    await board(); // fills the texts
+    const kept = await board();
+    const fresh = await listCaseSummaries(server.db, { hospitalIds: [general], states: OPEN_STATES });
+    expect(kept.cases).toEqual(JSON.parse(JSON.stringify(fresh)));
+    expect(JSON.parse(await listCaseSummariesJson(server.db, { agencyIds: [agency.id], states: OPEN_STATES }))).toEqual(
+      JSON.parse(JSON.stringify(await listCaseSummaries(server.db, { agencyIds: [agency.id], states: OPEN_STATES }))),
+    );
+  });
+
+  it('show a change to the case at once, to the board and to the crew', async () => {
+    const summary = await submit(ladderFall);
+    await board();
+    await crewList();
+    const acked = await act(nurse, summary, 'acknowledge');
+    expect(acked.status).toBe(200);
+    const onBoard = (await board()).cases.find((c) => c.id === summary.id)!;
+    expect([onBoard.state, onBoard.acknowledgedBy, onBoard.rowVersion]).toEqual(['acknowledged', 'Morgan Achterberg', summary.rowVersion + 1]);
+    expect((await crewList()).find((c) => c.id === summary.id)?.state).toBe('acknowledged');
+  });
+
+  it('show a renamed nurse or hospital at once, though the case itself did not change', async () => {
+    const summary = await submit(ladderFall);
+    expect((await act(nurse, summary, 'acknowledge')).status).toBe(200);
+    await board();
+    const nurseId = (await server.db('users').where({ email: 'nurse@plumbline.test' }).first('id')).id;
+    const before = await server.db('users').where({ id: nurseId }).first('name');
+    try {
+      await server.db('users').where({ id: nurseId }).update({ name: 'Morgan Achterberg-Reyes' });
+      await server.db('hospitals').where({ id: general }).update({ name: 'Alderwick General Hospital (North)' });
+      const shown = (await board()).cases.find((c) => c.id === summary.id)!;
+      expect([shown.acknowledgedBy, shown.hospital.name]).toEqual(['Morgan Achterberg-Reyes', 'Alderwick General Hospital (North)']);
+    } finally {
+      await server.db('users').where({ id: nurseId }).update({ name: before.name });
+      await server.db('hospitals').where({ id: general }).update({ name: 'Alderwick General Hospital' });
+    }
+    expect((await board()).cases.find((c) => c.id === summary.id)!.acknowledgedBy).toBe(before.name);
   });
 });
 
