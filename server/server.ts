@@ -6,6 +6,7 @@ import type { ViteDevServer } from 'vite';
 import { createApp } from './app';
 import type { Config } from './config';
 import { createDb, migrate } from './db';
+import { startCheckpoints } from './db-checkpoints';
 import { systemClock, type AppDeps, type Clock } from './deps';
 import { createSessionMiddleware } from './auth/session';
 import { createLocalIdp } from './idp/provider';
@@ -50,6 +51,8 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
     await seedDemo(db, clock);
     logger.info('demo data loaded');
   }
+  // Off the event loop: a checkpoint's fsyncs no longer land inside a pre-alert's commit.
+  const checkpoints = opts.db ? null : await startCheckpoints(db, config.databaseFile, logger);
 
   const http = createServer();
   await new Promise<void>((resolve, reject) => {
@@ -108,6 +111,7 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
       http.closeAllConnections?.();
       await vite?.close();
       await mailer.close();
+      await checkpoints?.stop();
       if (!opts.db) await db.destroy();
     },
   };
