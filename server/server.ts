@@ -15,6 +15,7 @@ import { attachSocketFeatures, createRealtime, type RealtimeServer } from './rea
 import { catchUpLane } from './realtime/catch-up';
 import { socketFeatures } from './realtime/features';
 import { backgroundJobs } from './services/jobs';
+import { primeCaseLists } from './services/cases';
 import { isEmpty, seedDemo } from './services/seed';
 
 export interface RunningServer {
@@ -53,6 +54,9 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
   }
   // Off the event loop: a checkpoint's fsyncs no longer land inside a pre-alert's commit.
   const checkpoints = opts.db ? null : await startCheckpoints(db, config.databaseFile, logger);
+  // Before anyone can connect: the boards reloading after a restart find their cases ready.
+  const primed = await primeCaseLists(db);
+  if (primed) logger.info({ cases: primed }, 'open cases ready for the boards');
 
   const http = createServer();
   await new Promise<void>((resolve, reject) => {

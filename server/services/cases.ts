@@ -1,6 +1,6 @@
 import type { Knex } from 'knex';
 import type { Me, Role } from '../../shared/roles';
-import type { CaseCancel, CaseEventView, CaseRedirect, CaseState, CaseSummary, PreAlert, PreAlertUpdate } from '../../shared/schemas/cases';
+import { OPEN_STATES, type CaseCancel, type CaseEventView, type CaseRedirect, type CaseState, type CaseSummary, type PreAlert, type PreAlertUpdate } from '../../shared/schemas/cases';
 import type { ClinicalInput } from '../../shared/schemas/clinical';
 import { evaluate, type Evaluation, type FieldRisk } from '../../shared/triage/evaluate';
 import { LEVEL_RANK, type LevelId } from '../../shared/triage/policy';
@@ -426,7 +426,12 @@ const summaryKeyOf = (r: SummaryKeyRow) => [r.row_version, r.hospital_name, r.he
 
 /** The same cases as `listCaseSummaries`, in the same order, as one JSON array's text. */
 export async function listCaseSummariesJson(db: Knex, filter: CaseFilter): Promise<string> {
-  if (db.isTransaction) return JSON.stringify(await listCaseSummaries(db, filter));
+  return `[${(await caseSummaryTexts(db, filter)).join(',')}]`;
+}
+
+/** The same cases as `listCaseSummaries`, in the same order, each as its JSON text. */
+async function caseSummaryTexts(db: Knex, filter: CaseFilter): Promise<string[]> {
+  if (db.isTransaction) return (await listCaseSummaries(db, filter)).map((summary) => JSON.stringify(summary));
   let cache = summaryTexts.get(db);
   if (!cache) summaryTexts.set(db, (cache = new Map()));
   const keyRows = (await filteredCases(db, filter)
@@ -456,7 +461,19 @@ export async function listCaseSummariesJson(db: Knex, filter: CaseFilter): Promi
       }
     }
   }
-  return `[${texts.filter((text) => text !== undefined).join(',')}]`;
+  return texts.filter((text) => text !== undefined);
+}
+
+/**
+ * Fills the kept summary texts with every hospital's open cases, as a server starts: the boards
+ * and crews that reconnect after a restart then read them instead of building them while the
+ * first pre-alerts wait. Answers how many cases it read.
+ */
+export async function primeCaseLists(db: Knex): Promise<number> {
+  const hospitals = (await db('cases').whereIn('state', OPEN_STATES).distinct('hospital_id')) as Array<{ hospital_id: number }>;
+  let cases = 0;
+  for (const { hospital_id } of hospitals) cases += (await caseSummaryTexts(db, { hospitalIds: [hospital_id], states: OPEN_STATES })).length;
+  return cases;
 }
 
 export async function caseRevisions(db: Knex, caseId: number) {

@@ -70,6 +70,8 @@ export interface LoadResult {
   snapshots: number;
   p50Ms: number | null;
   p99Ms: number | null;
+  /** Pre-alerts that waited in an outbox, timed from their first send once the link was back. */
+  outbox: { samples: number; p50Ms: number | null; p99Ms: number | null };
   auditChain: { ok: boolean; rows: number; brokenAt?: number };
   latencySamples: number;
   summaryBytes: number;
@@ -84,6 +86,8 @@ interface Outgoing {
   clinical: ClinicalInput;
   attempts: number;
   lastEmitAt: number;
+  /** Made while its ambulance had no link (the server restarting, a cut): it waited in the outbox. */
+  madeOffline: boolean;
   ack?: { caseId: number; caseNumber: string };
 }
 
@@ -100,6 +104,8 @@ interface Board {
   /** clientId → the case ids it was seen under and the highest revision seen. */
   seen: Map<string, { ids: Set<number>; revision: number }>;
   connectedAt: number;
+  /** Its first reload: a board is up once it shows its cases. */
+  loaded?: Promise<void>;
 }
 
 const now = () => performance.now();
@@ -157,6 +163,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
     let summaryCount = 0;
     let sampleSummary: CaseSummary | null = null;
     const latencies: number[] = [];
+    const outboxLatencies: number[] = [];
     const ambulances: Ambulance[] = [];
     const boards: Board[] = [];
     const idOfCase = new Map<number, string>();
@@ -203,8 +210,9 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
         entry = { ids: new Set(), revision: 0 };
         board.seen.set(summary.clientId, entry);
         // One clean attempt on a board that stayed connected: a latency sample. Deliveries across
-        // a cut or a restart are counted, not timed.
-        if (live && sent.attempts === 1 && board.connectedAt < sent.lastEmitAt) latencies.push(now() - sent.lastEmitAt);
+        // a cut or a restart are counted, not timed; a pre-alert that waited in an outbox through
+        // one is timed apart, from its first send on the restored link.
+        if (live && sent.attempts === 1 && board.connectedAt < sent.lastEmitAt) (sent.madeOffline ? outboxLatencies : latencies).push(now() - sent.lastEmitAt);
       }
       entry.ids.add(summary.id);
       entry.revision = Math.max(entry.revision, summary.revision);
@@ -244,7 +252,10 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
           }
           first = false;
           // The real board reloads the truth after every connection that did not recover its state.
-          if (!board.socket.recovered) void snapshot(board);
+          if (!board.socket.recovered) {
+            const reload = snapshot(board);
+            board.loaded ??= reload;
+          }
         });
         board.socket.on('case:submitted', (summary) => {
           summaryBytes += JSON.stringify(summary).length;
@@ -283,6 +294,8 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
       sockets.push(amb.socket);
     }
     await inBatches(sockets, 50, connected);
+    // The run starts with every board up: showing the cases it had, as at the start of a shift.
+    await Promise.all(boards.map((b) => b.loaded));
     log(`load: ${ambulances.length} ambulances and ${boards.length} boards connected`);
 
     // The schedule: a steady rate of sends; two restarts of the server process, the first a kill -9.
@@ -354,7 +367,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
       // Nothing to update yet (the link is down): this tick passes.
       if (alertsSent >= opts.alerts) continue;
       const amb = ambulances[Math.floor(random() * ambulances.length)];
-      const item: Outgoing = { clientId: randomUUID(), hospitalId: region.hospitals[alertsSent % region.hospitals.length].id, clinical: traffic.firstReport(), attempts: 0, lastEmitAt: 0 };
+      const item: Outgoing = { clientId: randomUUID(), hospitalId: region.hospitals[alertsSent % region.hospitals.length].id, clinical: traffic.firstReport(), attempts: 0, lastEmitAt: 0, madeOffline: !amb.socket.connected };
       alertsSent++;
       outgoing.set(item.clientId, item);
       amb.outbox.set(item.clientId, item);
@@ -412,6 +425,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
     }
 
     latencies.sort((a, b) => a - b);
+    outboxLatencies.sort((a, b) => a - b);
     return {
       ambulances: ambulances.length,
       boards: boards.length,
@@ -439,6 +453,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
       snapshots,
       p50Ms: round1(percentile(latencies, 50)),
       p99Ms: round1(percentile(latencies, 99)),
+      outbox: { samples: outboxLatencies.length, p50Ms: round1(percentile(outboxLatencies, 50)), p99Ms: round1(percentile(outboxLatencies, 99)) },
       latencySamples: latencies.length,
       summaryBytes: summaryCount ? Math.round(summaryBytes / summaryCount) : 0,
       sampleSummary,

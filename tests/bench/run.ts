@@ -98,6 +98,8 @@ async function main(): Promise<void> {
       snapshots: load.snapshots,
       hospitals: load.hospitals,
       latencySamples: load.latencySamples,
+      // Made while the ambulance had no link, timed from the first send once it was back.
+      outbox: load.outbox,
       bareSamples: bare.samples,
       durationS: load.durationS,
     },
@@ -128,6 +130,7 @@ Realtime  ${r.ambulances} ambulances, ${r.boards} boards at ${r.hospitals} EDs, 
           audit chain ${r.auditChain.ok ? 'verifies' : `BROKEN at row ${r.auditChain.brokenAt}`} over ${r.auditChain.rows} rows
           ${r.drops} connections cut, ${r.restarts} server restarts (${r.restartKinds.join(', ')}), ${r.resent} resends
           emit → board p50 ${r.p50Ms} ms, p99 ${r.p99Ms} ms; bare socket.io p50 ${r.bareP50Ms} ms, p99 ${r.bareP99Ms} ms (×${r.p99OverBare})
+          pre-alerts made offline, from their send on the restored link: p50 ${r.outbox.p50Ms} ms, p99 ${r.outbox.p99Ms} ms over ${r.outbox.samples} receipts
 Evaluate  ${result.evaluate ? `${result.evaluate.perSecond.toLocaleString('en')} evaluations/s on one core` : 'not measured (the measuring process gave no figure)'}
 Report    ${result.report ? `${result.report.cases.toLocaleString('en')} cases in ${result.report.ms} ms` : 'not measured (tests/bench/quality-report.ts gave no figure)'}
 Memory    ${result.memory.sockets} sockets, ${result.memory.rssMb} MB resident

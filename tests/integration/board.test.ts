@@ -4,7 +4,7 @@ import type { CaseSummary } from '../../shared/schemas/cases';
 import type { BoardSnapshot } from '../../shared/schemas/board';
 import { hashPassword } from '../../server/auth/passwords';
 import { verifyAuditChain } from '../../server/services/audit';
-import { listCaseSummaries, listCaseSummariesJson } from '../../server/services/cases';
+import { listCaseSummaries, listCaseSummariesJson, primeCaseLists } from '../../server/services/cases';
 import { OPEN_STATES } from '../../shared/schemas/cases';
 import { startTestServer, type TestServer } from '../support/server';
 import { signIn, type SignedInClient } from '../support/sign-in';
@@ -104,6 +104,13 @@ describe('the kept summary texts behind a reload', () => {
     expect(JSON.parse(await listCaseSummariesJson(server.db, { agencyIds: [agency.id], states: OPEN_STATES }))).toEqual(
       JSON.parse(JSON.stringify(await listCaseSummaries(server.db, { agencyIds: [agency.id], states: OPEN_STATES }))),
     );
+  });
+
+  it('are made for every open case as a server starts, and read the same as a build afresh', async () => {
+    await submit(stumble, fenmoor);
+    const open = await server.db('cases').whereIn('state', OPEN_STATES).count({ n: '*' });
+    expect(await primeCaseLists(server.db)).toBe(Number(open[0].n));
+    expect((await board()).cases).toEqual(JSON.parse(JSON.stringify(await listCaseSummaries(server.db, { hospitalIds: [general], states: OPEN_STATES }))));
   });
 
   it('show a change to the case at once, to the board and to the crew', async () => {
