@@ -17,7 +17,7 @@ import type { Logger } from 'pino';
 export interface Checkpoints {
   /** Stops the thread, and lets commits checkpoint again. */
   stop(): Promise<void>;
-  /** Asks for a checkpoint now and resolves with what it did (for tests). */
+  /** Asks for a checkpoint now; resolves with the next checkpoint's result (for tests). */
   now(): Promise<CheckpointResult>;
 }
 

@@ -19,7 +19,7 @@ export function casesRouter({ db, clock, catchUp }: AppDeps): Router {
   router.get('/api/cases', requireUser(db), requireRole(...readers), async (req, res) => {
     const { state } = parseOr400(CaseListQuery, req.query);
     const me = req.me!;
-    // A board reloads after every reconnect: in the catch-up lane, behind pre-alerts.
+    // A crew's screen reloads after every connection that did not recover: in the catch-up lane, behind pre-alerts.
     await catchUp.run(async () => {
       const cases = await listCaseSummariesJson(db, { hospitalIds: hospitalIdsOf(me), agencyIds: agencyIdsOf(me), states: state === 'open' ? OPEN_STATES : undefined });
       sendJsonText(res, `{"cases":${cases},"at":${clock.now()}}`);

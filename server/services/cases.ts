@@ -415,7 +415,8 @@ export async function caseSummary(db: Knex, caseId: number): Promise<CaseSummary
 // of the cases in view in one indexed query of a few columns, builds only the summaries whose key
 // moved, and joins the kept texts. The key is read from the database each time, so the cache
 // stays true with several server processes on one database. Revisions never change once written.
-const SUMMARY_TEXT_CACHE_SIZE = 5000;
+// Four times the longest list one reload reads (500): a region's open cases, about 3 kB each.
+const SUMMARY_TEXT_CACHE_SIZE = 2000;
 const summaryTexts = new WeakMap<Knex, Map<number, { key: string; text: string }>>();
 
 interface SummaryKeyRow {
