@@ -65,7 +65,7 @@ export function catchUpLane(concurrency = 2): CatchUpLane {
             }
           };
           // A handler that answers without calling next (a refusal) ends its turn when the response ends.
-          res.once?.('close', end);
+          res.once('close', end);
           try {
             handler(req, res, (err?: unknown) => {
               end();

@@ -449,17 +449,14 @@ async function caseSummaryTexts(db: Knex, filter: CaseFilter): Promise<string[]>
   const stale = keyRows.filter((_, i) => texts[i] === undefined).map((row) => row.id);
   if (stale.length) {
     const at = new Map(keyRows.map((row, i) => [row.id, i]));
-    for (let from = 0; from < stale.length; from += 500) {
-      const ids = stale.slice(from, from + 500);
-      for (const summary of await listCaseSummaries(db, { ids, limit: ids.length })) {
-        const i = at.get(summary.id)!;
-        texts[i] = JSON.stringify(summary);
-        // Changed between the two reads: served as it is now, kept only under its own key.
-        if (summary.rowVersion !== keyRows[i].row_version) continue;
-        cache.delete(summary.id);
-        cache.set(summary.id, { key: keys[i], text: texts[i]! });
-        if (cache.size > SUMMARY_TEXT_CACHE_SIZE) cache.delete(cache.keys().next().value!);
-      }
+    for (const summary of await listCaseSummaries(db, { ids: stale, limit: stale.length })) {
+      const i = at.get(summary.id)!;
+      texts[i] = JSON.stringify(summary);
+      // Changed between the two reads: served as it is now, and not kept under the older key.
+      if (summary.rowVersion !== keyRows[i].row_version) continue;
+      cache.delete(summary.id);
+      cache.set(summary.id, { key: keys[i], text: texts[i]! });
+      if (cache.size > SUMMARY_TEXT_CACHE_SIZE) cache.delete(cache.keys().next().value!);
     }
   }
   return texts.filter((text) => text !== undefined);
