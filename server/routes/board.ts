@@ -1,6 +1,6 @@
 import { Router, type NextFunction, type Request, type Response } from 'express';
 import { z } from 'zod';
-import { BOARD_ACTIONS, type BoardAction } from '../../shared/schemas/board';
+import { BOARD_ACTIONS, BOARD_CURSOR, type BoardAction } from '../../shared/schemas/board';
 import type { AppDeps } from '../deps';
 import { requireRole, requireUser } from '../auth/guards';
 import { errorBody, parseOr400 } from '../errors';
@@ -9,7 +9,10 @@ import { announceCase } from '../realtime/broadcast';
 import { actOnCase, boardSnapshotJson, CaseActionError } from '../services/board';
 import { sendJsonText } from './json-text';
 
-const BoardQuery = z.object({ hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }).optional() });
+const BoardQuery = z.object({
+  hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }).optional(),
+  changesSince: z.string({ error: 'must be the cursor of an earlier snapshot' }).regex(BOARD_CURSOR, { error: 'must be the cursor of an earlier snapshot' }).optional(),
+});
 const CaseId = CaseIdParam;
 
 // The ED's actions are the charge nurse's; the trauma lead and the administrator may watch the board.
@@ -20,9 +23,9 @@ export function boardRouter(deps: AppDeps): Router {
   const router = Router();
 
   router.get('/api/board', requireUser(db), requireRole(...boardReaders), async (req, res) => {
-    const { hospitalId } = parseOr400(BoardQuery, req.query);
+    const { hospitalId, changesSince } = parseOr400(BoardQuery, req.query);
     // Every board reloads after a connection that did not recover: in the catch-up lane, behind pre-alerts.
-    sendJsonText(res, await catchUp.run(() => boardSnapshotJson(db, clock, req.me!, hospitalId)));
+    sendJsonText(res, await catchUp.run(() => boardSnapshotJson(db, clock, req.me!, hospitalId, changesSince)));
   });
 
   const act = (action: BoardAction) => async (req: Request, res: Response, next: NextFunction) => {

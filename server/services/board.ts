@@ -11,6 +11,7 @@ import {
   type BoardActionBody,
   type BoardLevel,
   type BoardSnapshot,
+  BOARD_CURSOR,
 } from '../../shared/schemas/board';
 import { OPEN_STATES, type CaseSummary } from '../../shared/schemas/cases';
 import type { CaseChange } from '../../shared/realtime/events';
@@ -19,7 +20,7 @@ import { assertHospital, hospitalIdsOf } from '../auth/guards';
 import type { Clock } from '../deps';
 import { AppError, conflict, forbidden, invalid, parseOr400 } from '../errors';
 import type { Mailer } from '../mail';
-import { recordCaseEvent, type Actor } from './audit';
+import { GENESIS_HASH, recordCaseEvent, type Actor } from './audit';
 import { caseSummary, listCaseSummariesJson, loadCaseRow, type CaseActor } from './cases';
 import { composePage, notificationList } from './paging';
 import { policyInForce } from './policies';
@@ -38,11 +39,36 @@ export interface BoardOutcome { summary: CaseSummary; change: CaseChange }
 const actorOf = (a: CaseActor): Actor => ({ id: a.me.user.id, role: a.role });
 const clockTime = (at: number) => dayjs(at).format('HH:mm');
 
+/** A reload that would carry more changed cases than this gets the whole list instead. */
+const MOST_CHANGES = 500;
+const GENESIS_CURSOR = `0-${GENESIS_HASH.slice(0, 16)}`;
+
+/** The newest audit row: every change to a case writes one, in the same transaction, in commit order. */
+async function changeCursor(db: Knex): Promise<string> {
+  const last = await db('audit_log').orderBy('id', 'desc').first('id', 'hash');
+  return last ? `${last.id}-${String(last.hash).slice(0, 16)}` : GENESIS_CURSOR;
+}
+
+/**
+ * The cases changed after a cursor, or null when the cursor cannot say: its row is gone or holds
+ * another hash (the database was restored from a backup since), or too much changed since.
+ */
+async function casesChangedSince(db: Knex, cursor: string): Promise<number[] | null> {
+  const match = BOARD_CURSOR.exec(cursor);
+  if (!match) return null;
+  const after = Number(match[1]);
+  if (after === 0 ? cursor !== GENESIS_CURSOR : !String((await db('audit_log').where({ id: after }).first('hash'))?.hash ?? '').startsWith(match[2])) return null;
+  const rows = (await db('audit_log').where('id', '>', after).whereNotNull('case_id').distinct('case_id').limit(MOST_CHANGES + 1)) as Array<{ case_id: number }>;
+  return rows.length > MOST_CHANGES ? null : rows.map((r) => r.case_id);
+}
+
 /**
  * The hospital a board shows (the one asked for if it is the person's, else their first), as the
- * JSON text of a BoardSnapshot: its cases are joined from the kept summary texts.
+ * JSON text of a BoardSnapshot: its cases are joined from the kept summary texts. Given the cursor
+ * of the board's last snapshot, it holds only the open cases changed since, with the ids of all the
+ * open ones; when the cursor cannot say what changed, the whole list, as without one.
  */
-export async function boardSnapshotJson(db: Knex, clock: Clock, me: Me, hospitalId?: number): Promise<string> {
+export async function boardSnapshotJson(db: Knex, clock: Clock, me: Me, hospitalId?: number, changesSince?: string): Promise<string> {
   const mine = hospitalIdsOf(me);
   const id = hospitalId ?? mine[0];
   if (id === undefined) throw forbidden('You are not a member of any hospital.');
@@ -53,9 +79,19 @@ export async function boardSnapshotJson(db: Knex, clock: Clock, me: Me, hospital
   const head = {
     hospital: { id: hospital.id, name: hospital.name, heightUnit: hospital.height_unit, escalationMinutes: hospital.escalation_minutes },
     levels: policy.levels.map((l) => ({ id: l.id, name: l.name })),
-  } satisfies Omit<BoardSnapshot, 'cases' | 'at'>;
-  const cases = await listCaseSummariesJson(db, { hospitalIds: [id], states: OPEN_STATES });
-  return `{"hospital":${JSON.stringify(head.hospital)},"levels":${JSON.stringify(head.levels)},"cases":${cases},"at":${at}}`;
+  } satisfies Omit<BoardSnapshot, 'cases' | 'at' | 'cursor'>;
+  // The cursor is read first: whatever commits after it is in the next reload's changes.
+  const cursor = await changeCursor(db);
+  const start = `{"hospital":${JSON.stringify(head.hospital)},"levels":${JSON.stringify(head.levels)},"at":${at},"cursor":"${cursor}"`;
+  if (changesSince !== undefined) {
+    const openIds = (await db('cases').where({ hospital_id: id }).whereIn('state', OPEN_STATES).orderBy('id').limit(MOST_CHANGES).pluck('id')) as number[];
+    const changed = await casesChangedSince(db, changesSince);
+    if (changed) {
+      const cases = changed.length ? await listCaseSummariesJson(db, { ids: changed, hospitalIds: [id], states: OPEN_STATES }) : '[]';
+      return `${start},"changesSince":"${changesSince}","openIds":${JSON.stringify(openIds)},"cases":${cases}}`;
+    }
+  }
+  return `${start},"cases":${await listCaseSummariesJson(db, { hospitalIds: [id], states: OPEN_STATES })}}`;
 }
 
 /** The level names of the policy version that evaluated a case (its names may differ from today's). */

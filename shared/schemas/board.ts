@@ -95,7 +95,18 @@ export interface BoardSnapshot {
   cases: CaseSummary[];
   /** The server's clock, so countdowns on a wall screen with a wrong clock still read true. */
   at: number;
+  /** Where this snapshot stands in the record of changes; the next reload may ask for what changed since. */
+  cursor: string;
+  /**
+   * Present when the board asked for the changes since a cursor and got them: `cases` then holds
+   * only the open cases changed since, and `openIds` every case open now, so the board drops the rest.
+   */
+  changesSince?: string;
+  openIds?: number[];
 }
+
+/** A change cursor as the server writes it: the audit row's id, and the start of its hash. */
+export const BOARD_CURSOR = /^(\d{1,15})-([0-9a-f]{16})$/;
 
 /** A successful action: the case as it now stands. */
 export interface BoardActionResult { case: CaseSummary }

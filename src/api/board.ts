@@ -6,7 +6,14 @@ import type { CaseSummary } from '../../shared/schemas/cases';
 
 export type { BoardAction, BoardSnapshot, CaseSummary };
 
-export const getBoard = (hospitalId?: number) => apiGet<BoardSnapshot>(hospitalId === undefined ? '/api/board' : `/api/board?hospitalId=${encodeURIComponent(hospitalId)}`);
+/** The board's cases; given the cursor of the last snapshot, only what changed since (when the server can say). */
+export function getBoard(hospitalId?: number, changesSince?: string) {
+  const query = new URLSearchParams();
+  if (hospitalId !== undefined) query.set('hospitalId', String(hospitalId));
+  if (changesSince !== undefined) query.set('changesSince', changesSince);
+  const search = query.toString();
+  return apiGet<BoardSnapshot>(search ? `/api/board?${search}` : '/api/board');
+}
 
 export const getCaseSummary = async (id: number) => (await apiGet<{ case: CaseSummary }>(`/api/cases/${encodeURIComponent(id)}`)).case;
 

@@ -9,9 +9,11 @@ import type { CaseChange } from '../../shared/realtime/events';
 import type { LevelId } from '../../shared/triage/policy';
 
 // The board trusts the server, never its own memory: a snapshot over REST first, live events
-// after, and the snapshot again after every connection that did not recover its state, every
-// minute, and whenever the tab comes back into view. A case's rowVersion orders what arrives,
-// so an older copy never overwrites a newer one.
+// after, and the snapshot again every minute. After a connection that did not recover its state,
+// and when the tab comes back into view, it asks only for what changed since its last snapshot
+// (with the ids of every open case, so it drops the rest); when the server cannot say, or a case
+// it lists is not on the board, the whole snapshot. A case's rowVersion orders what arrives, so an
+// older copy never overwrites a newer one.
 
 /** Something the board should say out loud (a sound and an announcement). */
 export interface BoardAlert { kind: 'new' | 'rose'; caseId: number; caseNumber: string; level: LevelId; levelName: string; seq: number }
@@ -30,6 +32,8 @@ export const useBoardStore = defineStore('board', () => {
   const loading = ref(false);
   const loadError = ref<string | null>(null);
   const syncedAt = ref<number | null>(null);
+  /** Where the last snapshot stood in the server's record of changes. */
+  let cursor: string | null = null;
   /** Server time minus this device's time, so countdowns read true on a wall screen with a wrong clock. */
   const clockOffset = ref(0);
   const now = ref(Date.now());
@@ -88,22 +92,38 @@ export const useBoardStore = defineStore('board', () => {
     say(text);
   }
 
-  async function load(hospitalId?: number): Promise<void> {
+  /** Reloads the board; `changes` asks only for what changed since the last snapshot of the same hospital. */
+  async function load(hospitalId?: number, opts: { changes?: boolean } = {}): Promise<void> {
     const mine = ++generation;
     touchedDuringLoad = new Set();
     loading.value = true;
     try {
-      const snapshot = await api.getBoard(hospitalId ?? hospital.value?.id);
+      const wanted = hospitalId ?? hospital.value?.id;
+      const since = opts.changes && cursor && wanted === hospital.value?.id ? cursor : undefined;
+      const snapshot = await api.getBoard(wanted, since);
       if (mine !== generation) return;
       const switched = hospital.value?.id !== snapshot.hospital.id;
+      const next: Record<number, CaseSummary> = {};
+      if (snapshot.changesSince !== undefined && snapshot.openIds && !switched) {
+        const open = new Set(snapshot.openIds);
+        for (const held of Object.values(byId.value)) if (open.has(held.id)) next[held.id] = held;
+        for (const c of snapshot.cases) {
+          const held = next[c.id];
+          if (!held || held.rowVersion <= c.rowVersion) next[c.id] = c;
+        }
+        // A case open on the server that is neither held nor among the changes: the board lost
+        // track somewhere. The whole snapshot puts it right.
+        if (snapshot.openIds.some((id) => !next[id] && !touchedDuringLoad.has(id))) return await load(snapshot.hospital.id);
+      } else {
+        for (const c of snapshot.cases) {
+          const held = byId.value[c.id];
+          next[c.id] = held && !switched && held.rowVersion > c.rowVersion ? held : c;
+        }
+      }
       hospital.value = snapshot.hospital;
       levels.value = snapshot.levels;
       clockOffset.value = snapshot.at - Date.now();
-      const next: Record<number, CaseSummary> = {};
-      for (const c of snapshot.cases) {
-        const held = byId.value[c.id];
-        next[c.id] = held && !switched && held.rowVersion > c.rowVersion ? held : c;
-      }
+      cursor = snapshot.cursor;
       // A case announced while the snapshot was on its way is newer than the snapshot.
       for (const id of touchedDuringLoad) {
         const held = byId.value[id];
@@ -146,12 +166,12 @@ export const useBoardStore = defineStore('board', () => {
       socket.off('case:updated', onUpdated);
       socket.off('case:removed', onRemoved);
     });
-    const stopFresh: WatchStopHandle = watch(connection.freshConnections, () => void load());
+    const stopFresh: WatchStopHandle = watch(connection.freshConnections, () => void load(undefined, { changes: true }));
     stops.push(stopFresh);
     const tick = window.setInterval(() => (now.value = Date.now() + clockOffset.value), 1000);
     const reload = window.setInterval(() => void load(), RELOAD_EVERY_MS);
     const onVisible = () => {
-      if (document.visibilityState === 'visible') void load();
+      if (document.visibilityState === 'visible') void load(undefined, { changes: true });
     };
     document.addEventListener('visibilitychange', onVisible);
     stops.push(() => {

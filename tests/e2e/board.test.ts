@@ -151,6 +151,8 @@ describeInBrowser('the Inbound board in Chromium', () => {
     const page = nurse.page;
     const target = await server.db('cases').where({ state: 'arrived', hospital_id: general }).first('case_number', 'id', 'row_version');
     await card(target.case_number).waitFor();
+    // The reload after the restart asks only for what changed while the board was away.
+    const askedForChanges = page.waitForRequest((r) => r.url().includes('/api/board') && r.url().includes('changesSince='), { timeout: 30_000 });
     crew.close();
     await server.close();
     await expect.poll(() => page.getByText('Connection lost: reconnecting.', { exact: false }).count(), { timeout: 10_000 }).toBe(1);
@@ -176,6 +178,10 @@ describeInBrowser('the Inbound board in Chromium', () => {
 
     await expect.poll(() => card(answer.data.summary.caseNumber).count(), { timeout: 15_000 }).toBe(1);
     await expect.poll(() => card(target.case_number).count(), { timeout: 15_000 }).toBe(0);
+    await askedForChanges;
+    // Every case open at the hospital is on the board, and nothing else.
+    const open = await server.db('cases').where({ hospital_id: general }).whereIn('state', ['en-route', 'acknowledged', 'arrived']).pluck('case_number');
+    await expect.poll(async () => (await page.locator('article[data-case-number]').evaluateAll((cards) => cards.map((c) => c.getAttribute('data-case-number')))).sort(), { timeout: 15_000 }).toEqual([...open].sort());
     expect(await page.getByText('Connection lost', { exact: false }).count()).toBe(0);
     expect(errors.filter((e) => !/ERR_CONNECTION_REFUSED|net::|WebSocket|socket\.io/.test(e))).toEqual([]);
   });

@@ -90,6 +90,81 @@ describe('the board snapshot', () => {
   });
 });
 
+describe('a reload of the changes since a snapshot', () => {
+  const full = async () => (await (await nurse.get('/api/board')).json()) as BoardSnapshot;
+  const since = async (cursor: string) => {
+    const res = await nurse.get(`/api/board?changesSince=${encodeURIComponent(cursor)}`);
+    expect(res.status).toBe(200);
+    return (await res.json()) as BoardSnapshot;
+  };
+
+  it('holds only the open cases changed since, and the ids of every open case', async () => {
+    const before = await submit(ladderFall);
+    const leaving = await submit(stumble);
+    const first = await full();
+    expect(first.cursor).toMatch(/^\d+-[0-9a-f]{16}$/);
+    expect(first.changesSince).toBeUndefined();
+
+    const quiet = await since(first.cursor);
+    expect(quiet.changesSince).toBe(first.cursor);
+    expect(quiet.cases).toEqual([]);
+    expect(quiet.cursor).toBe(first.cursor);
+    expect([...quiet.openIds!].sort((a, b) => a - b)).toEqual(first.cases.map((c) => c.id).sort((a, b) => a - b));
+
+    const fresh = await submit(hypotensiveRoofer);
+    const acked = await act(nurse, before, 'acknowledge');
+    expect(acked.status).toBe(200);
+    const cancelled = await command(crew, 'case:cancel', { caseId: leaving.id, reason: 'Patient refused transport' });
+    expect(cancelled.ok).toBe(true);
+
+    const delta = await since(first.cursor);
+    expect(delta.cases.map((c) => c.id).sort((a, b) => a - b)).toEqual([before.id, fresh.id].sort((a, b) => a - b));
+    expect(delta.cases.find((c) => c.id === before.id)?.acknowledgedBy).toBe(acked.body.case.acknowledgedBy);
+    // The cancelled case is neither changed-and-open nor open: the board drops it.
+    expect(delta.openIds).toContain(fresh.id);
+    expect(delta.openIds).not.toContain(leaving.id);
+    expect(delta.cursor).not.toBe(first.cursor);
+    // Each changed case reads exactly as in the whole list.
+    const now = await full();
+    for (const c of delta.cases) expect(c).toEqual(now.cases.find((n) => n.id === c.id));
+    expect([...delta.openIds!].sort((a, b) => a - b)).toEqual(now.cases.map((c) => c.id).sort((a, b) => a - b));
+  });
+
+  it('drops a case redirected to another hospital from the open ids, without showing it', async () => {
+    const going = await submit(ladderFall);
+    const { cursor } = await full();
+    const answer = await command(crew, 'case:redirect', { caseId: going.id, hospitalId: fenmoor, reason: 'Road closed at the bridge' });
+    expect(answer.ok).toBe(true);
+    const delta = await since(cursor);
+    expect(delta.openIds).not.toContain(going.id);
+    expect(delta.cases.map((c) => c.id)).not.toContain(going.id);
+  });
+
+  it('gives the whole list when the cursor is not from this database, and names a malformed one', async () => {
+    const { cursor } = await full();
+    const id = cursor.split('-')[0];
+    // Another copy of the record (a restored backup) has other hashes at the same row.
+    const foreign = await since(`${id}-0123456789abcdef`);
+    expect(foreign.changesSince).toBeUndefined();
+    expect(foreign.openIds).toBeUndefined();
+    const everything = await full();
+    expect(foreign.cases.map((c) => c.id)).toEqual(everything.cases.map((c) => c.id));
+    // A cursor beyond the newest row: the same.
+    expect((await since(`${Number(id) + 1000}-${cursor.split('-')[1]}`)).changesSince).toBeUndefined();
+    for (const bad of ['12', 'abc-def', `${id}-XYZ`, `-1-${cursor.split('-')[1]}`]) {
+      const res = await nurse.get(`/api/board?changesSince=${encodeURIComponent(bad)}`);
+      expect(res.status).toBe(400);
+      expect((await res.json()).error.field).toBe('changesSince');
+    }
+  });
+
+  it('keeps another hospital out, with or without a cursor', async () => {
+    const { cursor } = await full();
+    expect((await nurse.get(`/api/board?hospitalId=${fenmoor}&changesSince=${cursor}`)).status).toBe(403);
+    expect((await medic.get(`/api/board?changesSince=${cursor}`)).status).toBe(403);
+  });
+});
+
 describe('the kept summary texts behind a reload', () => {
   const board = async () => (await (await nurse.get('/api/board')).json()) as BoardSnapshot;
   const crewList = async () => ((await (await medic.get('/api/cases')).json()) as { cases: CaseSummary[] }).cases;

@@ -393,7 +393,7 @@ describe('query strings and route ids under random and hostile values', () => {
 
   const READS: Array<[string, SignedInClient | (() => SignedInClient), string[]]> = [
     ['/api/cases', () => nurse, ['state']],
-    ['/api/board', () => nurse, ['hospitalId']],
+    ['/api/board', () => nurse, ['hospitalId', 'changesSince']],
     ['/api/mail', () => admin, ['limit']],
     ['/api/policies', () => lead, ['hospitalId']],
     ['/api/review/cases', () => lead, ['hospitalId', 'from', 'to', 'timeZone', 'decided', 'differs', 'below', 'overdue', 'slowTeam', 'review', 'sort', 'dir', 'page', 'pageSize']],
