@@ -16,6 +16,7 @@ import { catchUpLane } from './realtime/catch-up';
 import { socketFeatures } from './realtime/features';
 import { backgroundJobs } from './services/jobs';
 import { primeCaseLists } from './services/cases';
+import { rehearsePreAlerts } from './services/rehearsal';
 import { isEmpty, seedDemo } from './services/seed';
 
 export interface RunningServer {
@@ -57,6 +58,13 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
   // Before anyone can connect: the boards reloading after a restart find their cases ready.
   const primed = await primeCaseLists(db);
   if (primed) logger.info({ cases: primed }, 'open cases ready for the boards');
+  // And the pre-alert path compiled, so the outboxes emptying after a restart do not meet cold code.
+  const started = Date.now();
+  const rehearsed = await rehearsePreAlerts(db, clock).catch((err: unknown) => {
+    logger.warn({ err }, 'the pre-alert rehearsal failed; starting without it');
+    return 0;
+  });
+  if (rehearsed) logger.info({ rounds: rehearsed, ms: Date.now() - started }, 'pre-alert path rehearsed');
 
   const http = createServer();
   await new Promise<void>((resolve, reject) => {
