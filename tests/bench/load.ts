@@ -10,6 +10,7 @@ import { createDb } from '../../server/db';
 import { verifyAuditChain } from '../../server/services/audit';
 import { signIn, type SignedInClient } from '../support/sign-in';
 import { childServer, databaseFileOf, tempDataDir, type ChildServer } from './support/child-server';
+import { boardReloads, type ReloadedCase } from './support/board-reloads';
 import { prepareRegion } from './support/fixtures';
 import { percentile, round1, seededRandom, trafficOf } from './support/traffic';
 
@@ -106,6 +107,8 @@ interface Board {
   connectedAt: number;
   /** Its first reload: a board is up once it shows its cases. */
   loaded?: Promise<void>;
+  /** Where its last snapshot stood: a reload after a fresh connection asks for the changes since. */
+  cursor?: string;
 }
 
 const now = () => performance.now();
@@ -138,6 +141,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
   const dataDir = tempDataDir();
   const region = await prepareRegion(dataDir, { hospitals: opts.hospitals, paramedics: opts.crewSessions });
   const server = await childServer({ dataDir });
+  const reloads = boardReloads();
   const sockets: ClientSocket[] = [];
   const started = now();
   try {
@@ -198,7 +202,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
       });
     };
 
-    const observe = (board: Board, summary: CaseSummary, live: boolean) => {
+    const observe = (board: Board, summary: ReloadedCase | CaseSummary, live: boolean) => {
       if (summary.hospital.id !== board.hospitalId) {
         foreignDeliveries++;
         return;
@@ -218,15 +222,17 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
       entry.revision = Math.max(entry.revision, summary.revision);
     };
 
-    const snapshot = async (board: Board) => {
+    const snapshot = async (board: Board, final = false) => {
       for (let attempt = 0; attempt < 40; attempt++) {
         try {
-          // What the product's board reads on each such connection (src/stores/board.ts).
-          const res = await board.client.get(`/api/board?hospitalId=${board.hospitalId}`);
-          if (res.ok) {
-            const body = (await res.json()) as { cases: CaseSummary[] };
+          // What the product's board reads (src/stores/board.ts): the changes since its last
+          // snapshot after a fresh connection, the whole list at the start and at the end.
+          const since = !final && board.cursor ? `&changesSince=${encodeURIComponent(board.cursor)}` : '';
+          const res = await reloads.load(`${server.url}/api/board?hospitalId=${board.hospitalId}${since}`, await board.client.cookieHeader());
+          if (res.status === 200) {
             snapshots++;
-            for (const summary of body.cases) observe(board, summary, false);
+            board.cursor = res.cursor;
+            for (const summary of res.cases) observe(board, summary, false);
             return;
           }
         } catch {
@@ -381,7 +387,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
     while (now() < settleUntil && ambulances.some((a) => a.outbox.size > 0 || !a.socket.connected)) await new Promise((r) => setTimeout(r, 200));
     // The last broadcasts, then every board's final snapshot, as after a reload.
     await new Promise((r) => setTimeout(r, 1500));
-    await inBatches(boards, 5, snapshot);
+    await inBatches(boards, 5, (b) => snapshot(b, true));
 
     const acked = [...outgoing.values()].filter((o) => o.ack);
     let lost = 0;
@@ -461,6 +467,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
     };
   } finally {
     for (const socket of sockets) socket.close();
+    await reloads.close();
     await server.dispose();
   }
 }
