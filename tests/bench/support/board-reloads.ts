@@ -37,14 +37,20 @@ export function boardReloads() {
     if (m.error !== undefined) pending?.reject(new Error(m.error));
     else pending?.resolve({ status: m.status, cursor: m.cursor, cases: m.cases });
   });
-  worker.on('error', (err) => {
+  // A thread that died answers nothing: whatever waits, and whatever asks later, is refused.
+  let gone: Error | null = null;
+  const fail = (err: Error) => {
+    gone ??= err;
     for (const pending of waiting.values()) pending.reject(err);
     waiting.clear();
-  });
+  };
+  worker.on('error', fail);
+  worker.on('exit', (code) => fail(new Error(`the reload thread exited (${code})`)));
   return {
     /** GET `url` with the board's cookie; rejects when the server cannot be reached. */
     load(url: string, cookie: string): Promise<Reload> {
       return new Promise((resolve, reject) => {
+        if (gone) return reject(gone);
         waiting.set(++seq, { resolve, reject });
         worker.postMessage({ seq, url, cookie });
       });
