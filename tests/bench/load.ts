@@ -94,7 +94,10 @@ interface Outgoing {
 
 interface Ambulance {
   socket: ClientSocket;
+  /** What waits for an acknowledgement, in the order made. */
   outbox: Map<string, Outgoing>;
+  /** Sending from the outbox now: one pre-alert at a time. */
+  draining: boolean;
   cases: Array<{ caseId: number; clinical: ClinicalInput; updates: number; busy: boolean }>;
 }
 
@@ -172,34 +175,48 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
     const boards: Board[] = [];
     const idOfCase = new Map<number, string>();
 
-    const emitAlert = (amb: Ambulance, item: Outgoing) => {
-      if (!amb.socket.connected || item.ack) return;
-      item.attempts++;
-      if (item.attempts > 1) resent++;
-      item.lastEmitAt = now();
-      const payload = { clientId: item.clientId, hospitalId: item.hospitalId, etaMinutes: traffic.between(5, 40), clinical: item.clinical };
-      amb.socket.timeout(10_000).emit('case:submit', payload, (err: Error | null, answer: AckResponse<{ caseId: number; caseNumber: string; created: boolean; summary: CaseSummary }>) => {
-        if (item.ack) {
-          // A resend answered after the first: it must name the same case.
-          if (!err && answer.ok && answer.data.caseId !== item.ack.caseId) item.ack = { ...item.ack, caseId: -1 };
-          return;
-        }
-        if (err) {
-          // Disconnected: the reconnect resends. Timed out on a live link: send again now.
-          if (amb.socket.connected) emitAlert(amb, item);
-          return;
-        }
-        if (!answer.ok) {
-          alertsRefused++;
-          log(`load: pre-alert refused: ${answer.error.code} ${answer.error.message}`);
+    /** One send of one pre-alert; resolves once it is answered, refused, timed out or cut off. */
+    const sendAlert = (amb: Ambulance, item: Outgoing) =>
+      new Promise<void>((resolve) => {
+        item.attempts++;
+        if (item.attempts > 1) resent++;
+        item.lastEmitAt = now();
+        const payload = { clientId: item.clientId, hospitalId: item.hospitalId, etaMinutes: traffic.between(5, 40), clinical: item.clinical };
+        amb.socket.timeout(10_000).emit('case:submit', payload, (err: Error | null, answer: AckResponse<{ caseId: number; caseNumber: string; created: boolean; summary: CaseSummary }>) => {
+          resolve();
+          if (item.ack) {
+            // A resend answered after the first: it must name the same case.
+            if (!err && answer.ok && answer.data.caseId !== item.ack.caseId) item.ack = { ...item.ack, caseId: -1 };
+            return;
+          }
+          // Cut off: the reconnect sends it again. Timed out on a live link: the outbox sends it again now.
+          if (err) return;
+          if (!answer.ok) {
+            alertsRefused++;
+            log(`load: pre-alert refused: ${answer.error.code} ${answer.error.message}`);
+            amb.outbox.delete(item.clientId);
+            return;
+          }
+          item.ack = { caseId: answer.data.caseId, caseNumber: answer.data.caseNumber };
+          idOfCase.set(answer.data.caseId, item.clientId);
           amb.outbox.delete(item.clientId);
-          return;
-        }
-        item.ack = { caseId: answer.data.caseId, caseNumber: answer.data.caseNumber };
-        idOfCase.set(answer.data.caseId, item.clientId);
-        amb.outbox.delete(item.clientId);
-        amb.cases.push({ caseId: answer.data.caseId, clinical: item.clinical, updates: 0, busy: false });
+          amb.cases.push({ caseId: answer.data.caseId, clinical: item.clinical, updates: 0, busy: false });
+        });
       });
+
+    // The product's outbox (src/composables/use-outbox.ts): one at a time, in the order made, each
+    // after the last one's answer, whenever the link is up.
+    const drain = async (amb: Ambulance) => {
+      if (amb.draining) return;
+      amb.draining = true;
+      try {
+        for (let next = amb.outbox.values().next().value; next && amb.socket.connected; next = amb.outbox.values().next().value) {
+          if (next.ack) amb.outbox.delete(next.clientId);
+          else await sendAlert(amb, next);
+        }
+      } finally {
+        amb.draining = false;
+      }
     };
 
     const observe = (board: Board, summary: ReloadedCase | CaseSummary, live: boolean) => {
@@ -282,7 +299,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
     }
 
     for (let i = 0; i < opts.ambulances; i++) {
-      const amb: Ambulance = { socket: openSocket(server.url, crewCookies[i % crewCookies.length]), outbox: new Map(), cases: [] };
+      const amb: Ambulance = { socket: openSocket(server.url, crewCookies[i % crewCookies.length]), outbox: new Map(), draining: false, cases: [] };
       let first = true;
       amb.socket.on('connect', () => {
         if (!first) {
@@ -291,7 +308,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
         }
         first = false;
         // The outbox rule: whatever was not acknowledged goes again when the link is back.
-        for (const item of amb.outbox.values()) emitAlert(amb, item);
+        void drain(amb);
       });
       amb.socket.on('disconnect', (reason) => {
         if (reason === 'io server disconnect') amb.socket.connect();
@@ -377,7 +394,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
       alertsSent++;
       outgoing.set(item.clientId, item);
       amb.outbox.set(item.clientId, item);
-      emitAlert(amb, item);
+      void drain(amb);
     }
     clearInterval(dropTimer);
     if (faults.restarting) await faults.restarting;
