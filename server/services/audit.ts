@@ -50,8 +50,13 @@ export function rowHash(row: Omit<AuditRow, 'id' | 'hash'>): string {
  * Appends one row. Call it inside the transaction that makes the change, so the record and the
  * change commit together; SQLite's single writer keeps the chain in order.
  */
+/** The chain's newest row, the one the next row links to; undefined while the chain is empty. */
+export async function newestAuditRow(db: Knex): Promise<{ id: number; hash: string } | undefined> {
+  return db('audit_log').orderBy('id', 'desc').first('id', 'hash');
+}
+
 export async function appendAudit(db: Knex, entry: AuditEntry): Promise<number> {
-  const last = await db('audit_log').orderBy('id', 'desc').first('hash');
+  const last = await newestAuditRow(db);
   const row = {
     at: entry.at,
     actor_id: entry.actor.id,

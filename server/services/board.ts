@@ -20,7 +20,7 @@ import { assertHospital, hospitalIdsOf } from '../auth/guards';
 import type { Clock } from '../deps';
 import { AppError, conflict, forbidden, invalid, parseOr400 } from '../errors';
 import type { Mailer } from '../mail';
-import { GENESIS_HASH, recordCaseEvent, type Actor } from './audit';
+import { GENESIS_HASH, newestAuditRow, recordCaseEvent, type Actor } from './audit';
 import { caseSummary, listCaseSummariesJson, loadCaseRow, type CaseActor } from './cases';
 import { composePage, notificationList } from './paging';
 import { policyInForce } from './policies';
@@ -45,8 +45,8 @@ const GENESIS_CURSOR = `0-${GENESIS_HASH.slice(0, 16)}`;
 
 /** The newest audit row: every change to a case writes one, in the same transaction, in commit order. */
 async function changeCursor(db: Knex): Promise<string> {
-  const last = await db('audit_log').orderBy('id', 'desc').first('id', 'hash');
-  return last ? `${last.id}-${String(last.hash).slice(0, 16)}` : GENESIS_CURSOR;
+  const last = await newestAuditRow(db);
+  return last ? `${last.id}-${last.hash.slice(0, 16)}` : GENESIS_CURSOR;
 }
 
 /**
