@@ -2,7 +2,7 @@ import type { NextFunction, Request, Response } from 'express';
 import type { Knex } from 'knex';
 import type { Me, Role } from '../../shared/roles';
 import { forbidden, unauthenticated } from '../errors';
-import { describeUser, findUserById } from '../services/users';
+import { findMe } from '../services/users';
 
 declare global {
   // eslint-disable-next-line @typescript-eslint/no-namespace
@@ -14,9 +14,7 @@ declare global {
 /** Loads the signed-in person on every request, so a deactivated user or a changed role counts at once. */
 export async function loadMe(db: Knex, userId: number | undefined, claimedRoles?: Role[]): Promise<Me | null> {
   if (!userId) return null;
-  const user = await findUserById(db, userId);
-  if (!user || !user.active) return null;
-  return describeUser(db, user, claimedRoles);
+  return (await findMe(db, userId, claimedRoles)) ?? null;
 }
 
 export function requireUser(db: Knex) {

@@ -76,19 +76,22 @@ const isUniqueViolation = (err: unknown) => /UNIQUE constraint failed|duplicate 
 /**
  * Stores a new pre-alert and its first revision, evaluated under the destination's policy in
  * force. The same clientId again returns the case already made: a retry never makes a second.
+ * The checks and the policy are read inside the same transaction as the writes: one connection
+ * taken for the whole pre-alert instead of one per read, and a case that is stored was checked
+ * against the destinations and the policy as they stood when it was stored.
  */
 export async function submitPreAlert(db: Knex, clock: Clock, actor: CaseActor, payload: PreAlert): Promise<{ caseId: number; created: boolean }> {
-  const existing = await db('cases').where({ client_id: payload.clientId }).first('id', 'agency_id');
-  if (existing) {
-    if (!agencyIdsOf(actor.me).includes(existing.agency_id)) throw conflict('That pre-alert id is already in use.');
-    return { caseId: existing.id, created: false };
-  }
-  const { agencyId } = await agencyForDestination(db, actor.me, payload.hospitalId, payload.unitId);
-  const at = clock.now();
-  const result = await evaluateFor(db, payload.hospitalId, payload.clinical, at);
   try {
     let written: WrittenRevision | undefined;
-    const caseId = await db.transaction(async (trx) => {
+    const stored = await db.transaction(async (trx) => {
+      const existing = await trx('cases').where({ client_id: payload.clientId }).first('id', 'agency_id');
+      if (existing) {
+        if (!agencyIdsOf(actor.me).includes(existing.agency_id)) throw conflict('That pre-alert id is already in use.');
+        return { caseId: existing.id as number, created: false };
+      }
+      const { agencyId } = await agencyForDestination(trx, actor.me, payload.hospitalId, payload.unitId);
+      const at = clock.now();
+      const result = await evaluateFor(trx, payload.hospitalId, payload.clinical, at);
       const [inserted] = await trx('cases')
         .insert({
           case_number: payload.clientId,
@@ -120,14 +123,15 @@ export async function submitPreAlert(db: Knex, clock: Clock, actor: CaseActor, p
         data: { revision: 1, fieldRisk: result.fieldRisk, activation: result.activation, criteria: result.criteria.map((c) => c.id), hospitalId: payload.hospitalId, etaMinutes: payload.etaMinutes ?? null },
         policy: result.policy,
       });
-      return id;
+      return { caseId: id, created: true };
     });
-    rememberWritten(db, written!);
-    return { caseId, created: true };
+    if (written) rememberWritten(db, written);
+    return stored;
   } catch (err) {
     // Two sends of the same pre-alert raced; the first one made the case.
     if (isUniqueViolation(err)) {
-      const raced = await db('cases').where({ client_id: payload.clientId }).first('id');
+      const raced = await db('cases').where({ client_id: payload.clientId }).first('id', 'agency_id');
+      if (raced && !agencyIdsOf(actor.me).includes(raced.agency_id)) throw conflict('That pre-alert id is already in use.');
       if (raced) return { caseId: raced.id, created: false };
     }
     throw err;

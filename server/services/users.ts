@@ -30,12 +30,36 @@ export async function membershipsOf(db: Knex, userId: number): Promise<Membershi
   );
 }
 
-/** What the signed-in person is: their roles from our table (or the issuer's claim) and their memberships. */
-export async function describeUser(db: Knex, user: UserRow, claimedRoles?: Role[]): Promise<Me> {
-  const roles = claimedRoles ?? (await rolesOf(db, user.id));
+/**
+ * What the signed-in person is, in one query: the active user, their roles from our table (or the
+ * issuer's claim) and their memberships. Undefined when there is no such active user. It runs on
+ * every request and every socket connection, so a deactivated user or a changed role counts at once.
+ */
+export async function findMe(db: Knex, userId: number, claimedRoles?: Role[]): Promise<Me | undefined> {
+  const rows = await db('users as u')
+    .leftJoin('user_roles as r', 'r.user_id', 'u.id')
+    .leftJoin('memberships as m', 'm.user_id', 'u.id')
+    .leftJoin('hospitals as h', 'h.id', 'm.hospital_id')
+    .leftJoin('agencies as a', 'a.id', 'm.agency_id')
+    .where('u.id', userId)
+    .andWhere('u.active', true)
+    .select('u.email', 'u.name', 'r.role', 'm.id as membership_id', 'm.hospital_id', 'm.agency_id', 'h.name as hospital_name', 'a.name as agency_name')
+    .orderBy([{ column: 'm.id' }, { column: 'r.role' }]);
+  if (!rows.length) return undefined;
+  const roles = new Set<Role>();
+  const memberships = new Map<number, Membership>();
+  for (const row of rows) {
+    if (row.role != null) roles.add(Role.parse(row.role));
+    if (row.membership_id != null && !memberships.has(row.membership_id)) {
+      memberships.set(
+        row.membership_id,
+        row.hospital_id != null ? { kind: 'hospital', id: row.hospital_id, name: row.hospital_name } : { kind: 'agency', id: row.agency_id, name: row.agency_name },
+      );
+    }
+  }
   return {
-    user: { id: user.id, email: user.email, name: user.name },
-    roles,
-    memberships: await membershipsOf(db, user.id),
+    user: { id: userId, email: rows[0].email, name: rows[0].name },
+    roles: claimedRoles ?? [...roles].sort(),
+    memberships: [...memberships.values()],
   };
 }

@@ -373,6 +373,10 @@ describe('socket commands', () => {
     expect(toAlderwick).toMatchObject({ ok: false, error: { code: 'invalid', field: 'hospitalId' } });
     const withTheirUnit = await command(socket, 'case:submit', { clientId: randomUUID(), hospitalId: foreign.hospitalId, unitId: ids.unit, clinical });
     expect(withTheirUnit).toMatchObject({ ok: false, error: { code: 'invalid', field: 'unitId' } });
+    // Another agency's pre-alert id sent again: refused, and neither the case nor its id is given away.
+    const { client_id: taken } = await server.db('cases').where({ id: ids.liveCase }).first('client_id');
+    const reused = await command(socket, 'case:submit', { clientId: taken, hospitalId: foreign.hospitalId, clinical });
+    expect(reused).toEqual({ ok: false, error: { code: 'conflict', message: 'That pre-alert id is already in use.' } });
     expect(await server.db('cases').count({ n: '*' }).first()).toEqual(casesBefore);
   });
 });

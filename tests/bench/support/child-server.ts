@@ -100,7 +100,7 @@ export async function childServer(opts: ChildServerOptions = {}): Promise<ChildS
     },
     async start() {
       if (child && child.exitCode === null && child.signalCode === null) throw new Error('the server is already running');
-      const proc = spawn(process.execPath, ['--max-semi-space-size=4', join(repoRoot, 'server/cli/bin.mjs'), 'start'], {
+      const proc = spawn(process.execPath, ['--max-semi-space-size=4', '--no-parallel-scavenge', join(repoRoot, 'server/cli/bin.mjs'), 'start'], {
         cwd: repoRoot,
         env: {
           ...process.env,
