@@ -46,15 +46,15 @@ export function rowHash(row: Omit<AuditRow, 'id' | 'hash'>): string {
   return createHash('sha256').update(row.prev_hash).update('\n').update(content).digest('hex');
 }
 
-/**
- * Appends one row. Call it inside the transaction that makes the change, so the record and the
- * change commit together; SQLite's single writer keeps the chain in order.
- */
 /** The chain's newest row, the one the next row links to; undefined while the chain is empty. */
 export async function newestAuditRow(db: Knex): Promise<{ id: number; hash: string } | undefined> {
   return db('audit_log').orderBy('id', 'desc').first('id', 'hash');
 }
 
+/**
+ * Appends one row. Call it inside the transaction that makes the change, so the record and the
+ * change commit together; SQLite's single writer keeps the chain in order.
+ */
 export async function appendAudit(db: Knex, entry: AuditEntry): Promise<number> {
   const last = await newestAuditRow(db);
   const row = {
