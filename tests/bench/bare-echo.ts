@@ -17,8 +17,11 @@ export interface BareEchoOptions {
   senders: number;
   listeners: number;
   rooms: number;
+  /** Timed messages; the warm-up's come before them. */
   messages: number;
   sendsPerSecond: number;
+  /** Sent first and not timed, as the load run leaves out its warm-up (load.ts `warmUpMs`). */
+  warmUpMs: number;
   /** What the real server broadcast (a case summary): the echo sends the same object, so both sides parse the same shape. */
   payload: unknown;
 }
@@ -65,10 +68,13 @@ export async function measureBareEcho(opts: BareEchoOptions): Promise<BareEchoRe
     const random = seededRandom(7);
     const sentAt = new Map<number, number>();
     const samples: number[] = [];
+    const intervalMs = 1000 / opts.sendsPerSecond;
+    const warmUp = Math.ceil(opts.warmUpMs / intervalMs);
     const rooms = Array.from({ length: opts.rooms }, (_, i) => `board-${i}`);
     for (let i = 0; i < opts.listeners; i++) {
       open(rooms[i % rooms.length]).on('echoed', (message: { id: number }) => {
         const at = sentAt.get(message.id);
+        if (message.id < warmUp) return;
         if (at !== undefined) samples.push(performance.now() - at);
       });
     }
@@ -77,9 +83,8 @@ export async function measureBareEcho(opts: BareEchoOptions): Promise<BareEchoRe
     await Promise.all(sockets.map((s) => (s.connected ? undefined : new Promise((r) => s.once('connect', () => r(undefined))))));
     // About the size of a crew's pre-alert [ours].
     const note = 'x'.repeat(400);
-    const intervalMs = 1000 / opts.sendsPerSecond;
     const start = performance.now();
-    for (let id = 0; id < opts.messages; id++) {
+    for (let id = 0; id < warmUp + opts.messages; id++) {
       const wait = start + id * intervalMs - performance.now();
       if (wait > 0) await new Promise((r) => setTimeout(r, wait));
       const sender = senders[Math.floor(random() * senders.length)];

@@ -27,6 +27,12 @@ export interface LoadOptions {
   sendsPerSecond: number;
   /** Connections cut per second, picked at random among ambulances and boards. */
   dropsPerSecond: number;
+  /**
+   * The first sends warm the code of the harness and of the server (the JavaScript engine compiles
+   * a path once it runs often). They are counted for delivery but not timed; the echo leaves out
+   * its first sends the same way (bare-echo.ts).
+   */
+  warmUpMs: number;
   /** How long, after the last send, the ambulances may take to empty their outboxes. */
   settleMs: number;
   log(line: string): void;
@@ -41,6 +47,7 @@ export const defaultLoadOptions: LoadOptions = {
   updates: 300,
   sendsPerSecond: 20,
   dropsPerSecond: 1,
+  warmUpMs: 2000,
   settleMs: 45_000,
   log: () => {},
 };
@@ -89,6 +96,8 @@ interface Outgoing {
   lastEmitAt: number;
   /** Made while its ambulance had no link (the server restarting, a cut): it waited in the outbox. */
   madeOffline: boolean;
+  /** Sent while the run warms up: counted, not timed. */
+  warmUp: boolean;
   ack?: { caseId: number; caseNumber: string };
 }
 
@@ -230,10 +239,10 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
       if (!entry) {
         entry = { ids: new Set(), revision: 0 };
         board.seen.set(summary.clientId, entry);
-        // One clean attempt on a board that stayed connected: a latency sample. Deliveries across
+        // One clean attempt on a board that stayed connected, after the warm-up: a latency sample. Deliveries across
         // a cut or a restart are counted, not timed; a pre-alert that waited in an outbox through
         // one is timed apart, from its first send on the restored link.
-        if (live && sent.attempts === 1 && board.connectedAt < sent.lastEmitAt) (sent.madeOffline ? outboxLatencies : latencies).push(now() - sent.lastEmitAt);
+        if (live && !sent.warmUp && sent.attempts === 1 && board.connectedAt < sent.lastEmitAt) (sent.madeOffline ? outboxLatencies : latencies).push(now() - sent.lastEmitAt);
       }
       entry.ids.add(summary.id);
       entry.revision = Math.max(entry.revision, summary.revision);
@@ -390,7 +399,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
       // Nothing to update yet (the link is down): this tick passes.
       if (alertsSent >= opts.alerts) continue;
       const amb = ambulances[Math.floor(random() * ambulances.length)];
-      const item: Outgoing = { clientId: randomUUID(), hospitalId: region.hospitals[alertsSent % region.hospitals.length].id, clinical: traffic.firstReport(), attempts: 0, lastEmitAt: 0, madeOffline: !amb.socket.connected };
+      const item: Outgoing = { clientId: randomUUID(), hospitalId: region.hospitals[alertsSent % region.hospitals.length].id, clinical: traffic.firstReport(), attempts: 0, lastEmitAt: 0, madeOffline: !amb.socket.connected, warmUp: tick * intervalMs < opts.warmUpMs };
       alertsSent++;
       outgoing.set(item.clientId, item);
       amb.outbox.set(item.clientId, item);

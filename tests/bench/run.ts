@@ -55,6 +55,7 @@ async function main(): Promise<void> {
     rooms: load.hospitals,
     messages: 600,
     sendsPerSecond: defaultLoadOptions.sendsPerSecond,
+    warmUpMs: defaultLoadOptions.warmUpMs,
     payload: load.sampleSummary,
   });
   log(`bare echo: p50 ${bare.p50Ms} ms, p99 ${bare.p99Ms} ms over ${bare.samples} receipts`);
