@@ -117,10 +117,14 @@ const METRES_PER_FOOT = 0.3048;
 /** One storey = 10 feet [source: 2011 guideline, Sasser 2012], as in shared/schemas/units.ts. */
 const METRES_PER_STOREY = 10 * METRES_PER_FOOT;
 
-/** A fall height in the hospital's preferred unit: "14 ft", "4.3 m", "1.4 storeys"; 0 is from standing. */
+/**
+ * A fall height in the hospital's preferred unit: "13.1 ft", "4.3 m", "1.4 storeys"; 0 is from
+ * standing. Feet keep a decimal as metres do: whole feet showed a 19.7 ft fall as "20 ft", beside
+ * a "fall > 20 ft" criterion that had not fired.
+ */
 export function formatFallHeight(heightM: number, unit: 'm' | 'ft' | 'storeys'): string {
   if (heightM === 0) return 'from standing';
-  if (unit === 'ft') return `${Math.round(heightM / METRES_PER_FOOT)} ft`;
+  if (unit === 'ft') return `${Math.round((heightM / METRES_PER_FOOT) * 10) / 10} ft`;
   if (unit === 'storeys') {
     const storeys = Math.round((heightM / METRES_PER_STOREY) * 10) / 10;
     return `${storeys} ${storeys === 1 ? 'storey' : 'storeys'}`;

@@ -372,7 +372,7 @@ describe('the rest of a case: bay, page, arrival, the team leader at the bedside
     expect(mail.text).toContain('Level: Full trauma team');
     expect(mail.text).toContain('Bay: Resus 2');
     expect(mail.text).toContain('Patient: 34-year-old male');
-    expect(mail.text).toContain('Fall: 13 ft, onto concrete, first impact back');
+    expect(mail.text).toContain('Fall: 13.1 ft, onto concrete, first impact back');
     expect(mail.text).toContain('Latest vitals: SBP 84, HR 120');
     expect(mail.text).toMatch(/Criteria met:\n- .*SBP 84/);
     expect(mail.text).not.toContain('Ada Example');
