@@ -28,7 +28,8 @@ export const screenRoutes: RouteRecordRaw[] = [
     path: '/board',
     name: 'inbound-board',
     component: () => import('../views/InboundBoardView.vue'),
-    meta: { title: 'Inbound board', roles: ['charge_nurse'], nav: true },
+    // The charge nurse acts on the board; the trauma lead and the administrator may watch it (as GET /api/board allows).
+    meta: { title: 'Inbound board', roles: ['charge_nurse', 'trauma_lead', 'admin'], nav: true },
   },
   {
     path: '/review',

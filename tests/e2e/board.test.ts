@@ -202,4 +202,31 @@ describeInBrowser('the Inbound board in Chromium', () => {
     await screenshot(page, 'mail-sent');
     await admin.context.close();
   });
+
+  it('a trauma lead watches the board without its actions; an administrator of two EDs switches between them', async () => {
+    const lead = await newSignedInPage(browser, server.url, 'lead@plumbline.test', { path: '/board' });
+    const page = lead.page;
+    await expect.poll(() => page.locator('h1').textContent()).toBe('Inbound board');
+    await page.locator('article.case-card').first().waitFor();
+    const open = await server.db('cases').where({ hospital_id: general }).whereIn('state', ['en-route', 'acknowledged', 'arrived']).pluck('case_number');
+    expect((await page.locator('article.case-card').evaluateAll((cards) => cards.map((c) => c.getAttribute('data-case-number')))).sort()).toEqual(open.sort());
+    expect(await page.getByText('View only: the charge nurse acknowledges and decides these cases.').count()).toBe(1);
+    expect(await page.locator('article.case-card .actions').count()).toBe(0);
+    expect(await page.getByRole('button', { name: /Acknowledge/ }).count()).toBe(0);
+    await expectAccessible(page, 'Inbound board, view only');
+    await screenshot(page, 'board-view-only');
+    await lead.context.close();
+
+    const admin = await newSignedInPage(browser, server.url, 'admin@plumbline.test', { path: '/board' });
+    const desk = admin.page;
+    await expect.poll(() => desk.locator('p.hospital').textContent()).toMatch(/^Alderwick General Hospital · /);
+    await desk.getByRole('combobox', { name: 'Emergency department' }).click();
+    await desk.getByRole('option', { name: 'Fenmoor Community Hospital' }).click();
+    await expect.poll(() => desk.locator('p.hospital').textContent()).toMatch(/^Fenmoor Community Hospital · /);
+    const community = (await server.db('hospitals').where({ name: 'Fenmoor Community Hospital' }).first('id')).id as number;
+    const theirs = await server.db('cases').where({ hospital_id: community }).whereIn('state', ['en-route', 'acknowledged', 'arrived']).pluck('case_number');
+    await expect.poll(async () => (await desk.locator('article.case-card').evaluateAll((cards) => cards.map((c) => c.getAttribute('data-case-number')))).sort()).toEqual(theirs.sort());
+    expect(await desk.locator('article.case-card .actions').count()).toBe(0);
+    await admin.context.close();
+  });
 });
