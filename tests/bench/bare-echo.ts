@@ -22,22 +22,22 @@ export interface BareEchoOptions {
   sendsPerSecond: number;
   /** Sent first and not timed, as the load run leaves out its warm-up (load.ts `warmUpMs`). */
   warmUpMs: number;
-  /** What the real server broadcast (a case summary): the echo sends the same object, so both sides parse the same shape. */
-  payload: unknown;
+  /** Case summaries such as the real server broadcasts: message i carries payload i mod n, so both sides parse the same shapes and sizes. */
+  payloads: unknown[];
 }
 
-export interface BareEchoResult { p50Ms: number | null; p99Ms: number | null; samples: number }
+export interface BareEchoResult { p50Ms: number | null; p99Ms: number | null; samples: number; /** Every timed receipt, sorted. */ latencies: number[] }
 
 /** The echo server, run as its own process like the real one. */
 async function serve(port: number, payloadFile: string): Promise<void> {
-  const payload = JSON.parse(readFileSync(payloadFile, 'utf8')) as unknown;
+  const payloads = JSON.parse(readFileSync(payloadFile, 'utf8')) as unknown[];
   const http = createServer();
   const io = new Server(http, { serveClient: false });
   io.on('connection', (socket) => {
     const room = String(socket.handshake.query.room ?? 'crew');
     void socket.join(room);
     socket.on('echo', (message: { id: number; room: string; note: string }, ack: (answer: { ok: true; data: unknown }) => void) => {
-      const echoed = { id: message.id, room: message.room, payload };
+      const echoed = { id: message.id, room: message.room, payload: payloads[message.id % payloads.length] };
       ack({ ok: true, data: echoed });
       queueMicrotask(() => io.to([message.room, 'crew']).emit('echoed', echoed));
     });
@@ -50,7 +50,7 @@ async function serve(port: number, payloadFile: string): Promise<void> {
 export async function measureBareEcho(opts: BareEchoOptions): Promise<BareEchoResult> {
   const port = await freePort();
   const payloadFile = join(tempDataDir('plumbline-echo-'), 'payload.json');
-  writeFileSync(payloadFile, JSON.stringify(opts.payload ?? {}));
+  writeFileSync(payloadFile, JSON.stringify(opts.payloads.length ? opts.payloads : [{}]));
   const child = spawn(process.execPath, ['--import', 'tsx', fileURLToPath(import.meta.url), '--serve', String(port), payloadFile], { stdio: ['ignore', 'ignore', 'inherit', 'ipc'] });
   const exited = new Promise((r) => child.once('exit', r));
   const sockets: Socket[] = [];
@@ -93,7 +93,7 @@ export async function measureBareEcho(opts: BareEchoOptions): Promise<BareEchoRe
     }
     await new Promise((r) => setTimeout(r, 1000));
     samples.sort((a, b) => a - b);
-    return { p50Ms: round1(percentile(samples, 50)), p99Ms: round1(percentile(samples, 99)), samples: samples.length };
+    return { p50Ms: round1(percentile(samples, 50)), p99Ms: round1(percentile(samples, 99)), samples: samples.length, latencies: samples };
   } finally {
     for (const socket of sockets) socket.close();
     child.kill('SIGTERM');

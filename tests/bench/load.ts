@@ -83,8 +83,6 @@ export interface LoadResult {
   auditChain: { ok: boolean; rows: number; brokenAt?: number };
   latencySamples: number;
   summaryBytes: number;
-  /** One summary as a board received it, so the bare echo can carry the same shape. */
-  sampleSummary: CaseSummary | null;
   durationS: number;
 }
 
@@ -125,6 +123,9 @@ interface Board {
 
 const now = () => performance.now();
 
+/** The load run's traffic comes from this seed: the same run sends the same pre-alerts every time. */
+export const LOAD_SEED = 20261209;
+
 function openSocket(url: string, cookie: string): ClientSocket {
   // The product's own client settings (src/api/socket.ts): socket.io reconnects by itself.
   return connect(url, { transports: ['websocket'], forceNew: true, reconnectionDelayMax: 5000, extraHeaders: { cookie } });
@@ -148,7 +149,7 @@ async function inBatches<T>(items: T[], size: number, run: (item: T) => Promise<
 export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadResult> {
   const opts = { ...defaultLoadOptions, ...partial };
   const { log } = opts;
-  const random = seededRandom(20261209);
+  const random = seededRandom(LOAD_SEED);
   const traffic = trafficOf(random);
   const dataDir = tempDataDir();
   const region = await prepareRegion(dataDir, { hospitals: opts.hospitals, paramedics: opts.crewSessions });
@@ -177,7 +178,6 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
     let snapshots = 0;
     let summaryBytes = 0;
     let summaryCount = 0;
-    let sampleSummary: CaseSummary | null = null;
     const latencies: number[] = [];
     const outboxLatencies: number[] = [];
     const ambulances: Ambulance[] = [];
@@ -292,7 +292,6 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
         board.socket.on('case:submitted', (summary) => {
           summaryBytes += JSON.stringify(summary).length;
           summaryCount++;
-          sampleSummary ??= summary;
           observe(board, summary, true);
         });
         board.socket.on('case:updated', (summary) => observe(board, summary, true));
@@ -488,7 +487,6 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
       outbox: { samples: outboxLatencies.length, p50Ms: round1(percentile(outboxLatencies, 50)), p99Ms: round1(percentile(outboxLatencies, 99)) },
       latencySamples: latencies.length,
       summaryBytes: summaryCount ? Math.round(summaryBytes / summaryCount) : 0,
-      sampleSummary,
       durationS: round1((now() - started) / 1000)!,
     };
   } finally {

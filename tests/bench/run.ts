@@ -7,10 +7,12 @@ import { cpus, loadavg } from 'node:os';
 import { join } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { measureBareEcho } from './bare-echo';
-import { defaultLoadOptions, runLoad } from './load';
+import { defaultLoadOptions, LOAD_SEED, runLoad } from './load';
 import { measureMemory } from './memory';
 import { repoRoot } from './support/child-server';
 import { measureEvaluateRateApart } from './support/evaluate-rate';
+import { sampleCaseSummaries } from './support/sample-summary';
+import { percentile, round1 } from './support/traffic';
 
 const json = process.argv.includes('--json');
 const LIMIT_MS = 5 * 60_000;
@@ -47,18 +49,28 @@ async function measureReport(timeoutMs: number): Promise<{ cases: number; ms: nu
 
 async function main(): Promise<void> {
   const started = Date.now();
+  // The echo in two halves, just before and just after the load run, with the same payloads: this
+  // shared machine has slow spells of a minute or two, and one echo after the run could fall in
+  // a quieter or a busier one than the run itself.
+  const payloads = await sampleCaseSummaries(LOAD_SEED, defaultLoadOptions.hospitals, 40);
+  const echo = () =>
+    measureBareEcho({
+      senders: defaultLoadOptions.ambulances,
+      listeners: defaultLoadOptions.boards,
+      rooms: defaultLoadOptions.hospitals,
+      messages: 300,
+      sendsPerSecond: defaultLoadOptions.sendsPerSecond,
+      warmUpMs: defaultLoadOptions.warmUpMs,
+      payloads,
+    });
+  const bareBefore = await echo();
+  log(`bare echo before the load: p50 ${bareBefore.p50Ms} ms, p99 ${bareBefore.p99Ms} ms over ${bareBefore.samples} receipts`);
   const load = await runLoad({ log });
   log(`load: ${load.acknowledged}/${load.alerts} acknowledged, lost ${load.lost}, duplicated ${load.duplicated}, p50 ${load.p50Ms} ms, p99 ${load.p99Ms} ms`);
-  const bare = await measureBareEcho({
-    senders: load.ambulances,
-    listeners: load.boards,
-    rooms: load.hospitals,
-    messages: 600,
-    sendsPerSecond: defaultLoadOptions.sendsPerSecond,
-    warmUpMs: defaultLoadOptions.warmUpMs,
-    payload: load.sampleSummary,
-  });
-  log(`bare echo: p50 ${bare.p50Ms} ms, p99 ${bare.p99Ms} ms over ${bare.samples} receipts`);
+  const bareAfter = await echo();
+  log(`bare echo after the load: p50 ${bareAfter.p50Ms} ms, p99 ${bareAfter.p99Ms} ms over ${bareAfter.samples} receipts`);
+  const bareLatencies = [...bareBefore.latencies, ...bareAfter.latencies].sort((a, b) => a - b);
+  const bare = { p50Ms: round1(percentile(bareLatencies, 50)), p99Ms: round1(percentile(bareLatencies, 99)), samples: bareLatencies.length };
   const evaluate = await measureEvaluateRateApart();
   log(evaluate ? `evaluate: ${evaluate.perSecond.toLocaleString('en')}/s` : 'evaluate: the measuring process gave no figure; reported as null');
   const memory = await measureMemory({ sockets: 1000, log });
@@ -102,6 +114,10 @@ async function main(): Promise<void> {
       // Made while the ambulance had no link, timed from the first send once it was back.
       outbox: load.outbox,
       bareSamples: bare.samples,
+      bareHalves: { before: { p50Ms: bareBefore.p50Ms, p99Ms: bareBefore.p99Ms }, after: { p50Ms: bareAfter.p50Ms, p99Ms: bareAfter.p99Ms } },
+      // The echo's payloads and what the boards received, mean characters of JSON: the same shapes.
+      echoPayloadChars: Math.round(payloads.reduce((sum, p) => sum + JSON.stringify(p).length, 0) / payloads.length),
+      summaryChars: load.summaryBytes,
       durationS: load.durationS,
     },
     evaluate,
@@ -130,7 +146,7 @@ Realtime  ${r.ambulances} ambulances, ${r.boards} boards at ${r.hospitals} EDs, 
           acknowledged ${r.acknowledged}, delivered to every board ${r.delivered}, lost ${r.lost}, duplicated ${r.duplicated}
           audit chain ${r.auditChain.ok ? 'verifies' : `BROKEN at row ${r.auditChain.brokenAt}`} over ${r.auditChain.rows} rows
           ${r.drops} connections cut, ${r.restarts} server restarts (${r.restartKinds.join(', ')}), ${r.resent} resends
-          emit → board p50 ${r.p50Ms} ms, p99 ${r.p99Ms} ms; bare socket.io p50 ${r.bareP50Ms} ms, p99 ${r.bareP99Ms} ms (×${r.p99OverBare})
+          emit → board p50 ${r.p50Ms} ms, p99 ${r.p99Ms} ms; bare socket.io p50 ${r.bareP50Ms} ms, p99 ${r.bareP99Ms} ms (×${r.p99OverBare}; p99 ${r.bareHalves.before.p99Ms} ms before the run, ${r.bareHalves.after.p99Ms} ms after)
           pre-alerts made offline, from their send on the restored link: p50 ${r.outbox.p50Ms} ms, p99 ${r.outbox.p99Ms} ms over ${r.outbox.samples} receipts
 Evaluate  ${result.evaluate ? `${result.evaluate.perSecond.toLocaleString('en')} evaluations/s on one core` : 'not measured (the measuring process gave no figure)'}
 Report    ${result.report ? `${result.report.cases.toLocaleString('en')} cases in ${result.report.ms} ms` : 'not measured (tests/bench/quality-report.ts gave no figure)'}
