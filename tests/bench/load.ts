@@ -78,6 +78,9 @@ export interface LoadResult {
   snapshots: number;
   p50Ms: number | null;
   p99Ms: number | null;
+  /** The p99 of the samples sent away from the restarts (from each stop to 10 s after the server answers again). */
+  steadyP99Ms: number | null;
+  samplesNearRestarts: number;
   /** Pre-alerts that waited in an outbox, timed from their first send once the link was back. */
   outbox: { samples: number; p50Ms: number | null; p99Ms: number | null };
   auditChain: { ok: boolean; rows: number; brokenAt?: number };
@@ -125,6 +128,9 @@ const now = () => performance.now();
 
 /** The load run's traffic comes from this seed: the same run sends the same pre-alerts every time. */
 export const LOAD_SEED = 20261209;
+
+/** How long after a restarted server answers its reconnect storm is counted as near the restart [ours]. */
+const RESTART_WINDOW_MS = 10_000;
 
 function openSocket(url: string, cookie: string): ClientSocket {
   // The product's own client settings (src/api/socket.ts): socket.io reconnects by itself.
@@ -179,6 +185,10 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
     let summaryBytes = 0;
     let summaryCount = 0;
     const latencies: number[] = [];
+    /** Each latency sample with its send time, to tell the seconds around a restart from the rest. */
+    const timed: Array<{ at: number; ms: number }> = [];
+    /** From each stop of the server to ten seconds after it answers again [ours]. */
+    const restartWindows: Array<{ from: number; to: number }> = [];
     const outboxLatencies: number[] = [];
     const ambulances: Ambulance[] = [];
     const boards: Board[] = [];
@@ -239,10 +249,17 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
       if (!entry) {
         entry = { ids: new Set(), revision: 0 };
         board.seen.set(summary.clientId, entry);
-        // One clean attempt on a board that stayed connected, after the warm-up: a latency sample. Deliveries across
-        // a cut or a restart are counted, not timed; a pre-alert that waited in an outbox through
-        // one is timed apart, from its first send on the restored link.
-        if (live && !sent.warmUp && sent.attempts === 1 && board.connectedAt < sent.lastEmitAt) (sent.madeOffline ? outboxLatencies : latencies).push(now() - sent.lastEmitAt);
+        // One clean attempt on a board that stayed connected, after the warm-up: a latency
+        // sample. Deliveries across a cut or a restart are counted, not timed; a pre-alert that
+        // waited in an outbox through one is timed apart, from its first send on the restored link.
+        if (live && !sent.warmUp && sent.attempts === 1 && board.connectedAt < sent.lastEmitAt) {
+          const ms = now() - sent.lastEmitAt;
+          if (sent.madeOffline) outboxLatencies.push(ms);
+          else {
+            latencies.push(ms);
+            timed.push({ at: sent.lastEmitAt, ms });
+          }
+        }
       }
       entry.ids.add(summary.id);
       entry.revision = Math.max(entry.revision, summary.revision);
@@ -349,10 +366,12 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
     const restart = (signal: NodeJS.Signals) => {
       restartKinds.push(signal);
       const pid = server.pid;
+      const from = now();
       faults.restarting = (async () => {
         await server.stop(signal);
         log(`load: server ${pid} stopped by ${signal}; starting again on the same port and file`);
         await server.start();
+        restartWindows.push({ from, to: now() + RESTART_WINDOW_MS });
         log(`load: server up again (pid ${server.pid})`);
       })().finally(() => {
         faults.restarting = null;
@@ -457,6 +476,8 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
 
     latencies.sort((a, b) => a - b);
     outboxLatencies.sort((a, b) => a - b);
+    const nearRestart = (at: number) => restartWindows.some((w) => at >= w.from && at < w.to);
+    const steady = timed.filter((t) => !nearRestart(t.at)).map((t) => t.ms).sort((a, b) => a - b);
     return {
       ambulances: ambulances.length,
       boards: boards.length,
@@ -484,6 +505,8 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
       snapshots,
       p50Ms: round1(percentile(latencies, 50)),
       p99Ms: round1(percentile(latencies, 99)),
+      steadyP99Ms: round1(percentile(steady, 99)),
+      samplesNearRestarts: timed.length - steady.length,
       outbox: { samples: outboxLatencies.length, p50Ms: round1(percentile(outboxLatencies, 50)), p99Ms: round1(percentile(outboxLatencies, 99)) },
       latencySamples: latencies.length,
       summaryBytes: summaryCount ? Math.round(summaryBytes / summaryCount) : 0,
