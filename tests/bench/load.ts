@@ -184,8 +184,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
     let snapshots = 0;
     let summaryBytes = 0;
     let summaryCount = 0;
-    const latencies: number[] = [];
-    /** Each latency sample with its send time, to tell the seconds around a restart from the rest. */
+    /** The latency samples, each with its send time, to tell the seconds around a restart from the rest. */
     const timed: Array<{ at: number; ms: number }> = [];
     /** From each stop of the server to ten seconds after it answers again [ours]. */
     const restartWindows: Array<{ from: number; to: number }> = [];
@@ -255,10 +254,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
         if (live && !sent.warmUp && sent.attempts === 1 && board.connectedAt < sent.lastEmitAt) {
           const ms = now() - sent.lastEmitAt;
           if (sent.madeOffline) outboxLatencies.push(ms);
-          else {
-            latencies.push(ms);
-            timed.push({ at: sent.lastEmitAt, ms });
-          }
+          else timed.push({ at: sent.lastEmitAt, ms });
         }
       }
       entry.ids.add(summary.id);
@@ -474,7 +470,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
       await db.destroy();
     }
 
-    latencies.sort((a, b) => a - b);
+    const latencies = timed.map((t) => t.ms).sort((a, b) => a - b);
     outboxLatencies.sort((a, b) => a - b);
     const nearRestart = (at: number) => restartWindows.some((w) => at >= w.from && at < w.to);
     const steady = timed.filter((t) => !nearRestart(t.at)).map((t) => t.ms).sort((a, b) => a - b);
