@@ -20,6 +20,8 @@ export const useSessionStore = defineStore('session', () => {
   const user = computed(() => me.value?.user ?? null);
   const roles = computed<Role[]>(() => me.value?.roles ?? []);
   const memberships = computed(() => me.value?.memberships ?? []);
+  /** The emergency departments this person belongs to, for the screens that show one at a time. */
+  const hospitals = computed(() => memberships.value.filter((m) => m.kind === 'hospital'));
   const homeRoute = computed<string | null>(
     () => HOME_BY_ROLE.find(([role]) => roles.value.includes(role))?.[1] ?? null,
   );
@@ -48,5 +50,5 @@ export const useSessionStore = defineStore('session', () => {
     return wanted.some((role) => roles.value.includes(role));
   }
 
-  return { me, user, roles, memberships, homeRoute, loadError, load, hasRole };
+  return { me, user, roles, memberships, hospitals, homeRoute, loadError, load, hasRole };
 });
