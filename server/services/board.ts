@@ -50,19 +50,20 @@ async function changeCursor(db: Knex): Promise<string> {
 }
 
 /**
- * The cases changed after a cursor, or null when the cursor cannot say: its row is gone or holds
- * another hash (the database was restored from a backup since), or too much changed since.
+ * The audit row id a cursor stands at, or null when the cursor cannot say what changed since: its
+ * row is gone or holds another hash (the database was restored from a backup since).
  */
-async function casesChangedSince(db: Knex, cursor: string): Promise<number[] | null> {
+async function cursorRow(db: Knex, cursor: string): Promise<number | null> {
   const match = BOARD_CURSOR.exec(cursor);
   if (!match) return null;
   const after = Number(match[1]);
-  if (after > 0) {
-    const row = await db('audit_log').where({ id: after }).first('hash');
-    if (!row || !String(row.hash).startsWith(match[2])) return null;
-  } else if (cursor !== GENESIS_CURSOR) {
-    return null;
-  }
+  if (after === 0) return cursor === GENESIS_CURSOR ? 0 : null;
+  const row = await db('audit_log').where({ id: after }).first('hash');
+  return row && String(row.hash).startsWith(match[2]) ? after : null;
+}
+
+/** The cases changed after an audit row, or null when more changed than one reload should carry. */
+async function casesChangedAfter(db: Knex, after: number): Promise<number[] | null> {
   const rows = (await db('audit_log').where('id', '>', after).whereNotNull('case_id').distinct('case_id').limit(MOST_CHANGES + 1)) as Array<{ case_id: number }>;
   return rows.length > MOST_CHANGES ? null : rows.map((r) => r.case_id);
 }
@@ -88,11 +89,12 @@ export async function boardSnapshotJson(db: Knex, clock: Clock, me: Me, hospital
   // The cursor is read first: whatever commits after it is in the next reload's changes.
   const cursor = await changeCursor(db);
   const start = `{"hospital":${JSON.stringify(head.hospital)},"levels":${JSON.stringify(head.levels)},"at":${at},"cursor":"${cursor}"`;
-  if (changesSince !== undefined) {
+  const after = changesSince === undefined ? null : await cursorRow(db, changesSince);
+  if (after !== null) {
     // The open ids before the changes: a case made in between is then among the changes (and
     // shown) rather than only among the ids, which would send the board back for the whole list.
     const openIds = (await db('cases').where({ hospital_id: id }).whereIn('state', OPEN_STATES).orderBy('id').limit(MOST_CHANGES).pluck('id')) as number[];
-    const changed = await casesChangedSince(db, changesSince);
+    const changed = await casesChangedAfter(db, after);
     if (changed) {
       const cases = changed.length ? await listCaseSummariesJson(db, { ids: changed, hospitalIds: [id], states: OPEN_STATES }) : '[]';
       return `${start},"changesSince":"${changesSince}","openIds":${JSON.stringify(openIds)},"cases":${cases}}`;
