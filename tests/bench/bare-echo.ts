@@ -73,8 +73,8 @@ export async function measureBareEcho(opts: BareEchoOptions): Promise<BareEchoRe
     const rooms = Array.from({ length: opts.rooms }, (_, i) => `board-${i}`);
     for (let i = 0; i < opts.listeners; i++) {
       open(rooms[i % rooms.length]).on('echoed', (message: { id: number }) => {
-        const at = sentAt.get(message.id);
         if (message.id < warmUp) return;
+        const at = sentAt.get(message.id);
         if (at !== undefined) samples.push(performance.now() - at);
       });
     }

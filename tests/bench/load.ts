@@ -85,7 +85,8 @@ export interface LoadResult {
   outbox: { samples: number; p50Ms: number | null; p99Ms: number | null };
   auditChain: { ok: boolean; rows: number; brokenAt?: number };
   latencySamples: number;
-  summaryBytes: number;
+  /** The mean length of a broadcast summary's JSON, in characters. */
+  summaryChars: number;
   durationS: number;
 }
 
@@ -182,7 +183,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
     let freshReconnects = 0;
     let recoveredReconnects = 0;
     let snapshots = 0;
-    let summaryBytes = 0;
+    let summaryChars = 0;
     let summaryCount = 0;
     /** The latency samples, each with its send time, to tell the seconds around a restart from the rest. */
     const timed: Array<{ at: number; ms: number }> = [];
@@ -303,7 +304,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
           }
         });
         board.socket.on('case:submitted', (summary) => {
-          summaryBytes += JSON.stringify(summary).length;
+          summaryChars += JSON.stringify(summary).length;
           summaryCount++;
           observe(board, summary, true);
         });
@@ -505,7 +506,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
       samplesNearRestarts: timed.length - steady.length,
       outbox: { samples: outboxLatencies.length, p50Ms: round1(percentile(outboxLatencies, 50)), p99Ms: round1(percentile(outboxLatencies, 99)) },
       latencySamples: latencies.length,
-      summaryBytes: summaryCount ? Math.round(summaryBytes / summaryCount) : 0,
+      summaryChars: summaryCount ? Math.round(summaryChars / summaryCount) : 0,
       durationS: round1((now() - started) / 1000)!,
     };
   } finally {

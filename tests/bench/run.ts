@@ -139,7 +139,7 @@ async function main(): Promise<void> {
       bareHalves: { before: { p50Ms: bareBefore.p50Ms, p99Ms: bareBefore.p99Ms }, after: { p50Ms: bareAfter.p50Ms, p99Ms: bareAfter.p99Ms } },
       // The echo's payloads and what the boards received, mean characters of JSON: the same shapes.
       echoPayloadChars: Math.round(payloads.reduce((sum, p) => sum + JSON.stringify(p).length, 0) / payloads.length),
-      summaryChars: load.summaryBytes,
+      summaryChars: load.summaryChars,
       durationS: load.durationS,
     },
     evaluate,
