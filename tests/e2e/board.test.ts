@@ -137,8 +137,10 @@ describeInBrowser('the Inbound board in Chromium', () => {
     expect(await page.locator('.app-header').isVisible()).toBe(false);
     const size = await page.locator('.clock .big').first().evaluate((el) => parseFloat(getComputedStyle(el).fontSize));
     expect(size).toBeGreaterThanOrEqual(80);
-    // Colours ease over 0.15 s; let them land before measuring contrast.
-    await page.waitForTimeout(400);
+    // Colours ease over 0.15 s; let them land before measuring contrast. On a busy machine a fixed
+    // wait was not always enough, so wait for the last control's wall colour itself.
+    await expect.poll(() => page.locator('.leave-wall').evaluate((el) => getComputedStyle(el).color), { timeout: 5000 }).toBe('rgb(201, 209, 217)');
+    await page.waitForTimeout(200);
     await expectAccessible(page, 'wall display');
     await page.setViewportSize({ width: 1920, height: 1080 });
     await screenshot(page, 'board-wall');
