@@ -1,14 +1,28 @@
 import type { CaseSummary } from '../../shared/schemas/cases';
 import { roomOfAgency, roomOfHospital, type CaseChange } from '../../shared/realtime/events';
+import type { CatchUpLane } from './catch-up';
 import type { RealtimeServer } from './index';
 
-/** After a change commits: the destination's board and the sending agency's crews hear of it. */
-export function announceCase(io: RealtimeServer, summary: CaseSummary, change: CaseChange | 'submitted'): void {
-  const rooms = [roomOfHospital(summary.hospital.id), roomOfAgency(summary.agency.id)];
-  if (change === 'submitted') io.to(rooms).emit('case:submitted', summary);
-  else io.to(rooms).emit('case:updated', summary, change);
+/** What an announcement needs: the socket server, and the lane the crews' copies wait in. */
+export interface Announcer { io: RealtimeServer; catchUp: CatchUpLane }
+
+/**
+ * After a change commits: the destination's boards hear of it at once; the sending agency's
+ * crews a moment later, in the catch-up lane. A pre-alert's broadcast goes to every crew screen
+ * of its agency (hundreds in a region) and to a handful of boards: written in one go, the next
+ * pre-alert waited behind all of it. The boards' copy is the one an ED acts on; a crew's screen
+ * only follows. The sending crew learns of its own pre-alert from the acknowledgement. Both
+ * copies carry the row version, so a screen that hears of a case twice keeps the later one;
+ * the crews' copies leave in the order the changes were made.
+ */
+export function announceCase({ io, catchUp }: Announcer, summary: CaseSummary, change: CaseChange | 'submitted'): void {
+  const boards = roomOfHospital(summary.hospital.id);
+  const send = (to: ReturnType<RealtimeServer['to']>) => (change === 'submitted' ? to.emit('case:submitted', summary) : to.emit('case:updated', summary, change));
+  send(io.to(boards));
+  // A person in both rooms (a nurse who is also a crew member) has had the boards' copy.
+  void catchUp.run(() => send(io.to(roomOfAgency(summary.agency.id)).except(boards)));
 }
 
-export function announceRemoved(io: RealtimeServer, hospitalId: number, summary: CaseSummary, reason: string): void {
+export function announceRemoved({ io }: Announcer, hospitalId: number, summary: CaseSummary, reason: string): void {
   io.to(roomOfHospital(hospitalId)).emit('case:removed', { id: summary.id, caseNumber: summary.caseNumber, reason });
 }

@@ -11,7 +11,7 @@ import { announceCase, announceRemoved } from './broadcast';
 /** The ambulance's commands: every one checks the role, validates with the shared schema, and acknowledges. */
 export function caseCommands(deps: AppDeps): SocketFeature {
   const { db, clock, logger } = deps;
-  return (io, socket) => {
+  return (_io, socket) => {
     function command<S extends z.ZodType, T>(event: string, schema: S, run: (payload: z.infer<S>) => Promise<T>) {
       socket.on(event as never, (async (raw: unknown, ack: Ack<T>) => {
         if (typeof ack !== 'function') return;
@@ -30,21 +30,21 @@ export function caseCommands(deps: AppDeps): SocketFeature {
       const { caseId, created } = await submitPreAlert(db, clock, actor(), payload);
       const summary = await caseSummary(db, caseId);
       // Committed before the acknowledgement; announced after it, once.
-      if (created) queueMicrotask(() => announceCase(io, summary, 'submitted'));
+      if (created) queueMicrotask(() => announceCase(deps, summary, 'submitted'));
       return { caseId, caseNumber: summary.caseNumber, created, summary };
     });
 
     command('case:update', PreAlertUpdate, async (payload) => {
       const { caseId, rose } = await reviseCase(db, clock, actor(), payload);
       const summary = await caseSummary(db, caseId);
-      queueMicrotask(() => announceCase(io, summary, { kind: 'revised', at: summary.updatedAt, by: socket.data.me.user.name, rose }));
+      queueMicrotask(() => announceCase(deps, summary, { kind: 'revised', at: summary.updatedAt, by: socket.data.me.user.name, rose }));
       return { summary, rose };
     });
 
     command('case:cancel', CaseCancel, async (payload) => {
       const { caseId } = await cancelCase(db, clock, actor(), payload);
       const summary = await caseSummary(db, caseId);
-      queueMicrotask(() => announceCase(io, summary, { kind: 'cancelled', at: summary.updatedAt, by: socket.data.me.user.name }));
+      queueMicrotask(() => announceCase(deps, summary, { kind: 'cancelled', at: summary.updatedAt, by: socket.data.me.user.name }));
       return { summary };
     });
 
@@ -52,8 +52,8 @@ export function caseCommands(deps: AppDeps): SocketFeature {
       const { caseId, fromHospitalId } = await redirectCase(db, clock, actor(), payload);
       const summary = await caseSummary(db, caseId);
       queueMicrotask(() => {
-        announceRemoved(io, fromHospitalId, summary, `Redirected to ${summary.hospital.name}: ${payload.reason}`);
-        announceCase(io, summary, 'submitted');
+        announceRemoved(deps, fromHospitalId, summary, `Redirected to ${summary.hospital.name}: ${payload.reason}`);
+        announceCase(deps, summary, 'submitted');
       });
       return { summary };
     });

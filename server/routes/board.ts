@@ -19,7 +19,7 @@ const CaseId = CaseIdParam;
 const boardReaders = ['charge_nurse', 'trauma_lead', 'admin'] as const;
 
 export function boardRouter(deps: AppDeps): Router {
-  const { db, clock, io, catchUp } = deps;
+  const { db, clock, catchUp } = deps;
   const router = Router();
 
   router.get('/api/board', requireUser(db), requireRole(...boardReaders), async (req, res) => {
@@ -32,12 +32,12 @@ export function boardRouter(deps: AppDeps): Router {
     try {
       const { id } = parseOr400(CaseId, req.params);
       const { summary, change } = await actOnCase(deps, { me: req.me!, role: 'charge_nurse' }, id, action, req.body ?? {});
-      announceCase(io, summary, change);
+      announceCase(deps, summary, change);
       res.json({ case: summary });
     } catch (err) {
       // The loser of a race gets the case as it now stands, so its board agrees with the winner's.
       if (err instanceof CaseActionError) {
-        if (err.code === 'page_failed') announceCase(io, err.summary, { kind: 'page-failed', at: err.summary.updatedAt, by: req.me!.user.name });
+        if (err.code === 'page_failed') announceCase(deps, err.summary, { kind: 'page-failed', at: err.summary.updatedAt, by: req.me!.user.name });
         res.status(err.status).json({ ...errorBody(err), case: err.summary });
         return;
       }

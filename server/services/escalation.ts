@@ -1,7 +1,6 @@
 import type { Knex } from 'knex';
 import type { Logger } from 'pino';
-import { announceCase } from '../realtime/broadcast';
-import type { RealtimeServer } from '../realtime';
+import { announceCase, type Announcer } from '../realtime/broadcast';
 import type { Clock } from '../deps';
 import type { Mailer } from '../mail';
 import { recordCaseEvent, systemActor } from './audit';
@@ -13,7 +12,7 @@ import { composeEscalation, notificationList } from './paging';
 // A pre-alert nobody acknowledges is the failure that hurts most, and a browser tab cannot be
 // trusted to notice it (it may be closed, asleep, or the only one). So the server watches.
 
-export interface EscalationDeps { db: Knex; clock: Clock; mailer: Mailer; logger: Logger; io: RealtimeServer }
+export interface EscalationDeps extends Announcer { db: Knex; clock: Clock; mailer: Mailer; logger: Logger }
 
 /** How often the server looks; well under the shortest sensible escalation time [ours]. */
 export const ESCALATION_CHECK_MS = 15_000;
@@ -26,7 +25,7 @@ const SINCE = "COALESCE((SELECT MAX(e.at) FROM case_events e WHERE e.case_id = c
  * when the case reached this hospital (a redirect restarts it). Returns the cases marked.
  */
 export async function runEscalation(deps: EscalationDeps): Promise<number[]> {
-  const { db, clock, mailer, logger, io } = deps;
+  const { db, clock, mailer, logger } = deps;
   const now = clock.now();
   const due = await db('cases as c')
     .join('hospitals as h', 'h.id', 'c.hospital_id')
@@ -50,7 +49,7 @@ export async function runEscalation(deps: EscalationDeps): Promise<number[]> {
     if (!won) continue;
     marked.push(row.id);
     const summary = await caseSummary(db, row.id);
-    announceCase(io, summary, { kind: 'overdue', at: now, by: null });
+    announceCase(deps, summary, { kind: 'overdue', at: now, by: null });
     if (!recipients.length) {
       logger.warn({ caseId: row.id, hospitalId: row.hospital_id }, 'overdue case, but the hospital has no escalation list');
       continue;

@@ -112,7 +112,7 @@ describeInBrowser('New pre-alert on a phone in Chromium', () => {
     const at = Date.parse('2026-12-03T03:12:00');
     await server.db('cases').where({ id }).update({ state: 'acknowledged', acknowledged_at: at, acknowledged_by: nurse.id, bay: 'Resus 2', row_version: 5 });
     await page.getByRole('tab', { name: /^Open cases/ }).click();
-    announceCase(server.io, await caseSummary(server.db, id), { kind: 'acknowledged', at, by: 'Morgan Achterberg' });
+    announceCase(server.deps, await caseSummary(server.db, id), { kind: 'acknowledged', at, by: 'Morgan Achterberg' });
     const card = page.locator(`article[data-case-number="${caseNumber}"]`);
     await expect.poll(() => card.getByTestId('case-ack').textContent()).toBe(' Acknowledged by the ED at 03:12 (Morgan Achterberg)');
     expect(await card.getByTestId('case-bay').textContent()).toBe(' Go to: Resus 2');

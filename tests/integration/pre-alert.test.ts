@@ -137,6 +137,23 @@ describe('case:submit', () => {
     expect(await server.db('cases').where({ client_id: payload.clientId }).count({ n: '*' }).first()).toEqual({ n: 1 });
   });
 
+  it('the board and every crew of the agency hear a pre-alert once, a nurse who also rides as crew once too', async () => {
+    const agency = (await server.db('agencies').where({ name: 'Alderwick County Ambulance Service' }).first('id')).id;
+    const [user] = await server.db('users').insert({ email: 'both.rooms@plumbline.test', name: 'Sam Okonjo-Reyes', password_hash: await hashPassword('both-pass'), active: true, created_at: Date.now() }).returning('id');
+    await server.db('user_roles').insert([{ user_id: user.id, role: 'paramedic' }, { user_id: user.id, role: 'charge_nurse' }]);
+    await server.db('memberships').insert([{ user_id: user.id, hospital_id: general, agency_id: null }, { user_id: user.id, hospital_id: null, agency_id: agency }]);
+    const both = await connectAs(server.url, await signIn(server.url, 'both.rooms@plumbline.test', 'both-pass'));
+    try {
+      const rooms = await new Promise<string[]>((resolve) => both.emit('session:rooms', (answer) => resolve(answer.ok ? answer.data.rooms : [])));
+      expect(rooms.sort()).toEqual([`agency:${agency}`, `hospital:${general}`, `user:${user.id}`].sort());
+      const heard = [both, board, crew].map((socket) => silence(socket, 'case:submitted', 600));
+      await submitted();
+      expect(await Promise.all(heard)).toEqual([1, 1, 1]);
+    } finally {
+      both.close();
+    }
+  });
+
   it('the same client id sent from two tabs at the same moment still makes one case', async () => {
     const payload = preAlert();
     const second = await connectAs(server.url, medic);

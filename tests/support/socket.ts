@@ -24,12 +24,20 @@ export function command<T = unknown>(socket: TestSocket, event: string, payload:
   return (socket as unknown as { timeout(ms: number): { emitWithAck(event: string, payload: unknown): Promise<never> } }).timeout(5000).emitWithAck(event, payload);
 }
 
-export function nextEvent<T extends unknown[]>(socket: TestSocket, event: keyof ServerToClientEvents, ms = 3000): Promise<T> {
+/** The next such event, or with `matching` the next one it accepts (an earlier change's copy may still be on its way). */
+export function nextEvent<T extends unknown[]>(socket: TestSocket, event: keyof ServerToClientEvents, ms = 3000, matching?: (...args: T) => boolean): Promise<T> {
+  const target = socket as unknown as { on(e: string, fn: (...args: unknown[]) => void): void; off(e: string, fn: (...args: unknown[]) => void): void };
   return new Promise((resolve, reject) => {
-    const timer = setTimeout(() => reject(new Error(`no ${String(event)} within ${ms} ms`)), ms);
-    (socket as unknown as { once(e: string, fn: (...args: unknown[]) => void): void }).once(event as string, (...args: unknown[]) => {
+    const heard = (...args: unknown[]) => {
+      if (matching && !matching(...(args as T))) return;
       clearTimeout(timer);
+      target.off(event as string, heard);
       resolve(args as T);
-    });
+    };
+    const timer = setTimeout(() => {
+      target.off(event as string, heard);
+      reject(new Error(`no ${String(event)}${matching ? ' that matched' : ''} within ${ms} ms`));
+    }, ms);
+    target.on(event as string, heard);
   });
 }
