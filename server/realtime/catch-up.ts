@@ -1,8 +1,8 @@
 import type { RequestHandler } from 'express';
 
 /**
- * Catch-up work waits its turn here: a socket's sign-in check, a board's reload. A pre-alert
- * does not.
+ * Catch-up work waits its turn here: a socket's sign-in check, a board's reload, the crews' copy
+ * of a change (realtime/broadcast.ts). A pre-alert, and the boards' copy of it, do not.
  *
  * After a restart or a network blip, hundreds of ambulances and boards come back within a
  * second or two. Each one's session lookup and each board's reload is a few milliseconds of

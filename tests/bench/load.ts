@@ -1,16 +1,16 @@
 // Many ambulances and boards on the real server while connections drop and the server process
 // dies: every acknowledged pre-alert must reach every board of its destination, once.
 import { randomUUID } from 'node:crypto';
-import { performance } from 'node:perf_hooks';
 import { io as connect, type Socket } from 'socket.io-client';
 import type { CaseSummary } from '../../shared/schemas/cases';
 import type { ClinicalInput } from '../../shared/schemas/clinical';
 import type { AckResponse, ClientToServerEvents, ServerToClientEvents } from '../../shared/realtime/events';
 import { createDb } from '../../server/db';
 import { verifyAuditChain } from '../../server/services/audit';
-import { signIn, type SignedInClient } from '../support/sign-in';
+import { signIn } from '../support/sign-in';
 import { childServer, databaseFileOf, tempDataDir, type ChildServer } from './support/child-server';
-import { boardReloads, type ReloadedCase } from './support/board-reloads';
+import { boardScreens, monotonicMs } from './support/board-screens';
+import { unreadBroadcasts } from './support/unread-broadcasts';
 import { prepareRegion } from './support/fixtures';
 import { percentile, round1, seededRandom, trafficOf } from './support/traffic';
 
@@ -96,6 +96,8 @@ interface Outgoing {
   clinical: ClinicalInput;
   attempts: number;
   lastEmitAt: number;
+  /** When each send went, in order: a board's sighting is timed only if exactly one had gone before it. */
+  emits: number[];
   /** Made while its ambulance had no link (the server restarting, a cut): it waited in the outbox. */
   madeOffline: boolean;
   /** Sent while the run warms up: counted, not timed. */
@@ -112,20 +114,8 @@ interface Ambulance {
   cases: Array<{ caseId: number; clinical: ClinicalInput; updates: number; busy: boolean }>;
 }
 
-interface Board {
-  socket: ClientSocket;
-  client: SignedInClient;
-  hospitalId: number;
-  /** clientId → the case ids it was seen under and the highest revision seen. */
-  seen: Map<string, { ids: Set<number>; revision: number }>;
-  connectedAt: number;
-  /** Its first reload: a board is up once it shows its cases. */
-  loaded?: Promise<void>;
-  /** Where its last snapshot stood: a reload after a fresh connection asks for the changes since. */
-  cursor?: string;
-}
-
-const now = () => performance.now();
+/** The boards run on their own thread (support/board-screens.ts); their clock is this one. */
+const now = monotonicMs;
 
 /** The load run's traffic comes from this seed: the same run sends the same pre-alerts every time. */
 export const LOAD_SEED = 20261209;
@@ -134,8 +124,9 @@ export const LOAD_SEED = 20261209;
 const RESTART_WINDOW_MS = 10_000;
 
 function openSocket(url: string, cookie: string): ClientSocket {
-  // The product's own client settings (src/api/socket.ts): socket.io reconnects by itself.
-  return connect(url, { transports: ['websocket'], forceNew: true, reconnectionDelayMax: 5000, extraHeaders: { cookie } });
+  // The product's own client settings (src/api/socket.ts): socket.io reconnects by itself. An
+  // ambulance acts on its acknowledgements and skips the broadcasts unread (support/unread-broadcasts.ts).
+  return connect(url, { transports: ['websocket'], forceNew: true, reconnectionDelayMax: 5000, extraHeaders: { cookie }, parser: unreadBroadcasts });
 }
 
 function connected(socket: ClientSocket): Promise<void> {
@@ -161,8 +152,8 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
   const dataDir = tempDataDir();
   const region = await prepareRegion(dataDir, { hospitals: opts.hospitals, paramedics: opts.crewSessions });
   const server = await childServer({ dataDir });
-  const reloads = boardReloads();
   const sockets: ClientSocket[] = [];
+  let screens: ReturnType<typeof boardScreens> | undefined;
   const started = now();
   try {
     await server.start();
@@ -179,19 +170,14 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
     let updatesRefused = 0;
     let resent = 0;
     let updatesSent = 0;
-    let foreignDeliveries = 0;
     let freshReconnects = 0;
     let recoveredReconnects = 0;
-    let snapshots = 0;
-    let summaryChars = 0;
-    let summaryCount = 0;
     /** The latency samples, each with its send time, to tell the seconds around a restart from the rest. */
     const timed: Array<{ at: number; ms: number }> = [];
     /** From each stop of the server to ten seconds after it answers again [ours]. */
     const restartWindows: Array<{ from: number; to: number }> = [];
     const outboxLatencies: number[] = [];
     const ambulances: Ambulance[] = [];
-    const boards: Board[] = [];
     const idOfCase = new Map<number, string>();
 
     /** One send of one pre-alert; resolves once it is answered, refused, timed out or cut off. */
@@ -200,6 +186,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
         item.attempts++;
         if (item.attempts > 1) resent++;
         item.lastEmitAt = now();
+        item.emits.push(item.lastEmitAt);
         const payload = { clientId: item.clientId, hospitalId: item.hospitalId, etaMinutes: traffic.between(5, 40), clinical: item.clinical };
         amb.socket.timeout(10_000).emit('case:submit', payload, (err: Error | null, answer: AckResponse<{ caseId: number; caseNumber: string; created: boolean; summary: CaseSummary }>) => {
           resolve();
@@ -238,87 +225,17 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
       }
     };
 
-    const observe = (board: Board, summary: ReloadedCase | CaseSummary, live: boolean) => {
-      if (summary.hospital.id !== board.hospitalId) {
-        foreignDeliveries++;
-        return;
-      }
-      const sent = outgoing.get(summary.clientId);
-      if (!sent) return; // A demo case, not one of ours.
-      let entry = board.seen.get(summary.clientId);
-      if (!entry) {
-        entry = { ids: new Set(), revision: 0 };
-        board.seen.set(summary.clientId, entry);
-        // One clean attempt on a board that stayed connected, after the warm-up: a latency
-        // sample. Deliveries across a cut or a restart are counted, not timed; a pre-alert that
-        // waited in an outbox through one is timed apart, from its first send on the restored link.
-        if (live && !sent.warmUp && sent.attempts === 1 && board.connectedAt < sent.lastEmitAt) {
-          const ms = now() - sent.lastEmitAt;
-          if (sent.madeOffline) outboxLatencies.push(ms);
-          else timed.push({ at: sent.lastEmitAt, ms });
-        }
-      }
-      entry.ids.add(summary.id);
-      entry.revision = Math.max(entry.revision, summary.revision);
-    };
-
-    const snapshot = async (board: Board, final = false) => {
-      for (let attempt = 0; attempt < 40; attempt++) {
-        try {
-          // What the product's board reads (src/stores/board.ts): the changes since its last
-          // snapshot after a fresh connection, the whole list at the start and at the end.
-          const since = !final && board.cursor ? `&changesSince=${encodeURIComponent(board.cursor)}` : '';
-          const res = await reloads.load(`${server.url}/api/board?hospitalId=${board.hospitalId}${since}`, await board.client.cookieHeader());
-          if (res.status === 200) {
-            snapshots++;
-            board.cursor = res.cursor;
-            for (const summary of res.cases) observe(board, summary, false);
-            return;
-          }
-        } catch {
-          // The server is away; the board tries again as the real one would.
-        }
-        await new Promise((r) => setTimeout(r, 500));
-      }
-      log('load: a board could not load its snapshot');
-    };
-
-    let boardIndex = 0;
+    // Two screens per ED (the desk and the wall) ride on the two sessions of its nurse.
+    const boardHospitals: number[] = [];
+    const boardSpecs: Array<{ url: string; cookie: string; hospitalId: number }> = [];
     for (const [h, hospital] of region.hospitals.entries()) {
       const perHospital = Math.floor(opts.boards / region.hospitals.length) + (h < opts.boards % region.hospitals.length ? 1 : 0);
-      for (let i = 0; i < perHospital; i++, boardIndex++) {
-        const client = boardSessions[h * 2 + (i % 2)];
-        const board: Board = { socket: openSocket(server.url, await client.cookieHeader()), client, hospitalId: hospital.id, seen: new Map(), connectedAt: 0 };
-        let first = true;
-        board.socket.on('connect', () => {
-          board.connectedAt = now();
-          if (!first) {
-            if (board.socket.recovered) recoveredReconnects++;
-            else freshReconnects++;
-          }
-          first = false;
-          // The real board reloads the truth after every connection that did not recover its state.
-          if (!board.socket.recovered) {
-            const reload = snapshot(board);
-            board.loaded ??= reload;
-          }
-        });
-        board.socket.on('case:submitted', (summary) => {
-          summaryChars += JSON.stringify(summary).length;
-          summaryCount++;
-          observe(board, summary, true);
-        });
-        board.socket.on('case:updated', (summary) => observe(board, summary, true));
-        board.socket.on('disconnect', (reason) => {
-          // Until the next 'connect' the board is across a cut: socket.io hands a recovered
-          // socket the packets it missed before it fires 'connect', and those are not timed.
-          board.connectedAt = Infinity;
-          if (reason === 'io server disconnect') board.socket.connect();
-        });
-        boards.push(board);
-        sockets.push(board.socket);
+      for (let i = 0; i < perHospital; i++) {
+        boardHospitals.push(hospital.id);
+        boardSpecs.push({ url: server.url, cookie: await boardSessions[h * 2 + (i % 2)].cookieHeader(), hospitalId: hospital.id });
       }
     }
+    const boards = (screens = boardScreens(boardSpecs));
 
     for (let i = 0; i < opts.ambulances; i++) {
       const amb: Ambulance = { socket: openSocket(server.url, crewCookies[i % crewCookies.length]), outbox: new Map(), draining: false, cases: [] };
@@ -338,10 +255,9 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
       ambulances.push(amb);
       sockets.push(amb.socket);
     }
-    await inBatches(sockets, 50, connected);
-    // The run starts with every board up: showing the cases it had, as at the start of a shift.
-    await Promise.all(boards.map((b) => b.loaded));
-    log(`load: ${ambulances.length} ambulances and ${boards.length} boards connected`);
+    // The run starts with every board up, showing the cases it had, as at the start of a shift.
+    await Promise.all([inBatches(sockets, 50, connected), boards.start()]);
+    log(`load: ${ambulances.length} ambulances and ${boardSpecs.length} boards connected`);
 
     // The schedule: a steady rate of sends; two restarts of the server process, the first a kill -9.
     const total = opts.alerts + opts.updates;
@@ -353,7 +269,12 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
     let alertsSent = 0;
     const dropTimer = setInterval(() => {
       for (let k = 0; k < Math.max(1, Math.round(opts.dropsPerSecond / 2)); k++) {
-        const victim = random() < 0.15 ? boards[Math.floor(random() * boards.length)].socket : ambulances[Math.floor(random() * ambulances.length)].socket;
+        if (random() < 0.15) {
+          // Counted on the boards' thread, if it was up.
+          void boards.drop(Math.floor(random() * boardSpecs.length));
+          continue;
+        }
+        const victim = ambulances[Math.floor(random() * ambulances.length)].socket;
         if (!victim.connected) continue;
         (victim.io as unknown as { engine: { close(): void } }).engine.close();
         drops++;
@@ -414,7 +335,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
       // Nothing to update yet (the link is down): this tick passes.
       if (alertsSent >= opts.alerts) continue;
       const amb = ambulances[Math.floor(random() * ambulances.length)];
-      const item: Outgoing = { clientId: randomUUID(), hospitalId: region.hospitals[alertsSent % region.hospitals.length].id, clinical: traffic.firstReport(), attempts: 0, lastEmitAt: 0, madeOffline: !amb.socket.connected, warmUp: tick * intervalMs < opts.warmUpMs };
+      const item: Outgoing = { clientId: randomUUID(), hospitalId: region.hospitals[alertsSent % region.hospitals.length].id, clinical: traffic.firstReport(), attempts: 0, lastEmitAt: 0, emits: [], madeOffline: !amb.socket.connected, warmUp: tick * intervalMs < opts.warmUpMs };
       alertsSent++;
       outgoing.set(item.clientId, item);
       amb.outbox.set(item.clientId, item);
@@ -428,23 +349,42 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
     while (now() < settleUntil && ambulances.some((a) => a.outbox.size > 0 || !a.socket.connected)) await new Promise((r) => setTimeout(r, 200));
     // The last broadcasts, then every board's final snapshot, as after a reload.
     await new Promise((r) => setTimeout(r, 1500));
-    await inBatches(boards, 5, (b) => snapshot(b, true));
+    await boards.finalReloads();
+    const seen = await boards.report();
+    if (seen.failedSnapshots) log(`load: ${seen.failedSnapshots} board reloads failed 40 times over`);
+    freshReconnects += seen.freshReconnects;
+    recoveredReconnects += seen.recoveredReconnects;
+    const seenBy = seen.sightings.map((list) => new Map(list.map((s) => [s.clientId, s])));
+
+    // Each board's first sighting of a pre-alert, by a live broadcast on a board that stayed
+    // connected, after exactly one send (not across a cut or a restart), after the warm-up: a
+    // latency sample. Deliveries otherwise are counted, not timed; a pre-alert that waited in an
+    // outbox is timed apart, from its first send on the restored link.
+    for (const sightings of seen.sightings) {
+      for (const s of sightings) {
+        const sent = outgoing.get(s.clientId);
+        if (!sent || !s.live || sent.warmUp) continue; // A demo case, not one of ours; or not timed.
+        const before = sent.emits.filter((t) => t <= s.at);
+        if (before.length !== 1 || !(s.connectedAt < before[0])) continue;
+        if (sent.madeOffline) outboxLatencies.push(s.at - before[0]);
+        else timed.push({ at: before[0], ms: s.at - before[0] });
+      }
+    }
 
     const acked = [...outgoing.values()].filter((o) => o.ack);
     let lost = 0;
     let delivered = 0;
-    let sawTwice = 0;
     for (const item of acked) {
-      const mine = boards.filter((b) => b.hospitalId === item.hospitalId);
-      if (mine.every((b) => b.seen.has(item.clientId))) delivered++;
+      const mine = seenBy.filter((_, b) => boardHospitals[b] === item.hospitalId);
+      if (mine.every((m) => m.has(item.clientId))) delivered++;
       else lost++;
     }
-    for (const board of boards) for (const entry of board.seen.values()) if (entry.ids.size > 1) sawTwice++;
+    const sawTwice = seen.sightings.flat().filter((s) => s.ids.length > 1).length;
     const answeredTwoWays = acked.filter((o) => o.ack!.caseId === -1).length;
     let updatesLost = 0;
     for (const update of updatesAcked) {
-      const mine = boards.filter((b) => b.hospitalId === update.hospitalId);
-      if (!mine.every((b) => (b.seen.get(update.clientId)?.revision ?? 0) >= update.revision)) updatesLost++;
+      const mine = seenBy.filter((_, b) => boardHospitals[b] === update.hospitalId);
+      if (!mine.every((m) => (m.get(update.clientId)?.revision ?? 0) >= update.revision)) updatesLost++;
     }
 
     // The database's own count: one case per client id, and every acknowledged one is there.
@@ -477,7 +417,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
     const steady = timed.filter((t) => !nearRestart(t.at)).map((t) => t.ms).sort((a, b) => a - b);
     return {
       ambulances: ambulances.length,
-      boards: boards.length,
+      boards: boardSpecs.length,
       hospitals: region.hospitals.length,
       alerts: alertsSent,
       acknowledged: acked.length,
@@ -492,26 +432,26 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
       updatesLost,
       alertsRefused,
       updatesRefused,
-      foreignDeliveries,
+      foreignDeliveries: seen.foreignDeliveries,
       resent,
-      drops,
+      drops: drops + seen.drops,
       restarts: restartKinds.length,
       restartKinds,
       freshReconnects,
       recoveredReconnects,
-      snapshots,
+      snapshots: seen.snapshots,
       p50Ms: round1(percentile(latencies, 50)),
       p99Ms: round1(percentile(latencies, 99)),
       steadyP99Ms: round1(percentile(steady, 99)),
       samplesNearRestarts: timed.length - steady.length,
       outbox: { samples: outboxLatencies.length, p50Ms: round1(percentile(outboxLatencies, 50)), p99Ms: round1(percentile(outboxLatencies, 99)) },
       latencySamples: latencies.length,
-      summaryChars: summaryCount ? Math.round(summaryChars / summaryCount) : 0,
+      summaryChars: seen.summaryCount ? Math.round(seen.summaryChars / seen.summaryCount) : 0,
       durationS: round1((now() - started) / 1000)!,
     };
   } finally {
     for (const socket of sockets) socket.close();
-    await reloads.close();
+    await screens?.close();
     await server.dispose();
   }
 }
