@@ -229,6 +229,12 @@ describeInBrowser('the Inbound board in Chromium', () => {
     const theirs = await server.db('cases').where({ hospital_id: community }).whereIn('state', ['en-route', 'acknowledged', 'arrived']).pluck('case_number');
     await expect.poll(async () => (await desk.locator('article.case-card').evaluateAll((cards) => cards.map((c) => c.getAttribute('data-case-number')))).sort()).toEqual(theirs.sort());
     expect(await desk.locator('article.case-card .actions').count()).toBe(0);
+    // The choice is kept in the address: a refresh shows the same ED, and an ED that is not theirs falls back to their first.
+    expect(new URL(desk.url()).searchParams.get('ed')).toBe(String(community));
+    await desk.reload();
+    await expect.poll(() => desk.locator('p.hospital').textContent()).toMatch(/^Fenmoor Community Hospital · /);
+    await desk.goto(`${server.url}/board?ed=999999`);
+    await expect.poll(() => desk.locator('p.hospital').textContent()).toMatch(/^Alderwick General Hospital · /);
     await admin.context.close();
   });
 });
