@@ -1,10 +1,11 @@
+import type { Logger } from 'pino';
 import type { CaseSummary } from '../../shared/schemas/cases';
 import { roomOfAgency, roomOfHospital, type CaseChange } from '../../shared/realtime/events';
 import type { CatchUpLane } from './catch-up';
 import type { RealtimeServer } from './index';
 
-/** What an announcement needs: the socket server, and the lane the crews' copies wait in. */
-export interface Announcer { io: RealtimeServer; catchUp: CatchUpLane }
+/** What an announcement needs: the socket server, the lane the crews' copies wait in, and where a failed copy is logged. */
+export interface Announcer { io: RealtimeServer; catchUp: CatchUpLane; logger: Logger }
 
 /**
  * After a change commits: the destination's boards hear of it at once; the sending agency's
@@ -15,12 +16,12 @@ export interface Announcer { io: RealtimeServer; catchUp: CatchUpLane }
  * copies carry the row version, so a screen that hears of a case twice keeps the later one;
  * the crews' copies leave in the order the changes were made.
  */
-export function announceCase({ io, catchUp }: Announcer, summary: CaseSummary, change: CaseChange | 'submitted'): void {
+export function announceCase({ io, catchUp, logger }: Announcer, summary: CaseSummary, change: CaseChange | 'submitted'): void {
   const boards = roomOfHospital(summary.hospital.id);
   const send = (to: ReturnType<RealtimeServer['to']>) => (change === 'submitted' ? to.emit('case:submitted', summary) : to.emit('case:updated', summary, change));
   send(io.to(boards));
   // A person in both rooms (a nurse who is also a crew member) has had the boards' copy.
-  void catchUp.run(() => send(io.to(roomOfAgency(summary.agency.id)).except(boards)));
+  catchUp.run(() => send(io.to(roomOfAgency(summary.agency.id)).except(boards))).catch((err: unknown) => logger.error({ err, caseId: summary.id }, "the crews' copy of a change could not be sent"));
 }
 
 export function announceRemoved({ io }: Announcer, hospitalId: number, summary: CaseSummary, reason: string): void {

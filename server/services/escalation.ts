@@ -1,5 +1,4 @@
 import type { Knex } from 'knex';
-import type { Logger } from 'pino';
 import { announceCase, type Announcer } from '../realtime/broadcast';
 import type { Clock } from '../deps';
 import type { Mailer } from '../mail';
@@ -12,7 +11,7 @@ import { composeEscalation, notificationList } from './paging';
 // A pre-alert nobody acknowledges is the failure that hurts most, and a browser tab cannot be
 // trusted to notice it (it may be closed, asleep, or the only one). So the server watches.
 
-export interface EscalationDeps extends Announcer { db: Knex; clock: Clock; mailer: Mailer; logger: Logger }
+export interface EscalationDeps extends Announcer { db: Knex; clock: Clock; mailer: Mailer }
 
 /** How often the server looks; well under the shortest sensible escalation time [ours]. */
 export const ESCALATION_CHECK_MS = 15_000;
