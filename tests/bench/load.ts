@@ -94,8 +94,6 @@ interface Outgoing {
   clientId: string;
   hospitalId: number;
   clinical: ClinicalInput;
-  attempts: number;
-  lastEmitAt: number;
   /** When each send went, in order: a board's sighting is timed only if exactly one had gone before it. */
   emits: number[];
   /** Made while its ambulance had no link (the server restarting, a cut): it waited in the outbox. */
@@ -183,10 +181,8 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
     /** One send of one pre-alert; resolves once it is answered, refused, timed out or cut off. */
     const sendAlert = (amb: Ambulance, item: Outgoing) =>
       new Promise<void>((resolve) => {
-        item.attempts++;
-        if (item.attempts > 1) resent++;
-        item.lastEmitAt = now();
-        item.emits.push(item.lastEmitAt);
+        if (item.emits.length) resent++;
+        item.emits.push(now());
         const payload = { clientId: item.clientId, hospitalId: item.hospitalId, etaMinutes: traffic.between(5, 40), clinical: item.clinical };
         amb.socket.timeout(10_000).emit('case:submit', payload, (err: Error | null, answer: AckResponse<{ caseId: number; caseNumber: string; created: boolean; summary: CaseSummary }>) => {
           resolve();
@@ -335,7 +331,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
       // Nothing to update yet (the link is down): this tick passes.
       if (alertsSent >= opts.alerts) continue;
       const amb = ambulances[Math.floor(random() * ambulances.length)];
-      const item: Outgoing = { clientId: randomUUID(), hospitalId: region.hospitals[alertsSent % region.hospitals.length].id, clinical: traffic.firstReport(), attempts: 0, lastEmitAt: 0, emits: [], madeOffline: !amb.socket.connected, warmUp: tick * intervalMs < opts.warmUpMs };
+      const item: Outgoing = { clientId: randomUUID(), hospitalId: region.hospitals[alertsSent % region.hospitals.length].id, clinical: traffic.firstReport(), emits: [], madeOffline: !amb.socket.connected, warmUp: tick * intervalMs < opts.warmUpMs };
       alertsSent++;
       outgoing.set(item.clientId, item);
       amb.outbox.set(item.clientId, item);

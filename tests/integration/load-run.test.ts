@@ -23,6 +23,7 @@ describe('a small load run through a kill -9 and a restart', () => {
     expect(run.outbox.samples).toBeGreaterThan(0);
     expect(run.latencySamples + run.outbox.samples).toBeLessThanOrEqual(2 * 60);
     expect(run.p50Ms).toBeGreaterThan(0);
-    expect(run.p99Ms!).toBeGreaterThanOrEqual(run.p50Ms!);
+    // Sends and sightings are stamped on two threads: on one shared clock no sample can exceed the acknowledgement timeout.
+    expect(run.p99Ms!).toBeLessThan(10_000);
   }, 120_000);
 });

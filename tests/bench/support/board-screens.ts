@@ -75,7 +75,17 @@ reloader.on('message', (m) => {
   waiting.delete(m.seq);
   if (pending) m.error !== undefined ? pending.reject(new Error(m.error)) : pending.resolve(m);
 });
+// A reload thread that died answers nothing: what waits is refused, and the boards try again.
+let reloaderGone = null;
+const reloaderFailed = (err) => {
+  reloaderGone = reloaderGone || err;
+  for (const pending of waiting.values()) pending.reject(reloaderGone);
+  waiting.clear();
+};
+reloader.on('error', reloaderFailed);
+reloader.on('exit', (code) => reloaderFailed(new Error('the reload thread exited (' + code + ')')));
 const reload = (url, cookie) => new Promise((resolve, reject) => {
+  if (reloaderGone) return reject(reloaderGone);
   waiting.set(++seq, { resolve, reject });
   reloader.postMessage({ seq, url, cookie });
 });
