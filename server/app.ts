@@ -9,6 +9,7 @@ import { sameOriginOnly, securityHeaders } from './security';
 import { createSignInRouter } from './auth/sign-in';
 import { apiRouters } from './routes';
 import { messagePage } from './idp/pages';
+import { webhooksRouter } from './routes/webhooks';
 
 export interface CreateAppOptions extends AppDeps {
   issuer: string;
@@ -46,6 +47,9 @@ export function createApp(opts: CreateAppOptions): Express {
 
   if (opts.idpRouter) app.use(opts.idpRouter);
 
+  // The SMS provider's webhooks: called by the provider, never by our pages, so deliberately the
+  // only POSTs outside the same-origin check; each is refused without the provider's signature.
+  app.use(webhooksRouter(opts));
   app.use(['/api', '/auth'], opts.sessionMiddleware, sameOriginOnly(publicOrigin));
   app.use('/api', express.json({ limit: '256kb' }));
   app.use(createSignInRouter({ db, logger, publicUrl, issuer: opts.issuer, clientId: config.oidc.clientId, clientSecret: config.oidc.clientSecret }));
@@ -60,7 +64,7 @@ export function createApp(opts: CreateAppOptions): Express {
     app.use(express.static(clientDir, { index: false, maxAge: '1h' }));
     const indexFile = resolve(clientDir, 'index.html');
     // Every other page is the single-page client; its router decides what to show.
-    app.get(/^\/(?!api\/|auth\/|idp\/|idp-assets\/).*/, (_req, res) => {
+    app.get(/^\/(?!api\/|auth\/|idp\/|idp-assets\/|webhooks\/).*/, (_req, res) => {
       if (!existsSync(indexFile)) {
         res.status(503).type('html').send(messagePage('Client not built', 'Run npm run build (npm start does it for you), then reload.'));
         return;

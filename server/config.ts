@@ -14,6 +14,8 @@ export interface Config {
   oidc: { issuer: string | null; clientId: string; clientSecret: string };
   smtpUrl: string | null;
   mailFrom: string;
+  /** The SMS provider's account; null runs the local fake of its REST API. */
+  sms: { accountSid: string; authToken: string; from: string } | null;
   logLevel: string;
   dev: boolean;
   seedDemo: boolean;
@@ -33,6 +35,8 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env, overrides: Part
   const port = overrides.port ?? Number(env.PORT ?? 3000);
   if (!Number.isInteger(port) || port < 0 || port > 65535) throw new Error(`PORT must be a port number, got "${env.PORT}"`);
   const publicUrl = overrides.publicUrl ?? (env.PUBLIC_URL ? env.PUBLIC_URL.replace(/\/$/, '') : null);
+  const smsVars = [env.TWILIO_ACCOUNT_SID, env.TWILIO_AUTH_TOKEN, env.TWILIO_FROM_NUMBER];
+  if (smsVars.some(Boolean) && !smsVars.every(Boolean)) throw new Error('Set all of TWILIO_ACCOUNT_SID, TWILIO_AUTH_TOKEN and TWILIO_FROM_NUMBER, or none of them for the local SMS fake');
   return {
     port,
     host: env.HOST ?? '0.0.0.0',
@@ -49,6 +53,7 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env, overrides: Part
     },
     smtpUrl: env.SMTP_URL || null,
     mailFrom: env.MAIL_FROM || 'Plumbline <plumbline@plumbline.test>',
+    sms: smsVars.every(Boolean) ? { accountSid: env.TWILIO_ACCOUNT_SID!, authToken: env.TWILIO_AUTH_TOKEN!, from: env.TWILIO_FROM_NUMBER! } : null,
     logLevel: env.LOG_LEVEL || (env.NODE_ENV === 'test' ? 'silent' : 'info'),
     dev: false,
     seedDemo: env.SEED_DEMO !== 'false',

@@ -3,6 +3,7 @@ import type { Knex } from 'knex';
 import type { Logger } from 'pino';
 import type { Config } from './config';
 import type { Mailer } from './mail';
+import type { SmsSender } from './sms';
 import type { RealtimeServer } from './realtime';
 import type { CatchUpLane } from './realtime/catch-up';
 
@@ -16,6 +17,8 @@ export interface AppDeps {
   logger: Logger;
   clock: Clock;
   mailer: Mailer;
+  /** SMS through the provider's SDK (or its local fake). */
+  sms: SmsSender;
   /** The origin people reach, without a trailing slash. */
   publicUrl: string;
   sessionMiddleware: RequestHandler;

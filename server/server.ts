@@ -11,6 +11,8 @@ import { systemClock, type AppDeps, type Clock } from './deps';
 import { createSessionMiddleware } from './auth/session';
 import { createLocalIdp } from './idp/provider';
 import { createMailer, type Mailer } from './mail';
+import { createSmsSender, type SmsSender } from './sms';
+import { recordingMailer } from './services/messages';
 import { attachSocketFeatures, createRealtime, type RealtimeServer } from './realtime';
 import { catchUpLane } from './realtime/catch-up';
 import { socketFeatures } from './realtime/features';
@@ -25,6 +27,7 @@ export interface RunningServer {
   db: Knex;
   io: RealtimeServer;
   mailer: Mailer;
+  sms: SmsSender;
   logger: Logger;
   http: HttpServer;
   deps: AppDeps;
@@ -76,10 +79,12 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
   const issuer = config.oidc.issuer ?? `${publicUrl}/idp`;
 
   const mailer = opts.mailer ?? (await createMailer({ smtpUrl: config.smtpUrl, from: config.mailFrom, db, logger, clock }));
+  const sms = await createSmsSender({ config: config.sms, publicUrl, logger });
+  if (sms.local) logger.info({ url: sms.fakeUrl }, 'no SMS account configured: the local SMS fake receives pages');
   const sessionMiddleware = createSessionMiddleware({ db, secret: config.sessionSecret, secure: publicUrl.startsWith('https://') });
   const catchUp = catchUpLane();
   const io = createRealtime({ httpServer: http, sessionMiddleware, db, logger, publicOrigin: new URL(publicUrl).origin, catchUp });
-  const deps: AppDeps = { config, db, logger, clock, mailer, publicUrl, sessionMiddleware, io, catchUp };
+  const deps: AppDeps = { config, db, logger, clock, mailer: recordingMailer(mailer, db, clock, logger), sms, publicUrl, sessionMiddleware, io, catchUp };
   attachSocketFeatures(io, socketFeatures(deps));
 
   const idp = config.oidc.issuer
@@ -112,6 +117,7 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
     db,
     io,
     mailer,
+    sms,
     logger,
     http,
     deps,
@@ -123,6 +129,7 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
       http.closeAllConnections?.();
       await vite?.close();
       await mailer.close();
+      await sms.close();
       await checkpoints?.stop();
       if (!opts.db) await db.destroy();
     },

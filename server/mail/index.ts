@@ -11,6 +11,8 @@ export interface OutgoingMail {
   text: string;
   /** The hospital the message is sent for; it travels in a header our own mail catcher reads. */
   hospitalId?: number | null;
+  /** What the Messages sent page records beside the e-mail (its case, its place in a page's rounds). */
+  record?: { caseId?: number | null; userId?: number | null; tier?: number | null; round?: number | null; fallbackOf?: number | null };
 }
 
 export const HOSPITAL_HEADER = 'X-Plumbline-Hospital';

@@ -8,6 +8,7 @@ import { CaseIdParam } from './params';
 import { announceCase } from '../realtime/broadcast';
 import { actOnCase, boardSnapshotJson, CaseActionError } from '../services/board';
 import { sendJsonText } from './json-text';
+import { startPaging } from '../services/sms-paging';
 
 const BoardQuery = z.object({
   hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }).optional(),
@@ -33,6 +34,8 @@ export function boardRouter(deps: AppDeps): Router {
       const { id } = parseOr400(CaseId, req.params);
       const { summary, change } = await actOnCase(deps, { me: req.me!, role: 'charge_nurse' }, id, action, req.body ?? {});
       announceCase(deps, summary, change);
+      // The page by SMS (and tier 1's other entries) follows the e-mail; its failures are recorded, not thrown.
+      if (action === 'page') await startPaging(deps, id, { id: req.me!.user.id, role: 'charge_nurse' });
       res.json({ case: summary });
     } catch (err) {
       // The loser of a race gets the case as it now stands, so its board agrees with the winner's.

@@ -24,6 +24,7 @@ import { GENESIS_HASH, newestAuditRow, recordCaseEvent, type Actor } from './aud
 import { caseSummary, listCaseSummariesJson, loadCaseRow, type CaseActor } from './cases';
 import { composePage, notificationList } from './paging';
 import { policyInForce } from './policies';
+import { hasTierOneEntries } from './sms-paging';
 
 type CaseRow = Awaited<ReturnType<typeof loadCaseRow>>;
 
@@ -285,7 +286,7 @@ async function pageTeam(deps: BoardDeps, actor: CaseActor, row: CaseRow, at: num
   if (!level) await refuse(db, row.id, 409, 'conflict', 'Decide the level before paging the team.');
   if (level === 'none') await refuse(db, row.id, 409, 'conflict', `${levelName(levels, 'none')} was decided, so there is no team to page.`);
   const recipients = await notificationList(db, row.hospital_id, level as 'full' | 'limited' | 'consult');
-  if (!recipients.length) await refuse(db, row.id, 409, 'no_recipients', `The ${levelName(levels, level)} list has no addresses. An administrator adds them in People & places.`);
+  if (!recipients.length && !(await hasTierOneEntries(db, row.hospital_id, level!))) await refuse(db, row.id, 409, 'no_recipients', `The ${levelName(levels, level)} list has no addresses. An administrator adds them in People & places.`);
 
   const before = await caseSummary(db, row.id);
   const mail = composePage(before, level!, levels, at);
@@ -295,7 +296,7 @@ async function pageTeam(deps: BoardDeps, actor: CaseActor, row: CaseRow, at: num
     before: { pagedAt: row.paged_at == null ? null : Number(row.paged_at) },
   });
   try {
-    await mailer.send({ ...mail, to: recipients, hospitalId: row.hospital_id });
+    if (recipients.length) await mailer.send({ ...mail, to: recipients, hospitalId: row.hospital_id, record: { caseId: row.id, tier: 1, round: 1 } });
   } catch (err) {
     const claimed = await loadCaseRow(db, row.id);
     await db.transaction(async (trx) => {

@@ -1,5 +1,6 @@
 // The socket.io event maps both sides type against. Commands are imperative (`case:submit`),
 // broadcasts are past tense (`case:submitted`). Every command answers through its acknowledgement.
+import type { PagingStatus } from '../schemas/paging';
 import type { CaseCancel, CaseRedirect, CaseSummary, PreAlert, PreAlertUpdate } from '../schemas/cases';
 
 export type Ack<T> = (response: AckResponse<T>) => void;
@@ -25,6 +26,8 @@ export interface ServerToClientEvents {
   'case:updated': (summary: CaseSummary, change: CaseChange) => void;
   /** The case left this room's view (redirected to another ED). */
   'case:removed': (info: { id: number; caseNumber: string; reason: string }) => void;
+  /** A paged case's replies or failed messages changed. */
+  'paging:changed': (status: PagingStatus) => void;
 }
 
 export interface ClientToServerEvents {

@@ -1,0 +1,59 @@
+import { Router, type Request } from 'express';
+import { z } from 'zod';
+import type { AppDeps } from '../deps';
+import { assertHospital, hospitalIdsOf, requireRole, requireUser } from '../auth/guards';
+import { parseOr400 } from '../errors';
+import { IdParam } from './params';
+import { PagingContact, PagingPlan } from '../../shared/schemas/paging';
+import { REVIEW_READER_ROLES, scopeHospitals } from '../services/reviews';
+import { listMessages } from '../services/messages';
+import { boardPaging, getPagingPlan, hospitalPeople, pageToFirstComing, savePagingPlan, setContact } from '../services/sms-paging';
+
+const idOf = (req: Request) => parseOr400(IdParam, req.params).id;
+const HospitalQuery = z.object({ hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }) });
+const IntervalQuery = z.object({
+  hospitalId: HospitalQuery.shape.hospitalId.optional(),
+  days: z.coerce.number({ error: 'must be a number of days' }).int({ error: 'must be whole days' }).min(1, { error: 'must be at least 1' }).max(3660, { error: 'must be at most 3660' }).default(90),
+});
+const Limit = z.object({ limit: z.coerce.number({ error: 'must be a number' }).int({ error: 'must be a whole number' }).min(1, { error: 'must be at least 1' }).max(500, { error: 'must be at most 500' }).default(200) });
+
+export function pagingRouter(deps: AppDeps): Router {
+  const { db, clock, sms, mailer } = deps;
+  const router = Router();
+  const user = requireUser(db);
+  const admin = requireRole('admin');
+
+  const settings = async (hospitalId: number) => ({
+    plan: await getPagingPlan(db, hospitalId),
+    people: await hospitalPeople(db, hospitalId),
+    sms: { local: sms.local, from: sms.from },
+  });
+  router.get('/api/paging/hospitals/:id', user, admin, async (req, res) => {
+    const id = idOf(req);
+    assertHospital(req.me!, id);
+    res.json(await settings(id));
+  });
+  router.put('/api/paging/hospitals/:id/plan', user, admin, async (req, res) => {
+    const id = idOf(req);
+    assertHospital(req.me!, id);
+    await savePagingPlan(db, req.me!, id, parseOr400(PagingPlan, req.body), clock.now());
+    res.json(await settings(id));
+  });
+  router.put('/api/paging/contacts/:id', user, admin, async (req, res) => res.json(await setContact(db, req.me!, idOf(req), parseOr400(PagingContact, req.body), clock.now())));
+
+  router.get('/api/paging/board', user, requireRole('charge_nurse', 'trauma_lead', 'admin'), async (req, res) => {
+    res.json(await boardPaging(db, req.me!, parseOr400(HospitalQuery, req.query).hospitalId));
+  });
+  router.get('/api/paging/intervals', user, requireRole(...REVIEW_READER_ROLES), async (req, res) => {
+    const q = parseOr400(IntervalQuery, req.query);
+    const to = clock.now();
+    res.json(await pageToFirstComing(db, scopeHospitals(req.me!, q.hospitalId), { from: to - q.days * 86_400_000, to }));
+  });
+
+  // Everything sent, e-mail and SMS, for the admin's own hospitals.
+  router.get('/api/messages', user, admin, async (req, res) => {
+    const { limit } = parseOr400(Limit, req.query);
+    res.json({ mailLocal: mailer.local, smsLocal: sms.local, smsFakeUrl: sms.fakeUrl, messages: await listMessages(db, { hospitalIds: hospitalIdsOf(req.me!), limit }) });
+  });
+  return router;
+}
