@@ -1,4 +1,5 @@
 import { Router, type Request } from 'express';
+import dayjs from 'dayjs';
 import { z } from 'zod';
 import type { AppDeps } from '../deps';
 import { assertHospital, hospitalIdsOf, requireRole, requireUser } from '../auth/guards';
@@ -13,6 +14,8 @@ const idOf = (req: Request) => parseOr400(IdParam, req.params).id;
 const HospitalQuery = z.object({ hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }) });
 const IntervalQuery = z.object({
   hospitalId: HospitalQuery.shape.hospitalId.optional(),
+  from: z.iso.date({ error: 'must be a date (YYYY-MM-DD)' }).optional(),
+  to: z.iso.date({ error: 'must be a date (YYYY-MM-DD)' }).optional(),
   days: z.coerce.number({ error: 'must be a number of days' }).int({ error: 'must be whole days' }).min(1, { error: 'must be at least 1' }).max(3660, { error: 'must be at most 3660' }).default(90),
 });
 const Limit = z.object({ limit: z.coerce.number({ error: 'must be a number' }).int({ error: 'must be a whole number' }).min(1, { error: 'must be at least 1' }).max(500, { error: 'must be at most 500' }).default(200) });
@@ -46,8 +49,9 @@ export function pagingRouter(deps: AppDeps): Router {
   });
   router.get('/api/paging/intervals', user, requireRole(...REVIEW_READER_ROLES), async (req, res) => {
     const q = parseOr400(IntervalQuery, req.query);
-    const to = clock.now();
-    res.json(await pageToFirstComing(db, scopeHospitals(req.me!, q.hospitalId), { from: to - q.days * 86_400_000, to }));
+    const to = q.to ? dayjs(q.to).endOf('day').valueOf() : clock.now();
+    const from = q.from ? dayjs(q.from).startOf('day').valueOf() : to - q.days * 86_400_000;
+    res.json(await pageToFirstComing(db, scopeHospitals(req.me!, q.hospitalId), { from, to }));
   });
 
   // Everything sent, e-mail and SMS, for the admin's own hospitals.

@@ -66,7 +66,7 @@ export const screenRoutes: RouteRecordRaw[] = [
     path: '/mail',
     name: 'mail-sent',
     component: () => import('../views/MailSentView.vue'),
-    meta: { title: 'Mail sent', roles: ['admin'], nav: true },
+    meta: { title: 'Messages sent', roles: ['admin'], nav: true },
   },
 ];
 

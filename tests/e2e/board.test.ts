@@ -188,10 +188,10 @@ describeInBrowser('the Inbound board in Chromium', () => {
     expect(errors.filter((e) => !/ERR_CONNECTION_REFUSED|net::|WebSocket|socket\.io/.test(e))).toEqual([]);
   });
 
-  it('the administrator reads the page on the Mail sent page', async () => {
+  it('the administrator reads the page on the Messages sent page', async () => {
     const admin = await newSignedInPage(browser, server.url, 'admin@plumbline.test', { path: '/mail' });
     const page = admin.page;
-    await expect.poll(() => page.locator('h1').textContent()).toBe('Mail sent');
+    await expect.poll(() => page.locator('h1').textContent()).toBe('Messages sent');
     const item = page.locator('li.message', { hasText: `case ${sent.caseNumber})` });
     await item.waitFor();
     await item.getByRole('button', { name: 'Show the text' }).click();
@@ -200,7 +200,7 @@ describeInBrowser('the Inbound board in Chromium', () => {
     expect(text).toContain('Recommended by the policy: Full trauma team');
     expect(text).toContain('Bay: Resus 3');
     expect(text).toContain('Patient: 63-year-old female');
-    await expectAccessible(page, 'Mail sent');
+    await expectAccessible(page, 'Messages sent');
     await screenshot(page, 'mail-sent');
     await admin.context.close();
   });

@@ -101,6 +101,13 @@ const TABLE: Record<string, RouteEntry> = {
   'GET /api/quality/cases': { access: readersOfQuality, request: (ids) => ({ path: `/api/quality/cases?hospitalId=${ids.general}&${period}` }), allowed: 200 },
   'GET /api/quality/policies': { access: readersOfQuality, request: (ids) => ({ path: `/api/quality/policies?hospitalId=${ids.general}` }), allowed: 200 },
   'POST /api/quality/what-if': { access: readersOfQuality, request: () => ({ path: '/api/quality/what-if', body: {} }), allowed: 400 },
+  'GET /api/paging/hospitals/:id': { access: ['admin'], request: (ids) => ({ path: `/api/paging/hospitals/${ids.general}` }), allowed: 200 },
+  'PUT /api/paging/hospitals/:id/plan': { access: ['admin'], request: (ids) => ({ path: `/api/paging/hospitals/${ids.general}/plan`, body: {} }), allowed: 400 },
+  'PUT /api/paging/contacts/:id': { access: ['admin'], request: (ids) => ({ path: `/api/paging/contacts/${ids.nurse}`, body: {} }), allowed: 400 },
+  'GET /api/paging/board': { access: ['charge_nurse', 'trauma_lead', 'admin'], request: (ids) => ({ path: `/api/paging/board?hospitalId=${ids.general}` }), allowed: 200 },
+  'GET /api/paging/intervals': { access: readersOfReview, request: (ids) => ({ path: `/api/paging/intervals?hospitalId=${ids.general}` }), allowed: 200 },
+  'GET /api/messages': { access: ['admin'], request: () => ({ path: '/api/messages' }), allowed: 200 },
+
   'GET /api/quality/targets': { access: readersOfQuality, request: (ids) => ({ path: `/api/quality/targets?hospitalId=${ids.general}` }), allowed: 200 },
   'PUT /api/quality/targets': { access: ['quality', 'admin'], request: () => ({ path: '/api/quality/targets', body: {} }), allowed: 400 },
 };
@@ -113,6 +120,9 @@ const PUBLIC_PAGES: Record<string, { path: string; method: 'GET' | 'POST'; statu
   'POST /auth/logout': { method: 'POST', path: '/auth/logout', status: 303 },
   'GET /idp/interaction/:uid': { method: 'GET', path: '/idp/interaction/unknown', status: 400 },
   'POST /idp/interaction/:uid/login': { method: 'POST', path: '/idp/interaction/unknown/login', status: 400 },
+  // The SMS provider's webhooks: outside the same-origin check, refused without the provider's signature.
+  'POST /webhooks/sms/status': { method: 'POST', path: '/webhooks/sms/status', status: 403 },
+  'POST /webhooks/sms/inbound': { method: 'POST', path: '/webhooks/sms/inbound', status: 403 },
   // 503 "client not built" while another run rebuilds dist/client; never a sign-in wall.
   'GET <client pages>': { method: 'GET', path: '/board', status: [200, 503] },
 };
