@@ -406,6 +406,9 @@ describe('query strings and route ids under random and hostile values', () => {
     ['/api/quality/cases', () => quality, ['hospitalId', 'from', 'to', 'cell', 'month', 'agencyId', 'band', 'criterion', 'timeZone']],
     ['/api/quality/policies', () => quality, ['hospitalId']],
     ['/api/quality/targets', () => quality, ['hospitalId']],
+    ['/api/paging/board', () => nurse, ['hospitalId']],
+    ['/api/paging/intervals', () => lead, ['hospitalId', 'from', 'to', 'days']],
+    ['/api/messages', () => admin, ['limit']],
   ];
 
   it.each(READS.map(([path, who, keys]) => [path, who, keys] as const))('GET %s', async (path, who, keys) => {
@@ -431,6 +434,8 @@ describe('query strings and route ids under random and hostile values', () => {
     ['POST', '/api/people/agencies/:id/units', () => admin, { callSign: 'Medic 99' }],
     ['PATCH', '/api/people/units/:id', () => admin, { active: true }],
     ['POST', '/api/cases/:id/acknowledge', () => nurse, { rowVersion: 1 }],
+    ['GET', '/api/paging/hospitals/:id', () => admin, undefined],
+    ['PUT', '/api/paging/contacts/:id', () => admin, { email: null, mobile: null }],
   ];
   it.each(ROUTES_WITH_IDS)('%s %s with a hostile id', async (method, route, who, payload) => {
     await fuzz(badIds, (id) => send(who(), method, route.replace(':id', id), payload), async () => {}, 30);

@@ -112,6 +112,14 @@ describe('settings: contacts and tiers', () => {
     expect((await fenmoorNurse.get(`/api/paging/board?hospitalId=${general}`)).status).toBe(403);
     const unknownPerson = await admin.send('PUT', `/api/paging/hospitals/${general}/plan`, { ...(await (await admin.get(`/api/paging/hospitals/${general}`)).json()).plan, targetMinutes: 0 });
     expect([unknownPerson.status, (await unknownPerson.json()).error.field]).toEqual([400, 'targetMinutes']);
+    // A person from elsewhere in a tier is refused by name of the entry, and the saved plan stays as it was.
+    const stranger = (await server.db('users').where({ email: 'paramedic@plumbline.test' }).first('id')).id;
+    const saved = (await (await admin.get(`/api/paging/hospitals/${general}`)).json()).plan as PagingPlan;
+    const planted = structuredClone(saved);
+    planted.levels.full.tiers[0].push({ kind: 'person', value: stranger });
+    const refused = await admin.send('PUT', `/api/paging/hospitals/${general}/plan`, planted);
+    expect([refused.status, (await refused.json()).error.field]).toEqual([400, 'levels.full.tiers[0][2]']);
+    expect((await (await admin.get(`/api/paging/hospitals/${general}`)).json()).plan).toEqual(saved);
   });
 });
 
@@ -180,6 +188,9 @@ describe('paging by SMS through the SDK and the fake, and what comes back', () =
     // The same request signed with the account's secret is what the provider sends: accepted.
     expect((await post('/webhooks/sms/inbound', { 'X-Twilio-Signature': providerSignature(fake.authToken, url, params) })).status).toBe(200);
     expect((await server.db('page_replies').where({ case_id: summary.id }).orderBy('id').select('answer')).map((r) => r.answer)).toEqual(['coming', 'declined']);
+    // A replayed request (the provider retries, or someone resends a captured one) is answered but counted once.
+    expect((await post('/webhooks/sms/inbound', { 'X-Twilio-Signature': providerSignature(fake.authToken, url, params) })).status).toBe(200);
+    expect(await server.db('page_replies').where({ case_id: summary.id }).count({ n: '*' }).first()).toEqual({ n: 2 });
   });
 
   it('the SDK reports the provider\'s own error for a number it cannot send to', async () => {
