@@ -34,9 +34,10 @@ export function boardRouter(deps: AppDeps): Router {
       const { id } = parseOr400(CaseId, req.params);
       const { summary, change } = await actOnCase(deps, { me: req.me!, role: 'charge_nurse' }, id, action, req.body ?? {});
       announceCase(deps, summary, change);
-      // The page by SMS (and tier 1's other entries) follows the e-mail; its failures are recorded, not thrown.
-      if (action === 'page') await startPaging(deps, id, { id: req.me!.user.id, role: 'charge_nurse' });
       res.json({ case: summary });
+      // The page by SMS (and tier 1's other entries) follows the e-mail without holding up the nurse;
+      // its failures are recorded on the case and shown on the board, never thrown.
+      if (action === 'page') void startPaging(deps, id, { id: req.me!.user.id, role: 'charge_nurse' });
     } catch (err) {
       // The loser of a race gets the case as it now stands, so its board agrees with the winner's.
       if (err instanceof CaseActionError) {

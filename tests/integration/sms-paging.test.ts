@@ -128,10 +128,10 @@ describe('paging by SMS through the SDK and the fake, and what comes back', () =
 
   it('sends a short SMS with level, age and sex, mechanism, ETA, bay and case number, and no name', async () => {
     summary = await pagedCase('Patient name Ada Example');
-    const [body] = sentBodies(LEAD_MOBILE);
+    const [body] = await until(async () => sentBodies(LEAD_MOBILE), (b) => b.length > 0);
     expect(body).toMatch(new RegExp(`^FULL TRAUMA TEAM Alderwick General Hospital: 34-year-old male, fall 13\\.1 ft onto concrete, ETA \\d\\d:\\d\\d \\(12 min\\), Resus 2\\. Case ${summary.caseNumber}\\. Reply 1 on my way, 2 can't come\\.$`));
     expect(body).not.toContain('Ada');
-    const [row] = await smsTo(summary.id, LEAD_MOBILE);
+    const [row] = await until(() => smsTo(summary.id, LEAD_MOBILE), (rows) => rows[0]?.provider_id != null);
     expect(row.provider_id).toMatch(/^SM[0-9a-f]{32}$/);
     expect(row.user_id).toBe(lead);
     const round = await server.db('case_events').where({ case_id: summary.id, kind: 'page-sms-sent' }).first('data', 'actor_role');
@@ -209,7 +209,7 @@ describe('re-paging in tiers when nobody answers', () => {
     const summary = await pagedCase();
     const before = sentBodies(ON_CALL_MOBILE).length;
     const leadCount = () => sentBodies(LEAD_MOBILE).filter((b) => b.includes(summary.caseNumber)).length;
-    expect(leadCount()).toBe(1);
+    await until(async () => leadCount(), (n) => n === 1);
 
     clock.t += 3 * MIN - 1000;
     expect(await runRepaging(server.deps)).toEqual([]);
