@@ -26,6 +26,7 @@ describeInBrowser('SMS paging in Chromium', () => {
   let nurse: { context: BrowserContext; page: Page };
   let crew: TestSocket;
   let summary: CaseSummary;
+  let adminCookies: Array<{ name: string; value: string }>;
 
   beforeAll(async () => {
     const config = loadConfig({ NODE_ENV: 'test' }, { port: 0, host: '127.0.0.1', dataDir, logLevel: 'silent' });
@@ -54,16 +55,19 @@ describeInBrowser('SMS paging in Chromium', () => {
     await expect.poll(async () => (await server.db('paging_contacts').where({ mobile: LEAD_MOBILE }).first('user_id'))?.user_id ?? null).not.toBeNull();
     await expectAccessible(page, 'People & places, Paging');
     await screenshot(page, 'paging-settings');
+    adminCookies = await admin.context.cookies(server.url);
+    await admin.context.close();
+  });
 
+  it('the lead is on tier 1 of the full team, and a case is ready to page', async () => {
     // The tier itself through the same API the panel's Save uses: the lead is paged for the full team.
     const api = browserlessClient(server.url);
-    for (const c of await admin.context.cookies(server.url)) await api.jar.setCookie(`${c.name}=${c.value}`, server.url);
+    for (const c of adminCookies) await api.jar.setCookie(`${c.name}=${c.value}`, server.url);
     const general = (await server.db('hospitals').where({ name: 'Alderwick General Hospital' }).first('id')).id;
     const lead = (await server.db('users').where({ email: 'lead@plumbline.test' }).first('id')).id;
     const plan: PagingPlan = (await (await api.get(`/api/paging/hospitals/${general}`)).json()).plan;
     plan.levels.full.tiers = [[{ kind: 'person', value: lead }]];
     expect((await api.send('PUT', `/api/paging/hospitals/${general}/plan`, plan)).status).toBe(200);
-    await admin.context.close();
 
     // A case ready to page: acknowledged, decided at the recommendation, in a bay.
     // SBP < 90 at 10–64 years is high risk [source: Newgard 2022] → the example policy's full level.
@@ -79,15 +83,20 @@ describeInBrowser('SMS paging in Chromium', () => {
     summary = s;
   });
 
-  it('the nurse pages, the SMS service page shows the text, a reply "1" is sent there, and the card shows the lead on the way', async () => {
-    nurse = await newSignedInPage(browser, server.url, 'nurse@plumbline.test', { path: '/board', device: DESK });
-    const card = nurse.page.locator(`article[data-case-number="${summary.caseNumber}"]`);
-    await card.getByRole('button', { name: 'Page team' }).click();
-    await nurse.page.getByRole('button', { name: 'Page Full trauma team' }).click();
-    await expect.poll(() => card.locator('.primary-action').textContent()).toBe('Mark arrived');
+  let phone: BrowserContext;
+  let sms: Page;
+  const card = () => nurse.page.locator(`article[data-case-number="${summary.caseNumber}"]`);
 
-    const phone = await browser.newContext({ viewport: DESK.viewport });
-    const sms = await phone.newPage();
+  it('the nurse pages the team from the board', async () => {
+    nurse = await newSignedInPage(browser, server.url, 'nurse@plumbline.test', { path: '/board', device: DESK });
+    await card().getByRole('button', { name: 'Page team' }).click();
+    await nurse.page.getByRole('button', { name: 'Page Full trauma team' }).click();
+    await expect.poll(() => card().locator('.primary-action').textContent(), { timeout: 10_000 }).toBe('Mark arrived');
+  });
+
+  it('the local SMS service page shows the text sent to the lead', async () => {
+    phone = await browser.newContext({ viewport: DESK.viewport });
+    sms = await phone.newPage();
     await sms.goto(server.sms.fakeUrl!);
     const row = sms.locator('tr', { hasText: `Case ${summary.caseNumber}.` });
     await row.waitFor();
@@ -95,16 +104,17 @@ describeInBrowser('SMS paging in Chromium', () => {
     expect(await row.innerText()).toMatch(/FULL TRAUMA TEAM Alderwick General Hospital: 41-year-old female, fall 19\.7 ft onto concrete, ETA \d\d:\d\d \(\d+ min\), Resus 1/);
     await expectAccessible(sms, 'local SMS service');
     await screenshot(sms, 'sms-fake-page');
+  });
 
+  it('a reply "1" sent from that page shows on the card: the lead is on the way', async () => {
     await sms.getByLabel('From number').selectOption(LEAD_MOBILE);
     await sms.getByLabel('Reply').fill('1');
     await sms.getByRole('button', { name: 'Send reply' }).click();
-    await expect.poll(() => sms.getByRole('status').textContent()).toBe(`Reply from ${LEAD_MOBILE} delivered to Plumbline.`);
+    await expect.poll(() => sms.getByRole('status').textContent(), { timeout: 10_000 }).toBe(`Reply from ${LEAD_MOBILE} delivered to Plumbline.`);
     await phone.close();
-
-    await expect.poll(() => card.locator('.who-coming').innerText(), { timeout: 5000 }).toMatch(/Dr\. Sasha Imbert: on my way \d\d:\d\d/);
+    // Live over the board's socket: no reload.
+    await expect.poll(() => card().locator('.who-coming').innerText(), { timeout: 10_000 }).toMatch(/Dr\. Sasha Imbert: on my way \d\d:\d\d/);
     await expectAccessible(nurse.page, 'Inbound board with replies');
-    await card.scrollIntoViewIfNeeded();
     await screenshot(nurse.page, 'board-who-is-coming');
   });
 
