@@ -72,14 +72,19 @@ export async function createMailer(opts: { smtpUrl: string | null; from: string;
     fake = await startSmtpFake(opts.db, opts.logger, opts.clock);
     transport = nodemailer.createTransport({ host: '127.0.0.1', port: fake.port, secure: false, ignoreTLS: true });
   }
+  // Once closed, a send fails at once and never reaches a mail server that is shutting down.
+  let closed = false;
   return {
     local: fake !== null,
     async send(mail) {
+      if (closed) throw new Error('mail is closed: the server is stopping');
       const headers = mail.hospitalId ? { [HOSPITAL_HEADER]: String(mail.hospitalId) } : undefined;
       const info = await transport.sendMail({ from: opts.from, to: mail.to, subject: mail.subject, text: mail.text, headers });
       return { messageId: info.messageId };
     },
     async close() {
+      if (closed) return;
+      closed = true;
       transport.close();
       await fake?.close();
     },
