@@ -38,6 +38,8 @@ export interface RunningServer {
 
 /** How long a stop may take before the process gives up waiting and exits anyway. */
 export const STOP_WITHIN_MS = 10_000;
+/** How long a stop lets a background job's round go on sending mail. */
+const JOB_GRACE_MS = 4000;
 
 export interface StartOptions {
   clock?: Clock;
@@ -112,7 +114,11 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
   }
 
   const app = createApp({ ...deps, issuer, idpRouter: idp?.router, vite });
-  http.on('request', app);
+  // socket.io answers its own path (it took the server's listeners when it attached); the app,
+  // added after it, must not answer those requests too, or a long-poll's POST meets a 404.
+  http.on('request', (req, res) => {
+    if (!req.url?.startsWith('/socket.io/')) app(req, res);
+  });
   const jobs = opts.backgroundJobs === false ? { stop: async () => {} } : backgroundJobs(deps);
 
   let closing: Promise<string[]> | null = null;
@@ -134,8 +140,15 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
           await done;
           clearTimeout(cut);
         }),
-        // Jobs first, then mail: a round under way sends its mail before the mailer closes.
-        step('background jobs', () => jobs.stop()).then(() => step('mail', () => mailer.close())),
+        // Jobs, then mail: a round under way sends its mail before the mailer closes. A round
+        // that takes longer is not waited for: its later sends fail at once on the closed
+        // mailer (and are recorded as not sent), and never reach a mail server that is going.
+        (async () => {
+          const jobsStopped = step('background jobs', () => jobs.stop());
+          await Promise.race([jobsStopped, new Promise((resolve) => setTimeout(resolve, JOB_GRACE_MS).unref())]);
+          await step('mail', () => mailer.close());
+          await jobsStopped;
+        })(),
       ]);
       await step('client dev server', () => vite?.close());
       await step('WAL checkpoint thread', () => checkpoints?.stop());

@@ -34,6 +34,11 @@ export interface Checkpoint {
 const signed = (c: Omit<Checkpoint, 'sig'>) => JSON.stringify([c.v, c.at, c.headId, c.headHash, c.keyedFrom, c.keyId]);
 const sign = (key: Buffer, c: Omit<Checkpoint, 'sig'>) => createHmac('sha256', key).update(signed(c)).digest('hex');
 
+/** The demo's trauma programme mailbox at the county's trauma centre (invented). */
+export async function seedProgrammeAddress(db: Knex, ids: { hospitals: { general: number } }): Promise<void> {
+  await db('settings').insert({ hospital_id: ids.hospitals.general, key: PROGRAMME_EMAIL_SETTING, value: JSON.stringify('trauma-programme@alderwick-general.plumbline.test') });
+}
+
 export const checkpointFileOf = (dataDir: string) => join(dataDir, CHECKPOINT_FILE);
 
 /** The trauma programme addresses of every hospital (and the product-wide one), without repeats. */

@@ -32,6 +32,7 @@ const dirs: string[] = [];
 beforeAll(async () => {
   server = await startTestServer();
   general = (await server.db('hospitals').where({ short_name: 'Alderwick General' }).first('id')).id;
+  // The demo sets it; set again here through the audited path, as an administrator would.
   await setSetting(server.db, PROGRAMME_EMAIL_SETTING, PROGRAMME, general, { actor: systemActor, at: Date.now() });
   crew = await connectAs(server.url, await signIn(server.url, 'paramedic@plumbline.test'));
 }, 30_000);
