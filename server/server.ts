@@ -19,6 +19,7 @@ import { primeCaseLists } from './services/cases';
 import { rehearsePreAlerts } from './services/rehearsal';
 import { isEmpty, seedDemo } from './services/seed';
 import { startKeyedChain } from './services/audit';
+import { abandonStagedImports } from './services/outcomes-import';
 
 export interface RunningServer {
   url: string;
@@ -65,6 +66,9 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
   }
   // A database from before the chain had a key: the keyed part starts here, at a recorded row.
   await startKeyedChain(db, clock.now());
+  // An import cut short by a stop left staged rows that never became outcomes.
+  const abandoned = await abandonStagedImports(db, clock.now());
+  if (abandoned.length) logger.warn({ batches: abandoned }, 'outcomes imports stopped before they were saved; nothing of them was kept');
   // Off the event loop: a checkpoint's fsyncs no longer land inside a pre-alert's commit.
   const checkpoints = opts.db ? null : await startCheckpoints(db, config.databaseFile, logger);
   // Before anyone can connect: the boards reloading after a restart find their cases ready.
