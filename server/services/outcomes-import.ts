@@ -1,5 +1,5 @@
 import { randomBytes } from 'node:crypto';
-import { parse } from 'csv-parse/sync';
+import { parse as parseCsv } from 'csv-parse';
 import type { Knex } from 'knex';
 import type { Me, Role } from '../../shared/roles';
 import { injuryScores, nftiPositive, type NftiComponents } from '../../shared/quality';
@@ -50,6 +50,8 @@ const POSSIBLE_ISS: ReadonlySet<number> = (() => {
 const YES = new Set(['yes', 'y', 'true', '1']);
 const NO = new Set(['no', 'n', 'false', '0']);
 const NOT_HAPPENED = new Set(['none', 'no', 'never', '-']);
+
+const nextTurn = () => new Promise<void>((resolve) => setImmediate(resolve));
 
 const normaliseHeader = (h: string) => h.trim().toLowerCase().replace(/[\s-]+/g, '_');
 
@@ -175,8 +177,41 @@ export function parseOutcomeRow(cells: Record<string, string>, row: number): Par
   };
 }
 
+/**
+ * CSV text to records, fed to the parser a slice at a time with a turn of the event loop between
+ * slices: a 20,000-row file parsed in one call held up every pre-alert for half a second.
+ */
+async function readCsv(text: string, delimiter: string): Promise<string[][]> {
+  const parser = parseCsv({ bom: true, delimiter, relax_column_count: true, trim: true, skip_empty_lines: false });
+  const records: string[][] = [];
+  let failure: Error | null = null;
+  parser.on('readable', () => {
+    let record: string[] | null;
+    while ((record = parser.read() as string[] | null) !== null) records.push(record);
+  });
+  const ended = new Promise<void>((resolve) => {
+    parser.once('end', resolve);
+    parser.once('error', (err: Error) => {
+      failure = err;
+      resolve();
+    });
+  });
+  for (let i = 0; i < text.length && !failure; i += CSV_SLICE) {
+    parser.write(text.slice(i, i + CSV_SLICE));
+    await nextTurn();
+  }
+  if (!failure) parser.end();
+  await ended;
+  if (failure) throw failure;
+  return records;
+}
+
+const CSV_SLICE = 4096;
+/** Rows checked between turns of the event loop. */
+const ROWS_PER_TURN = 200;
+
 /** The whole file to rows, or file-level problems (not a CSV, unknown columns, too many rows). */
-export function parseOutcomeCsv(buffer: Buffer): { rows: ParsedRow[]; fileIssues: ImportIssue[] } {
+export async function parseOutcomeCsv(buffer: Buffer): Promise<{ rows: ParsedRow[]; fileIssues: ImportIssue[] }> {
   const text = buffer.toString('utf8');
   if (text.includes('\u0000')) return { rows: [], fileIssues: [{ row: 1, column: null, message: 'The file is not text; export the registry data as CSV' }] };
   const firstLine = text.replace(/^\ufeff/, '').split(/\r?\n/, 1)[0] ?? '';
@@ -184,7 +219,7 @@ export function parseOutcomeCsv(buffer: Buffer): { rows: ParsedRow[]; fileIssues
   const delimiter = !firstLine.includes(',') && firstLine.includes(';') ? ';' : ',';
   let records: string[][];
   try {
-    records = parse(text, { bom: true, delimiter, relax_column_count: true, trim: true, skip_empty_lines: false }) as string[][];
+    records = await readCsv(text, delimiter);
   } catch (err) {
     const line = (err as { lines?: number }).lines;
     return { rows: [], fileIssues: [{ row: typeof line === 'number' ? line : 1, column: null, message: `The file cannot be read as CSV: ${(err as Error).message}` }] };
@@ -207,17 +242,19 @@ export function parseOutcomeCsv(buffer: Buffer): { rows: ParsedRow[]; fileIssues
   if (fileIssues.length) return { rows: [], fileIssues };
 
   const rows: ParsedRow[] = [];
-  body.forEach((cells, i) => {
-    if (!cells.some((c) => c !== '')) return;
+  for (let i = 0; i < body.length; i++) {
+    if (i % ROWS_PER_TURN === ROWS_PER_TURN - 1) await nextTurn();
+    const cells = body[i];
+    if (!cells.some((c) => c !== '')) continue;
     const row = i + 2; // spreadsheet numbering, the header being row 1
     if (cells.length > names.length) {
       rows.push({ row, caseNumber: (cells[names.indexOf('case_number')] ?? '').trim().toUpperCase(), record: null, issues: [{ row, column: null, message: `has ${cells.length} cells but the header has ${names.length} columns` }] });
-      return;
+      continue;
     }
     const byName: Record<string, string> = {};
     names.forEach((name, c) => (byName[name] = cells[c] ?? ''));
     rows.push(parseOutcomeRow(byName, row));
-  });
+  }
   return { rows, fileIssues };
 }
 
@@ -306,7 +343,7 @@ function importer(me: Me): Actor {
 export async function previewOutcomes(db: Knex, me: Me, hospitalId: number, file: UploadedFile, at: number): Promise<ImportPreview> {
   if (!canImport(me)) throw forbidden('Only the quality team or an administrator imports outcomes.');
   assertHospital(me, hospitalId);
-  const { rows, fileIssues } = parseOutcomeCsv(file.buffer);
+  const { rows, fileIssues } = await parseOutcomeCsv(file.buffer);
   if (fileIssues.length) return { token: null, expiresAt: null, ...summarise(file.originalname, hospitalId, [], fileIssues) };
   const { preview, errors } = await resolveCases(db, hospitalId, rows);
   const summary = summarise(file.originalname, hospitalId, preview, errors);
@@ -379,7 +416,7 @@ export async function storeOutcomes(trx: Knex, actor: Actor, rows: Array<{ caseI
 }
 
 /** Rows staged per transaction: each holds the database for a few milliseconds. */
-const STAGE_CHUNK = 200;
+const STAGE_CHUNK = 50;
 const OUTCOME_COLUMNS_STORED = [
   'iss', 'niss', 'ais', 'red_cells_4h', 'minutes_to_or', 'minutes_to_ir', 'icu_days', 'hours_to_ventilation', 'hours_to_death',
   'nfti_known', 'nfti_given', 'nfti_positive', 'disposition', 'imported_at', 'imported_by',
@@ -388,7 +425,6 @@ const MOVE_STAGED = `INSERT INTO outcomes (case_id, ${OUTCOME_COLUMNS_STORED.joi
   SELECT case_id, ${OUTCOME_COLUMNS_STORED.join(', ')}, batch FROM outcome_staging WHERE batch = ? ORDER BY id
   ON CONFLICT (case_id) DO UPDATE SET ${[...OUTCOME_COLUMNS_STORED, 'batch'].map((c) => `${c} = excluded.${c}`).join(', ')}`;
 
-const nextTurn = () => new Promise<void>((resolve) => setImmediate(resolve));
 
 // One import per hospital at a time, so what a staged row says it replaces is still there at the move.
 const importing = new Set<number>();
@@ -476,7 +512,7 @@ export async function importOutcomes(db: Knex, me: Me, hospitalId: number, sourc
   if (importing.has(hospitalId)) throw new AppError(409, 'import_running', 'Another outcomes import for this hospital is being saved; try again when it has finished.');
   importing.add(hospitalId);
   try {
-    const { rows, fileIssues } = parseOutcomeCsv(file.buffer);
+    const { rows, fileIssues } = await parseOutcomeCsv(file.buffer);
     if (fileIssues.length) throw rowErrors(fileIssues);
     const batch = `imp-${at.toString(36)}-${randomBytes(3).toString('hex')}`;
     const { preview, errors } = await resolveCases(db, hospitalId, rows);
