@@ -178,7 +178,7 @@ describe('signed checkpoints', () => {
     expect(against.stdout).toContain(`row ${head.id} existed at`);
     expect(against.stdout).toContain(`the chain now ends at row ${head.id - 3} (its tail was cut off)`);
     expect(against.stdout).toMatch(/Checkpoints FAIL: \d+ of \d+ checkpoint\(s\) do not match the database\.\n$/);
-  }, 30_000);
+  }, 60_000);
 
   it('a copy whose tail was rewritten with the key passes the chain check, and fails against the checkpoints', async () => {
     await submit();
@@ -207,7 +207,7 @@ describe('signed checkpoints', () => {
     expect(against.code).toBe(1);
     expect(against.stdout).toContain(`row ${head.id} had another hash at`);
     expect(against.stdout).toContain('(the chain was rewritten up to it)');
-  }, 30_000);
+  }, 60_000);
 
   it('a checkpoint line changed to fit a shortened chain fails its signature', async () => {
     const file = join(server.dataDir, CHECKPOINT_FILE);
@@ -221,6 +221,27 @@ describe('signed checkpoints', () => {
       { line: lines.length + 2, problem: 'not a checkpoint (not JSON)' },
     ]);
   });
+});
+
+describe('the trauma programme address', () => {
+  it('an administrator sets it for a hospital of theirs, audited; others may not; a bad address is refused naming the field', async () => {
+    const admin = await signIn(server.url, 'admin@plumbline.test');
+    const address = 'programme-office@alderwick-general.plumbline.test';
+    const set = await admin.send('PUT', '/api/audit/programme-email', { hospitalId: general, email: address });
+    expect(set.status, await set.clone().text()).toBe(200);
+    expect(await (await admin.get(`/api/audit/programme-email?hospitalId=${general}`)).json()).toEqual({ hospitalId: general, email: address });
+    const audit = await server.db('audit_log').where({ action: 'setting.changed', entity_id: `${general}:${PROGRAMME_EMAIL_SETTING}` }).orderBy('id', 'desc').first();
+    expect(JSON.parse(audit.after)).toEqual({ key: PROGRAMME_EMAIL_SETTING, hospitalId: general, value: address });
+
+    const bad = await admin.send('PUT', '/api/audit/programme-email', { hospitalId: general, email: 'not an address' });
+    expect(bad.status).toBe(400);
+    expect((await bad.json()).error).toMatchObject({ field: 'email' });
+    const nurse = await signIn(server.url, 'nurse@plumbline.test');
+    expect((await nurse.send('PUT', '/api/audit/programme-email', { hospitalId: general, email: 'x@plumbline.test' })).status).toBe(403);
+    expect(await (await admin.get(`/api/audit/programme-email?hospitalId=${general}`)).json()).toEqual({ hospitalId: general, email: address });
+    // Put back for the checkpoint tests' mail.
+    expect((await admin.send('PUT', '/api/audit/programme-email', { hospitalId: general, email: PROGRAMME })).status).toBe(200);
+  }, 30_000);
 });
 
 describe('a database from before the chain had a key', () => {
