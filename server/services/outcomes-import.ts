@@ -272,6 +272,8 @@ async function resolveCases(db: Knex, hospitalId: number, rows: ParsedRow[]): Pr
       .whereIn('c.case_number', chunk)
       .select('c.id', 'c.case_number', 'c.state', 'o.case_id as outcome_case');
     for (const c of cases) found.set(c.case_number, { id: c.id, state: c.state, hasOutcome: c.outcome_case != null });
+    // SQLite answers at once, so awaiting a query alone never lets a pre-alert's socket be read.
+    await nextTurn();
   }
   const hospital = await db('hospitals').where({ id: hospitalId }).first('name');
   const errors: ImportIssue[] = [];
@@ -469,7 +471,7 @@ async function saveStaged(db: Knex, actor: Actor, rows: Array<{ caseId: number; 
 /** Removes a batch's staged rows a chunk at a time, off the path of pre-alerts. */
 async function clearStaged(db: Knex, batch: string): Promise<void> {
   for (;;) {
-    const ids = (await db('outcome_staging').where({ batch }).orderBy('id').limit(2000).select('id')).map((r) => r.id as number);
+    const ids = (await db('outcome_staging').where({ batch }).orderBy('id').limit(500).select('id')).map((r) => r.id as number);
     if (!ids.length) return;
     await db('outcome_staging').whereIn('id', ids).del();
     await nextTurn();
