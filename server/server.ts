@@ -40,7 +40,7 @@ export interface RunningServer {
 /** How long a stop may take before the process gives up waiting and exits anyway. */
 export const STOP_WITHIN_MS = 10_000;
 /** How long a stop lets a background job's round go on sending mail. */
-const JOB_GRACE_MS = 4000;
+const JOB_GRACE_MS = 2000;
 
 export interface StartOptions {
   clock?: Clock;
@@ -118,11 +118,7 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
   }
 
   const app = createApp({ ...deps, issuer, idpRouter: idp?.router, vite });
-  // socket.io answers its own path (it took the server's listeners when it attached); the app,
-  // added after it, must not answer those requests too, or a long-poll's POST meets a 404.
-  http.on('request', (req, res) => {
-    if (!req.url?.startsWith('/socket.io/')) app(req, res);
-  });
+  http.on('request', app);
   const jobs = opts.backgroundJobs === false ? { stop: async () => {} } : backgroundJobs(deps);
 
   let closing: Promise<string[]> | null = null;
