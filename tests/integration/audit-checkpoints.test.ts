@@ -12,6 +12,7 @@ import { appendAudit, GENESIS_HASH, rowHash, startKeyedChain, systemActor, verif
 import { CHECKPOINT_FILE, checkCheckpoints, checkpointJob, PROGRAMME_EMAIL_SETTING, writeCheckpoint } from '../../server/services/audit-checkpoints';
 import { setSetting } from '../../server/services/settings';
 import { startTestServer, type TestServer } from '../support/server';
+import { createForeignRegion, FOREIGN_PASSWORD } from '../support/foreign-region';
 import { signIn } from '../support/sign-in';
 import { command, connectAs, type TestSocket } from '../support/socket';
 
@@ -239,6 +240,11 @@ describe('the trauma programme address', () => {
     const nurse = await signIn(server.url, 'nurse@plumbline.test');
     expect((await nurse.send('PUT', '/api/audit/programme-email', { hospitalId: general, email: 'x@plumbline.test' })).status).toBe(403);
     expect(await (await admin.get(`/api/audit/programme-email?hospitalId=${general}`)).json()).toEqual({ hospitalId: general, email: address });
+    // Another county's administrator neither reads nor sets Alderwick's address.
+    await createForeignRegion(server.db);
+    const foreignAdmin = await signIn(server.url, 'admin@brackwater.test', FOREIGN_PASSWORD);
+    expect((await foreignAdmin.get(`/api/audit/programme-email?hospitalId=${general}`)).status).toBe(403);
+    expect((await foreignAdmin.send('PUT', '/api/audit/programme-email', { hospitalId: general, email: 'x@brackwater.test' })).status).toBe(403);
     // Put back for the checkpoint tests' mail.
     expect((await admin.send('PUT', '/api/audit/programme-email', { hospitalId: general, email: PROGRAMME })).status).toBe(200);
   }, 30_000);
