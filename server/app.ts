@@ -31,6 +31,9 @@ export function createApp(opts: CreateAppOptions): Express {
   const app = express();
   app.disable('x-powered-by');
   if (secure) app.set('trust proxy', 1);
+  // socket.io answers its own path on the same server; the app must not answer it too, or a
+  // long-polling client's POST meets the app's 404 first.
+  app.use('/socket.io', () => {});
 
   app.use(
     pinoHttp({

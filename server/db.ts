@@ -1,7 +1,10 @@
+import { randomBytes } from 'node:crypto';
 import { readdirSync } from 'node:fs';
 import { dirname, join, resolve } from 'node:path';
 import { fileURLToPath, pathToFileURL } from 'node:url';
 import knex, { type Knex } from 'knex';
+import { loadAuditKey } from './audit-key';
+import { useAuditKey } from './services/audit';
 
 export type Db = Knex;
 
@@ -48,8 +51,13 @@ export function keepStatements(conn: SqliteConnection, size = 500): void {
   };
 }
 
-export function createDb(filename: string): Db {
-  return knex({
+/**
+ * Opens the database with its audit key: `auditKey` when given, else AUDIT_KEY or the key file
+ * in the database's folder (DATA_DIR). An in-memory database gets a key of its own for its life.
+ */
+export function createDb(filename: string, opts: { auditKey?: Buffer } = {}): Db {
+  const memory = filename === ':memory:' || filename === '';
+  const db = knex({
     client: 'better-sqlite3',
     connection: { filename },
     useNullAsDefault: true,
@@ -68,6 +76,8 @@ export function createDb(filename: string): Db {
     },
     migrations: { migrationSource, tableName: 'knex_migrations' },
   });
+  useAuditKey(db, opts.auditKey ?? (memory ? randomBytes(32) : loadAuditKey(dirname(resolve(filename)))));
+  return db;
 }
 
 export async function migrate(db: Db): Promise<string[]> {

@@ -20,6 +20,8 @@ import { backgroundJobs } from './services/jobs';
 import { primeCaseLists } from './services/cases';
 import { rehearsePreAlerts } from './services/rehearsal';
 import { isEmpty, seedDemo } from './services/seed';
+import { startKeyedChain } from './services/audit';
+import { abandonStagedImports } from './services/outcomes-import';
 
 export interface RunningServer {
   url: string;
@@ -31,8 +33,17 @@ export interface RunningServer {
   logger: Logger;
   http: HttpServer;
   deps: AppDeps;
-  close(): Promise<void>;
+  /**
+   * Stops everything and resolves within `withinMs` (10 s by default): with the parts still
+   * open when the time ran out (logged), or an empty list when all of them closed.
+   */
+  close(withinMs?: number): Promise<string[]>;
 }
+
+/** How long a stop may take before the process gives up waiting and exits anyway. */
+export const STOP_WITHIN_MS = 10_000;
+/** How long a stop lets a background job's round go on sending mail. */
+const JOB_GRACE_MS = 2000;
 
 export interface StartOptions {
   clock?: Clock;
@@ -56,6 +67,11 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
     await seedDemo(db, clock);
     logger.info('demo data loaded');
   }
+  // A database from before the chain had a key: the keyed part starts here, at a recorded row.
+  await startKeyedChain(db, clock.now());
+  // An import cut short by a stop left staged rows that never became outcomes.
+  const abandoned = await abandonStagedImports(db, clock.now());
+  if (abandoned.length) logger.warn({ batches: abandoned }, 'outcomes imports stopped before they were saved; nothing of them was kept');
   // Off the event loop: a checkpoint's fsyncs no longer land inside a pre-alert's commit.
   const checkpoints = opts.db ? null : await startCheckpoints(db, config.databaseFile, logger);
   // Before anyone can connect: the boards reloading after a restart find their cases ready.
@@ -108,9 +124,52 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
 
   const app = createApp({ ...deps, issuer, idpRouter: idp?.router, vite });
   http.on('request', app);
-  const jobs = opts.backgroundJobs === false ? { stop() {} } : backgroundJobs(deps);
+  const jobs = opts.backgroundJobs === false ? { stop: async () => {} } : backgroundJobs(deps);
 
-  let closed = false;
+  let closing: Promise<string[]> | null = null;
+  const closeAll = async (withinMs: number): Promise<string[]> => {
+    const open = new Set<string>();
+    const step = async (name: string, work: () => Promise<unknown> | unknown) => {
+      open.add(name);
+      await work();
+      open.delete(name);
+    };
+    const all = (async () => {
+      await Promise.all([
+        // Sockets and HTTP: socket.io disconnects every socket and closes the HTTP server, which
+        // waits for open connections; idle keep-alive ones are closed at once, the rest after 2 s.
+        step('sockets and HTTP server', async () => {
+          const done = new Promise<void>((resolve) => io.close(() => resolve()));
+          http.closeIdleConnections();
+          const cut = setTimeout(() => http.closeAllConnections(), 2000);
+          await done;
+          clearTimeout(cut);
+        }),
+        // Jobs, then mail: a round under way sends its mail before the mailer closes. A round
+        // that takes longer is not waited for: its later sends fail at once on the closed
+        // mailer (and are recorded as not sent), and never reach a mail server that is going.
+        (async () => {
+          const jobsStopped = step('background jobs', () => jobs.stop());
+          await Promise.race([jobsStopped, new Promise((resolve) => setTimeout(resolve, JOB_GRACE_MS).unref())]);
+          await step('mail', () => mailer.close());
+          await step('SMS', () => sms.close());
+          await jobsStopped;
+        })(),
+      ]);
+      await step('client dev server', () => vite?.close());
+      await step('WAL checkpoint thread', () => checkpoints?.stop());
+      if (!opts.db) await step('database', () => db.destroy());
+    })();
+    let timer: NodeJS.Timeout | undefined;
+    const late = new Promise<'late'>((resolve) => (timer = setTimeout(() => resolve('late'), withinMs)));
+    const outcome = await Promise.race([all.then(() => 'done' as const), late]);
+    clearTimeout(timer);
+    if (outcome === 'done') return [];
+    const left = [...open];
+    logger.error({ stillOpen: left, withinMs }, 'the stop did not finish in time; these were still open');
+    return left;
+  };
+
   return {
     url: publicUrl,
     port,
@@ -121,17 +180,38 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
     logger,
     http,
     deps,
-    async close() {
-      if (closed) return;
-      closed = true;
-      jobs.stop();
-      await new Promise<void>((resolve) => io.close(() => resolve()));
-      http.closeAllConnections?.();
-      await vite?.close();
-      await mailer.close();
-      await sms.close();
-      await checkpoints?.stop();
-      if (!opts.db) await db.destroy();
+    close(withinMs = STOP_WITHIN_MS) {
+      closing ??= closeAll(withinMs);
+      return closing;
     },
   };
+}
+
+/**
+ * SIGTERM and SIGINT stop the server; the process exits when the stop has ended or its time
+ * ran out, whichever comes first (exit code 1 when something was still open). A second signal
+ * exits at once.
+ */
+export function stopOnSignals(server: Pick<RunningServer, 'close' | 'logger'>, exit: (code: number) => void = (code) => process.exit(code)): void {
+  let stopping = false;
+  const stop = (signal: NodeJS.Signals) => {
+    if (stopping) {
+      server.logger.warn({ signal }, 'second stop signal: exiting now');
+      exit(1);
+      return;
+    }
+    stopping = true;
+    server.logger.info({ signal }, 'stopping');
+    // A last guard, in case a close step blocks the event loop itself past the bound.
+    setTimeout(() => exit(1), STOP_WITHIN_MS + 500).unref();
+    server.close().then(
+      (left) => exit(left.length ? 1 : 0),
+      (err: unknown) => {
+        server.logger.error({ err }, 'the stop failed');
+        exit(1);
+      },
+    );
+  };
+  process.on('SIGINT', stop);
+  process.on('SIGTERM', stop);
 }

@@ -18,7 +18,11 @@ const usage = `Usage: plumbline <command>
                         JSON Lines of clinical inputs on stdin, one result per line on stdout
   cribari               CSV (activation,iss[,nfti]) on stdin, the matrix and rates as JSON
   iss                   {"injuries":[{"region","ais"}]} on stdin, {"iss","niss"} on stdout
-  audit verify          check the audit trail's hash chain; names the first broken row (exit 1)
+  audit verify [--checkpoints FILE]
+                        check the audit trail's keyed hash chain, and against signed
+                        checkpoints; names the first broken row or checkpoint (exit 1)
+  audit checkpoint      sign the chain's newest row: appended to DATA_DIR/audit-checkpoints.jsonl
+                        and mailed to the trauma programme
   backup FILE           an online copy of the database (SQLite's backup API) while the server runs
   restore FILE          put a backup back in place; refuses while a server has the database open
 `;
@@ -100,11 +104,7 @@ async function serve(dev: boolean): Promise<number> {
     for (const account of demoAccounts) console.log(`  ${account.email.padEnd(30)} ${account.label}`);
   }
   console.log('');
-  const stop = async () => {
-    await server.close();
-    process.exit(0);
-  };
-  process.once('SIGINT', stop);
-  process.once('SIGTERM', stop);
+  const { stopOnSignals } = await import('../server');
+  stopOnSignals(server);
   return new Promise<number>(() => {});
 }

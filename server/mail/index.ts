@@ -37,6 +37,8 @@ async function startSmtpFake(db: Knex, logger: Logger, clock: { now(): number })
     banner: 'Plumbline local mail',
     size: 1024 * 1024,
     logger: false,
+    // A stop waits this long for a message still being received, not the default 30 s.
+    closeTimeout: 1000,
     onData(stream, session, callback) {
       // The parser is loaded on the first message: most starts never receive one, and it is large.
       import('mailparser')
@@ -74,14 +76,28 @@ export async function createMailer(opts: { smtpUrl: string | null; from: string;
     fake = await startSmtpFake(opts.db, opts.logger, opts.clock);
     transport = nodemailer.createTransport({ host: '127.0.0.1', port: fake.port, secure: false, ignoreTLS: true });
   }
+  // Once closed, a send fails at once and never reaches a mail server that is shutting down.
+  let closed = false;
+  const inFlight = new Set<Promise<unknown>>();
   return {
     local: fake !== null,
     async send(mail) {
+      if (closed) throw new Error('mail is closed: the server is stopping');
       const headers = mail.hospitalId ? { [HOSPITAL_HEADER]: String(mail.hospitalId) } : undefined;
-      const info = await transport.sendMail({ from: opts.from, to: mail.to, subject: mail.subject, text: mail.text, headers });
-      return { messageId: info.messageId };
+      const sending = transport.sendMail({ from: opts.from, to: mail.to, subject: mail.subject, text: mail.text, headers });
+      inFlight.add(sending);
+      try {
+        const info = await sending;
+        return { messageId: info.messageId };
+      } finally {
+        inFlight.delete(sending);
+      }
     },
     async close() {
+      if (closed) return;
+      closed = true;
+      // Messages already handed over finish their conversation before the mail server goes.
+      await Promise.allSettled([...inFlight]);
       transport.close();
       await fake?.close();
     },

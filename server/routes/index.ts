@@ -11,6 +11,7 @@ import { reviewRouter } from './review';
 import { crewRouter } from './crew';
 import { qualityRouter } from './quality';
 import { pagingRouter } from './paging';
+import { auditRouter } from './audit';
 
 /** Every API router, in mounting order. A new resource adds its router here. */
-export const apiRouters: Array<(deps: AppDeps) => Router> = [healthRouter, meRouter, mailRouter, casesRouter, policiesRouter, peopleRouter, reviewRouter, crewRouter, boardRouter, qualityRouter, pagingRouter];
+export const apiRouters: Array<(deps: AppDeps) => Router> = [healthRouter, meRouter, mailRouter, casesRouter, policiesRouter, peopleRouter, reviewRouter, crewRouter, boardRouter, qualityRouter, pagingRouter, auditRouter];

@@ -65,28 +65,25 @@ export async function runEscalation(deps: EscalationDeps): Promise<number[]> {
 
 /** The production timer; tests call runEscalation with a fake clock instead of waiting. */
 export function escalationJob(deps: EscalationDeps, everyMs = ESCALATION_CHECK_MS): Job {
-  let running = false;
+  let running: Promise<void> | null = null;
   let stopped = false;
-  const tick = async () => {
+  const tick = () => {
     if (running || stopped) return;
-    running = true;
-    try {
-      await runEscalation(deps);
-    } catch (err) {
-      deps.logger.error({ err }, 'escalation check failed');
-    } finally {
-      running = false;
-    }
+    running = runEscalation(deps)
+      .then(() => {}, (err: unknown) => deps.logger.error({ err }, 'escalation check failed'))
+      .finally(() => (running = null));
   };
   const timer = setInterval(tick, everyMs);
   timer.unref?.();
   const first = setTimeout(tick, 1000);
   first.unref?.();
   return {
-    stop: () => {
+    // Resolves when a round under way has ended, so its mail goes out before the mailer closes.
+    stop: async () => {
       stopped = true;
       clearInterval(timer);
       clearTimeout(first);
+      await running;
     },
   };
 }

@@ -1,11 +1,14 @@
+import { join } from 'node:path';
 import type { AppDeps } from '../deps';
+import { CHECKPOINT_FILE, checkpointJob } from './audit-checkpoints';
 import { escalationJob } from './escalation';
 import { repagingJob } from './repaging';
 
-export interface Job { stop(): void }
+/** A timed job; stopping it resolves once the round it may be in the middle of has ended. */
+export interface Job { stop(): Promise<void> | void }
 
-/** Work the server does on its own clock (escalations, say). Each job returns a way to stop it. */
-export function backgroundJobs(deps: AppDeps): Job {
-  const jobs: Job[] = [escalationJob(deps), repagingJob(deps)];
-  return { stop: () => jobs.forEach((job) => job.stop()) };
+/** Work the server does on its own clock (escalations, re-paging, audit checkpoints). Each job returns a way to stop it. */
+export function backgroundJobs(deps: AppDeps): { stop(): Promise<void> } {
+  const jobs: Job[] = [escalationJob(deps), repagingJob(deps), checkpointJob({ ...deps, file: join(deps.config.dataDir, CHECKPOINT_FILE) })];
+  return { stop: async () => void (await Promise.all(jobs.map((job) => job.stop()))) };
 }

@@ -1,5 +1,5 @@
 import { randomBytes } from 'node:crypto';
-import { parse } from 'csv-parse/sync';
+import { parse as parseCsv } from 'csv-parse';
 import type { Knex } from 'knex';
 import type { Me, Role } from '../../shared/roles';
 import { injuryScores, nftiPositive, type NftiComponents } from '../../shared/quality';
@@ -10,11 +10,12 @@ import {
 } from '../../shared/schemas/quality';
 import { assertHospital, hasRole } from '../auth/guards';
 import { AppError, forbidden, notFound } from '../errors';
-import { appendAudit, type Actor } from './audit';
+import { appendAudit, systemActor, type Actor } from './audit';
 import { csvCell } from './csv';
 
 // The registry's outcomes come in as a CSV, are checked row by row and shown whole before
-// anything is kept; the save is one transaction, so a file is either all in or not at all.
+// anything is kept. The save is staged in short transactions, which let pre-alerts through
+// between them, and then made visible by one statement, so a file is either all in or not at all.
 
 export interface UploadedFile { originalname: string; buffer: Buffer }
 
@@ -49,6 +50,8 @@ const POSSIBLE_ISS: ReadonlySet<number> = (() => {
 const YES = new Set(['yes', 'y', 'true', '1']);
 const NO = new Set(['no', 'n', 'false', '0']);
 const NOT_HAPPENED = new Set(['none', 'no', 'never', '-']);
+
+const nextTurn = () => new Promise<void>((resolve) => setImmediate(resolve));
 
 const normaliseHeader = (h: string) => h.trim().toLowerCase().replace(/[\s-]+/g, '_');
 
@@ -174,8 +177,41 @@ export function parseOutcomeRow(cells: Record<string, string>, row: number): Par
   };
 }
 
+/**
+ * CSV text to records, fed to the parser a slice at a time with a turn of the event loop between
+ * slices: a 20,000-row file parsed in one call held up every pre-alert for half a second.
+ */
+async function readCsv(text: string, delimiter: string): Promise<string[][]> {
+  const parser = parseCsv({ bom: true, delimiter, relax_column_count: true, trim: true, skip_empty_lines: false });
+  const records: string[][] = [];
+  let failure: Error | null = null;
+  parser.on('readable', () => {
+    let record: string[] | null;
+    while ((record = parser.read() as string[] | null) !== null) records.push(record);
+  });
+  const ended = new Promise<void>((resolve) => {
+    parser.once('end', resolve);
+    parser.once('error', (err: Error) => {
+      failure = err;
+      resolve();
+    });
+  });
+  for (let i = 0; i < text.length && !failure; i += CSV_SLICE) {
+    parser.write(text.slice(i, i + CSV_SLICE));
+    await nextTurn();
+  }
+  if (!failure) parser.end();
+  await ended;
+  if (failure) throw failure;
+  return records;
+}
+
+const CSV_SLICE = 4096;
+/** Rows checked between turns of the event loop. */
+const ROWS_PER_TURN = 200;
+
 /** The whole file to rows, or file-level problems (not a CSV, unknown columns, too many rows). */
-export function parseOutcomeCsv(buffer: Buffer): { rows: ParsedRow[]; fileIssues: ImportIssue[] } {
+export async function parseOutcomeCsv(buffer: Buffer): Promise<{ rows: ParsedRow[]; fileIssues: ImportIssue[] }> {
   const text = buffer.toString('utf8');
   if (text.includes('\u0000')) return { rows: [], fileIssues: [{ row: 1, column: null, message: 'The file is not text; export the registry data as CSV' }] };
   const firstLine = text.replace(/^\ufeff/, '').split(/\r?\n/, 1)[0] ?? '';
@@ -183,7 +219,7 @@ export function parseOutcomeCsv(buffer: Buffer): { rows: ParsedRow[]; fileIssues
   const delimiter = !firstLine.includes(',') && firstLine.includes(';') ? ';' : ',';
   let records: string[][];
   try {
-    records = parse(text, { bom: true, delimiter, relax_column_count: true, trim: true, skip_empty_lines: false }) as string[][];
+    records = await readCsv(text, delimiter);
   } catch (err) {
     const line = (err as { lines?: number }).lines;
     return { rows: [], fileIssues: [{ row: typeof line === 'number' ? line : 1, column: null, message: `The file cannot be read as CSV: ${(err as Error).message}` }] };
@@ -206,17 +242,19 @@ export function parseOutcomeCsv(buffer: Buffer): { rows: ParsedRow[]; fileIssues
   if (fileIssues.length) return { rows: [], fileIssues };
 
   const rows: ParsedRow[] = [];
-  body.forEach((cells, i) => {
-    if (!cells.some((c) => c !== '')) return;
+  for (let i = 0; i < body.length; i++) {
+    if (i % ROWS_PER_TURN === ROWS_PER_TURN - 1) await nextTurn();
+    const cells = body[i];
+    if (!cells.some((c) => c !== '')) continue;
     const row = i + 2; // spreadsheet numbering, the header being row 1
     if (cells.length > names.length) {
       rows.push({ row, caseNumber: (cells[names.indexOf('case_number')] ?? '').trim().toUpperCase(), record: null, issues: [{ row, column: null, message: `has ${cells.length} cells but the header has ${names.length} columns` }] });
-      return;
+      continue;
     }
     const byName: Record<string, string> = {};
     names.forEach((name, c) => (byName[name] = cells[c] ?? ''));
     rows.push(parseOutcomeRow(byName, row));
-  });
+  }
   return { rows, fileIssues };
 }
 
@@ -234,6 +272,8 @@ async function resolveCases(db: Knex, hospitalId: number, rows: ParsedRow[]): Pr
       .whereIn('c.case_number', chunk)
       .select('c.id', 'c.case_number', 'c.state', 'o.case_id as outcome_case');
     for (const c of cases) found.set(c.case_number, { id: c.id, state: c.state, hasOutcome: c.outcome_case != null });
+    // SQLite answers at once, so awaiting a query alone never lets a pre-alert's socket be read.
+    await nextTurn();
   }
   const hospital = await db('hospitals').where({ id: hospitalId }).first('name');
   const errors: ImportIssue[] = [];
@@ -305,7 +345,7 @@ function importer(me: Me): Actor {
 export async function previewOutcomes(db: Knex, me: Me, hospitalId: number, file: UploadedFile, at: number): Promise<ImportPreview> {
   if (!canImport(me)) throw forbidden('Only the quality team or an administrator imports outcomes.');
   assertHospital(me, hospitalId);
-  const { rows, fileIssues } = parseOutcomeCsv(file.buffer);
+  const { rows, fileIssues } = await parseOutcomeCsv(file.buffer);
   if (fileIssues.length) return { token: null, expiresAt: null, ...summarise(file.originalname, hospitalId, [], fileIssues) };
   const { preview, errors } = await resolveCases(db, hospitalId, rows);
   const summary = summarise(file.originalname, hospitalId, preview, errors);
@@ -350,7 +390,15 @@ export function outcomeFromRow(caseNumber: string, row: Record<string, unknown>)
   return record;
 }
 
-/** Writes checked rows in the caller's transaction, one audit row per case. */
+function outcomeAudit(actor: Actor, caseId: number, record: OutcomeRecord, existing: Record<string, unknown> | undefined, at: number, batch: string) {
+  return {
+    at, actor, action: existing ? 'outcome.updated' : 'outcome.imported', entity: 'outcome' as const, entityId: caseId, caseId,
+    before: existing ? outcomeFromRow(record.caseNumber, existing) : null,
+    after: { ...record, batch },
+  };
+}
+
+/** Writes checked rows in the caller's transaction, one audit row per case (the demo's few rows). */
 export async function storeOutcomes(trx: Knex, actor: Actor, rows: Array<{ caseId: number; record: OutcomeRecord }>, at: number, batch: string): Promise<{ created: number; updated: number }> {
   let created = 0;
   let updated = 0;
@@ -364,18 +412,89 @@ export async function storeOutcomes(trx: Knex, actor: Actor, rows: Array<{ caseI
       await trx('outcomes').insert({ case_id: caseId, ...values });
       created++;
     }
-    await appendAudit(trx, {
-      at, actor, action: existing ? 'outcome.updated' : 'outcome.imported', entity: 'outcome', entityId: caseId, caseId,
-      before: existing ? outcomeFromRow(record.caseNumber, existing) : null,
-      after: { ...record, batch },
-    });
+    await appendAudit(trx, outcomeAudit(actor, caseId, record, existing, at, batch));
   }
   return { created, updated };
 }
 
+/** Rows staged per transaction: each holds the database for a few milliseconds. */
+const STAGE_CHUNK = 50;
+const OUTCOME_COLUMNS_STORED = [
+  'iss', 'niss', 'ais', 'red_cells_4h', 'minutes_to_or', 'minutes_to_ir', 'icu_days', 'hours_to_ventilation', 'hours_to_death',
+  'nfti_known', 'nfti_given', 'nfti_positive', 'disposition', 'imported_at', 'imported_by',
+] as const;
+const MOVE_STAGED = `INSERT INTO outcomes (case_id, ${OUTCOME_COLUMNS_STORED.join(', ')}, batch)
+  SELECT case_id, ${OUTCOME_COLUMNS_STORED.join(', ')}, batch FROM outcome_staging WHERE batch = ? ORDER BY id
+  ON CONFLICT (case_id) DO UPDATE SET ${[...OUTCOME_COLUMNS_STORED, 'batch'].map((c) => `${c} = excluded.${c}`).join(', ')}`;
+
+
+// One import per hospital at a time, so what a staged row says it replaces is still there at the move.
+const importing = new Set<number>();
+
 /**
- * Saves a previewed file (by its token) or a file sent again. Everything is checked again inside
- * the transaction; one bad row and nothing is saved.
+ * Saves checked rows. Each chunk is staged with its audit rows (what the import does to each
+ * case) in its own short transaction; then one statement moves the whole batch into `outcomes`,
+ * in the transaction that writes the batch's `outcome.batch-saved` row. Until that commit nobody
+ * sees any of it; a batch that fails on the way gets `outcome.batch-abandoned` and changes nothing.
+ */
+async function saveStaged(db: Knex, actor: Actor, rows: Array<{ caseId: number; record: OutcomeRecord }>, at: number, batch: string, hospitalId: number): Promise<{ created: number; updated: number }> {
+  let created = 0;
+  let updated = 0;
+  try {
+    for (let i = 0; i < rows.length; i += STAGE_CHUNK) {
+      const chunk = rows.slice(i, i + STAGE_CHUNK);
+      await db.transaction(async (trx) => {
+        const existing = new Map<number, Record<string, unknown>>();
+        for (const row of await trx('outcomes').whereIn('case_id', chunk.map((r) => r.caseId)).select('*')) existing.set(row.case_id, row);
+        await trx('outcome_staging').insert(chunk.map(({ caseId, record }) => ({ batch, case_id: caseId, ...outcomeRow(record), imported_at: at, imported_by: actor.id })));
+        for (const { caseId, record } of chunk) {
+          if (existing.has(caseId)) updated++;
+          else created++;
+          await appendAudit(trx, outcomeAudit(actor, caseId, record, existing.get(caseId), at, batch));
+        }
+      });
+      await nextTurn();
+    }
+    await db.transaction(async (trx) => {
+      await trx.raw(MOVE_STAGED, [batch]);
+      await appendAudit(trx, { at, actor, action: 'outcome.batch-saved', entity: 'outcome', entityId: batch, after: { batch, hospitalId, created, updated } });
+    });
+  } catch (err) {
+    await db.transaction((trx) => appendAudit(trx, { at, actor, action: 'outcome.batch-abandoned', entity: 'outcome', entityId: batch, after: { batch, hospitalId, staged: created + updated } })).catch(() => {});
+    throw err;
+  } finally {
+    await clearStaged(db, batch);
+  }
+  return { created, updated };
+}
+
+/** Removes a batch's staged rows a chunk at a time, off the path of pre-alerts. */
+async function clearStaged(db: Knex, batch: string): Promise<void> {
+  for (;;) {
+    const ids = (await db('outcome_staging').where({ batch }).orderBy('id').limit(500).select('id')).map((r) => r.id as number);
+    if (!ids.length) return;
+    await db('outcome_staging').whereIn('id', ids).del();
+    await nextTurn();
+  }
+}
+
+/**
+ * After a stop in the middle of an import: its staged rows never became outcomes. Records each
+ * such batch as abandoned and removes its rows.
+ */
+export async function abandonStagedImports(db: Knex, at: number): Promise<string[]> {
+  const batches = (await db('outcome_staging').distinct('batch')).map((r) => r.batch as string);
+  for (const batch of batches) {
+    const [{ n }] = await db('outcome_staging').where({ batch }).count({ n: '*' });
+    await db.transaction((trx) => appendAudit(trx, { at, actor: systemActor, action: 'outcome.batch-abandoned', entity: 'outcome', entityId: batch, after: { batch, staged: Number(n), reason: 'the server stopped before the import was saved' } }));
+    await clearStaged(db, batch);
+  }
+  return batches;
+}
+
+/**
+ * Saves a previewed file (by its token) or a file sent again. Everything is checked again
+ * before saving; one bad row and nothing is saved.
  */
 export async function importOutcomes(db: Knex, me: Me, hospitalId: number, source: { token: string } | { file: UploadedFile }, at: number): Promise<ImportResult> {
   if (!canImport(me)) throw forbidden('Only the quality team or an administrator imports outcomes.');
@@ -392,17 +511,21 @@ export async function importOutcomes(db: Knex, me: Me, hospitalId: number, sourc
   } else {
     file = source.file;
   }
-  const { rows, fileIssues } = parseOutcomeCsv(file.buffer);
-  if (fileIssues.length) throw rowErrors(fileIssues);
-  const batch = `imp-${at.toString(36)}-${randomBytes(3).toString('hex')}`;
-  const result = await db.transaction(async (trx) => {
-    const { preview, errors } = await resolveCases(trx, hospitalId, rows);
+  if (importing.has(hospitalId)) throw new AppError(409, 'import_running', 'Another outcomes import for this hospital is being saved; try again when it has finished.');
+  importing.add(hospitalId);
+  try {
+    const { rows, fileIssues } = await parseOutcomeCsv(file.buffer);
+    if (fileIssues.length) throw rowErrors(fileIssues);
+    const batch = `imp-${at.toString(36)}-${randomBytes(3).toString('hex')}`;
+    const { preview, errors } = await resolveCases(db, hospitalId, rows);
     if (errors.length) throw rowErrors(errors);
     const good = preview.map((r) => ({ caseId: r.caseId!, record: r.record! }));
-    return storeOutcomes(trx, importer(me), good, at, batch);
-  });
-  if ('token' in source) held.delete(source.token);
-  return { batch, saved: result.created + result.updated, ...result };
+    const result = await saveStaged(db, importer(me), good, at, batch, hospitalId);
+    if ('token' in source) held.delete(source.token);
+    return { batch, saved: result.created + result.updated, ...result };
+  } finally {
+    importing.delete(hospitalId);
+  }
 }
 
 function rowErrors(errors: ImportIssue[]): AppError {

@@ -6,6 +6,7 @@ import { seedNotificationLists } from './people';
 import { seedDemoReviews } from './review-demo';
 import { seedBoardDemo } from './board-demo';
 import { seedDemoOutcomes } from './quality-demo';
+import { seedProgrammeAddress } from './audit-checkpoints';
 
 // The invented demo scenario: Alderwick County, one Level I trauma centre, one community
 // hospital, one county ambulance service. Every name here is made up.
@@ -72,4 +73,4 @@ export async function seedDemo(db: Knex, clock: Clock): Promise<DemoIds> {
 }
 
 /** Later features add their demo records (past cases, outcomes, policies) through these. */
-export const demoExtensions: Array<(db: Knex, ids: DemoIds, clock: Clock) => Promise<void>> = [seedNotificationLists, seedBoardDemo, seedDemoReviews, seedDemoOutcomes];
+export const demoExtensions: Array<(db: Knex, ids: DemoIds, clock: Clock) => Promise<void>> = [seedNotificationLists, seedBoardDemo, seedDemoReviews, seedDemoOutcomes, seedProgrammeAddress];

@@ -7,6 +7,7 @@ import { cpus, loadavg } from 'node:os';
 import { join } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { measureBareEcho } from './bare-echo';
+import { measureImportDuringPreAlerts, type ImportDuringPreAlerts } from './import-during-prealerts';
 import { defaultLoadOptions, LOAD_SEED, runLoad } from './load';
 import { measureMemory } from './memory';
 import { repoRoot } from './support/child-server';
@@ -19,7 +20,7 @@ const LIMIT_MS = 5 * 60_000;
 const log = (line: string) => process.stderr.write(`${line}\n`);
 
 // The promises of the README's "Guarantees" section [ours].
-const TARGETS = { lost: 0, duplicated: 0, p99OverBare: 3, evaluatePerSecond: 1_000_000, reportMs: 300, rssMb: 200 };
+const TARGETS = { lost: 0, duplicated: 0, p99OverBare: 3, evaluatePerSecond: 1_000_000, reportMs: 300, rssMb: 200, duringImportP99Ms: 50 };
 
 /**
  * The quality report's own benchmark (tests/bench/quality-report.ts, the quality part's file):
@@ -92,6 +93,9 @@ async function main(): Promise<void> {
   const evaluate = await measureEvaluateRateApart();
   log(evaluate ? `evaluate: ${evaluate.perSecond.toLocaleString('en')}/s` : 'evaluate: the measuring process gave no figure; reported as null');
   const memory = await measureMemory({ sockets: 1000, log });
+  // Pre-alerts while a 20,000-row outcomes import is saved (tests/bench/import-during-prealerts.md).
+  const duringImport: ImportDuringPreAlerts | null =
+    LIMIT_MS - (Date.now() - started) > 150_000 ? await measureImportDuringPreAlerts({ log }) : (log('import: not enough of the time limit left; reported as null'), null);
   // Last, in what is left of the time limit: a figure that does not come in time is null.
   const report = await measureReport(LIMIT_MS - (Date.now() - started) - 15_000);
   log(report ? `report: ${report.cases} cases in ${report.ms} ms` : 'report: tests/bench/quality-report.ts gave no figure in time; reported as null');
@@ -141,6 +145,9 @@ async function main(): Promise<void> {
       echoPayloadChars: Math.round(payloads.reduce((sum, p) => sum + JSON.stringify(p).length, 0) / payloads.length),
       summaryChars: load.summaryChars,
       durationS: load.durationS,
+      // The p99 acknowledgement of pre-alerts sent while a 20,000-row outcomes import runs.
+      duringImportP99Ms: duringImport?.p99Ms ?? null,
+      duringImport,
     },
     evaluate,
     report,
@@ -153,6 +160,7 @@ async function main(): Promise<void> {
       evaluate: evaluate ? evaluate.perSecond >= TARGETS.evaluatePerSecond : null,
       report: report ? report.ms <= TARGETS.reportMs : null,
       rss: memory.rssMb <= TARGETS.rssMb,
+      duringImport: duringImport?.p99Ms != null ? duringImport.importStatus === 201 && duringImport.p99Ms <= TARGETS.duringImportP99Ms : null,
     },
     seconds: Math.round((Date.now() - started) / 100) / 10,
     // Other work on the machine moves every timing; the figures are read beside this.
@@ -173,6 +181,7 @@ Realtime  ${r.ambulances} ambulances, ${r.boards} boards at ${r.hospitals} EDs, 
 Evaluate  ${result.evaluate ? `${result.evaluate.perSecond.toLocaleString('en')} evaluations/s on one core` : 'not measured (the measuring process gave no figure)'}
 Report    ${result.report ? `${result.report.cases.toLocaleString('en')} cases in ${result.report.ms} ms` : 'not measured (tests/bench/quality-report.ts gave no figure)'}
 Memory    ${result.memory.sockets} sockets, ${result.memory.rssMb} MB resident
+Import    ${r.duringImport ? `${r.duringImport.rows.toLocaleString('en')} outcome rows saved in ${r.duringImport.importMs} ms (HTTP ${r.duringImport.importStatus}); pre-alerts meanwhile p50 ${r.duringImport.p50Ms} ms, p99 ${r.duringImport.p99Ms} ms over ${r.duringImport.samples} (p99 ${r.duringImport.beforeP99Ms} ms just before)` : 'not measured (not enough of the time limit left)'}
 Targets   ${Object.entries(result.targets).map(([k, v]) => `${k} ${v === null ? 'n/a' : v ? 'met' : 'MISSED'}`).join(', ')}
 Took      ${result.seconds} s, while other guests of the machine took ${result.machine.stealSeconds ?? 'an unknown'} s of its CPU`);
 }

@@ -83,6 +83,9 @@ const TABLE: Record<string, RouteEntry> = {
   'GET /api/review/settings': { access: readersOfReview, request: (ids) => ({ path: `/api/review/settings?hospitalId=${ids.general}` }), allowed: 200 },
   'PUT /api/review/settings': { access: ['admin'], request: () => ({ path: '/api/review/settings', body: {} }), allowed: 400 },
 
+  'GET /api/audit/programme-email': { access: ['admin'], request: (ids) => ({ path: `/api/audit/programme-email?hospitalId=${ids.general}` }), allowed: 200 },
+  'PUT /api/audit/programme-email': { access: ['admin'], request: () => ({ path: '/api/audit/programme-email', body: {} }), allowed: 400 },
+
   'GET /api/crew/destinations': { access: ['paramedic'], request: () => ({ path: '/api/crew/destinations' }), allowed: 200 },
 
   'GET /api/board': { access: ['charge_nurse', 'trauma_lead', 'admin'], request: (ids) => ({ path: `/api/board?hospitalId=${ids.general}` }), allowed: 200 },

@@ -133,17 +133,17 @@ describe('plumbline audit verify', () => {
     expect(count).toBeGreaterThan(2100);
     const first = verifyAuditChain(server.db);
     expect(verifyAuditChain(server.db)).toBe(first);
-    expect(await first).toEqual({ ok: true, rows: count });
+    expect(await first).toEqual({ ok: true, rows: count, keyedFrom: 1 });
     // Once done, the next check walks again rather than answering from the last one.
     const again = verifyAuditChain(server.db);
     expect(again).not.toBe(first);
-    expect(await again).toEqual({ ok: true, rows: count });
+    expect(await again).toEqual({ ok: true, rows: count, keyedFrom: 1 });
   }, 60_000);
 
   it('finds a row changed behind the application’s back, names it, and says so on the review API', async () => {
     const count = Number((await server.db('audit_log').count({ n: '*' }).first())?.n);
     const intact = await verify();
-    expect(intact).toEqual({ code: 0, stdout: `Audit trail OK: ${count} row(s) checked, the hash chain holds.\n` });
+    expect(intact).toEqual({ code: 0, stdout: `Audit trail OK: ${count} row(s) checked, the hash chain holds (keyed from the first row).\n` });
 
     // Someone with the database file softens a decision on the record: drop the guard, edit the row.
     const target = await server.db('audit_log').where({ action: 'case.level-decided' }).orderBy('id').first();
@@ -159,7 +159,7 @@ describe('plumbline audit verify', () => {
 
     // Putting the text back restores the chain, which shows the hash covers the content itself.
     await server.db('audit_log').where({ id: target.id }).update({ after: target.after });
-    expect(await verifyAuditChain(server.db)).toEqual({ ok: true, rows: count });
+    expect(await verifyAuditChain(server.db)).toEqual({ ok: true, rows: count, keyedFrom: 1 });
   }, 30_000);
 
   it('finds a row removed behind the application’s back by the next row’s broken link', async () => {
@@ -176,6 +176,6 @@ describe('plumbline audit verify', () => {
     const out: string[] = [];
     const sink = { write: (s: string) => (out.push(s), true) } as unknown as NodeJS.WritableStream;
     expect(await auditCommand(['repair'], { stdout: sink, stderr: sink }, { db: server.db })).toBe(2);
-    expect(out.join('')).toBe('usage: plumbline audit verify   (checks the audit trail of the database in DATA_DIR)\n');
+    expect(out.join('')).toMatch(/^usage: plumbline audit verify \[--checkpoints FILE\]/);
   });
 });

@@ -10,6 +10,7 @@ import type { CaseSummary } from '../../shared/schemas/cases';
 import type { AckResponse } from '../../shared/realtime/events';
 import { createDb } from '../../server/db';
 import { verifyAuditChain } from '../../server/services/audit';
+import { loadAuditKey } from '../../server/audit-key';
 import { backupCommand, restoreCommand } from '../../server/cli/backup-command';
 import { signIn } from '../support/sign-in';
 import { childServer, databaseFileOf, tempDataDir, type ChildServer } from '../bench/support/child-server';
@@ -80,7 +81,8 @@ describe('plumbline backup FILE while the server takes pre-alerts', () => {
     // No half-written file is left beside it.
     expect(readdirSync(backups)).toEqual(['during-writes.sqlite']);
 
-    const copy = createDb(file);
+    // The copy lies in another folder; it verifies with the server's audit key, kept apart from backups.
+    const copy = createDb(file, { auditKey: loadAuditKey(server.dataDir) });
     try {
       expect((await copy.raw('PRAGMA integrity_check'))[0].integrity_check).toBe('ok');
       const ours = await copy('cases').whereIn('client_id', acked).select('id', 'client_id', 'current_revision');

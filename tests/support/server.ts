@@ -19,9 +19,10 @@ export async function startTestServer(overrides: Partial<Config> = {}, opts: Sta
     ...server,
     dataDir,
     config,
-    async close() {
-      await server.close();
+    async close(withinMs?: number) {
+      const left = await server.close(withinMs);
       rmSync(dataDir, { recursive: true, force: true });
+      return left;
     },
   };
 }
