@@ -38,6 +38,9 @@ const SAFE_METHODS = new Set(['GET', 'HEAD', 'OPTIONS']);
 export function sameOriginOnly(publicOrigin: string): RequestHandler {
   return (req, _res, next) => {
     if (SAFE_METHODS.has(req.method)) return next();
+    // A machine client's bearer token is never sent by a browser on its own, so it cannot be forged
+    // across sites; the routes that take one (requireMachineClient) ignore the session cookie.
+    if (/^Bearer /.test(req.get('authorization') ?? '')) return next();
     const origin = req.get('origin') ?? (req.get('referer') ? new URL(req.get('referer')!).origin : undefined);
     if (origin === publicOrigin) return next();
     next(new AppError(403, 'cross_site', 'This request did not come from a Plumbline page.'));

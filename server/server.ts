@@ -10,6 +10,7 @@ import { startCheckpoints } from './db-checkpoints';
 import { systemClock, type AppDeps, type Clock } from './deps';
 import { createSessionMiddleware } from './auth/session';
 import { createLocalIdp } from './idp/provider';
+import { machineAudienceOf } from './exchange/machine-auth';
 import { createMailer, type Mailer } from './mail';
 import { attachSocketFeatures, createRealtime, type RealtimeServer } from './realtime';
 import { catchUpLane } from './realtime/catch-up';
@@ -91,6 +92,7 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
         dataDir: config.dataDir,
         cookieSecret: config.sessionSecret,
         clock,
+        machineAudience: machineAudienceOf(publicUrl),
         client: { id: config.oidc.clientId, secret: config.oidc.clientSecret, redirectUri: `${publicUrl}/auth/callback`, postLogoutRedirectUri: `${publicUrl}/signed-out` },
       });
   if (idp && publicUrl.startsWith('https://')) idp.provider.proxy = true;

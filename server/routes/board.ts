@@ -9,7 +9,7 @@ import { announceCase } from '../realtime/broadcast';
 import { actOnCase, boardSnapshotJson, CaseActionError } from '../services/board';
 import { sendJsonText } from './json-text';
 
-const BoardQuery = z.object({
+export const BoardQuery = z.object({
   hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }).optional(),
   changesSince: z.string({ error: 'must be the cursor of an earlier snapshot' }).regex(BOARD_CURSOR, { error: 'must be the cursor of an earlier snapshot' }).optional(),
 });
