@@ -131,7 +131,6 @@ export const API_OPERATIONS: readonly Operation[] = [
 /** The OpenAPI 3.1 document, generated from the shared zod schemas every route parses. */
 export function openApiDocument(publicUrl: string, tokenUrl: string | null) {
   const registry = new OpenAPIRegistry();
-  registry.register('Error', ErrorBody);
   registry.registerComponent('securitySchemes', 'session', { type: 'apiKey', in: 'cookie', name: SESSION_COOKIE, description: 'A person signed in through the sign-in page; state-changing requests must come from a Plumbline page (Origin).' });
   if (tokenUrl) {
     registry.registerComponent('securitySchemes', 'machineClient', {

@@ -42,7 +42,7 @@ export function openApiRouter({ db, config, publicUrl }: AppDeps): Router {
   router.get('/api/docs', requireUser(db), requireRole('admin'), (_req, res) => {
     res.type('html').set('Cache-Control', 'no-cache').send(docsPage);
   });
-  router.use('/api/docs/viewer', express.static(viewerDir, { index: false, maxAge: '1d', fallthrough: false }));
-  router.use('/api/docs/own', express.static(ownAssets, { index: false, maxAge: '1h', fallthrough: false }));
+  router.use('/api/docs/viewer', express.static(viewerDir, { index: false, maxAge: '1d' }));
+  router.use('/api/docs/own', express.static(ownAssets, { index: false, maxAge: '1h' }));
   return router;
 }
