@@ -97,6 +97,7 @@ export function createLocalIdp(opts: LocalIdpOptions): { provider: Provider; rou
     interactions: { url: (_ctx, interaction) => `/idp/interaction/${interaction.uid}` },
     ttl: {
       AccessToken: 3600,
+      ClientCredentials: MACHINE_TOKEN_SECONDS,
       AuthorizationCode: 120,
       IdToken: 3600,
       Interaction: 1800,
