@@ -44,9 +44,10 @@ let general: number;
 let validators: Map<string, ValidateFunction>;
 
 function validate(resource: { resourceType: string }): string[] {
-  const check = validators.get(resource.resourceType);
-  if (!check) return [`no schema for ${resource.resourceType}`];
-  return check(resource) ? [] : check.errors!.map((e) => `${resource.resourceType}${e.instancePath} ${e.message} ${JSON.stringify(e.params)}`);
+  const type = resource.resourceType;
+  const check = validators.get(type);
+  if (!check) return [`no schema for ${type}`];
+  return check(resource) ? [] : check.errors!.map((e) => `${type}${e.instancePath} ${e.message} ${JSON.stringify(e.params)}`);
 }
 
 beforeAll(async () => {

@@ -151,6 +151,18 @@ describe('machine clients sending pre-alerts', () => {
     expect(stored.case.source).toBe('Alderwick care-record system');
   });
 
+  it("accepts the README's examples as written, one per format", async () => {
+    const readme = readFileSync(new URL('../../README.md', import.meta.url), 'utf8');
+    const examples = [...readme.matchAll(/-H 'Content-Type: ([^']+)' http:\/\/localhost:3000\/api\/pre-alerts -d '([^']+)'/g)];
+    expect(examples.map((m) => m[1])).toEqual(['application/json', 'application/fhir+json']);
+    expect(general).toBe(1); // the examples name hospital 1, Alderwick General in the demo scenario
+    const [native, bundle] = await Promise.all(examples.map(async ([, type, body]) => (await post(token, body, type)).json()));
+    // 34-year-old, 4 m fall: moderate → consult; 70-year-old, SBP 104, fall from standing with head
+    // impact: high (SBP < 110 at 65 or older) → limited [source: Newgard 2022; levels: the shipped example policy, ours].
+    expect([native.fieldRisk, native.recommendedLevel]).toEqual(['moderate', 'consult']);
+    expect([bundle.fieldRisk, bundle.recommendedLevel]).toEqual(['high', 'limited']);
+  });
+
   it('refuses bad input with a 4xx naming the field, and stores nothing', async () => {
     const before = await countCases();
     const tooHigh = await post(token, preAlert({ clinical: { ageYears: 40, fall: { heightM: 3 }, vitals: { sbp: 900 } } }));
