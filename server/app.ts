@@ -9,6 +9,7 @@ import { sameOriginOnly, securityHeaders } from './security';
 import { createSignInRouter } from './auth/sign-in';
 import { apiRouters } from './routes';
 import { messagePage } from './idp/pages';
+import { MACHINE_CLIENT_PATHS } from './exchange/machine-auth';
 
 export interface CreateAppOptions extends AppDeps {
   issuer: string;
@@ -46,7 +47,7 @@ export function createApp(opts: CreateAppOptions): Express {
 
   if (opts.idpRouter) app.use(opts.idpRouter);
 
-  app.use(['/api', '/auth'], opts.sessionMiddleware, sameOriginOnly(publicOrigin));
+  app.use(['/api', '/auth'], opts.sessionMiddleware, sameOriginOnly(publicOrigin, MACHINE_CLIENT_PATHS));
   app.use('/api', express.json({ limit: '256kb' }));
   app.use(createSignInRouter({ db, logger, publicUrl, issuer: opts.issuer, clientId: config.oidc.clientId, clientSecret: config.oidc.clientSecret }));
   for (const router of apiRouters) app.use(router(opts));

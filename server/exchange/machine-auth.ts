@@ -10,6 +10,9 @@ import { activeMachineClient, type MachineClientRow } from '../services/machine-
 /** Machine clients' access tokens are good for the API and nowhere else. */
 export const machineAudienceOf = (publicUrl: string) => `${publicUrl}/api`;
 
+/** The routes machine clients call; they take a bearer token only, so the same-origin check does not apply. */
+export const MACHINE_CLIENT_PATHS: readonly string[] = ['/api/pre-alerts'];
+
 export interface MachineCaller { client: MachineClientRow; me: Me }
 
 declare global {

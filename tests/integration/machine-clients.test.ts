@@ -190,7 +190,11 @@ describe('machine clients sending pre-alerts', () => {
     const good = { iss: `${server.url}/idp`, aud: `${server.url}/api`, client_id: sender.client.clientId, sub: sender.client.clientId, iat: now, exp: now + 600, jti: randomUUID() };
     const before = await countCases();
     const none = await fetch(new URL('/api/pre-alerts', server.url), { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify(preAlert()) });
-    expect(none.status).toBe(403); // no bearer token: the cross-site guard answers first, as for any cookie request without Origin
+    expect(none.status).toBe(401);
+    expect(none.headers.get('www-authenticate')).toBe('Bearer realm="plumbline"');
+    // A signed-in person's session is no substitute for a machine client's token.
+    const person = await admin.send('POST', '/api/pre-alerts', preAlert());
+    expect(person.status).toBe(401);
     const refusals = [
       ['garbled', 'not.a.token'],
       ['expired', await forged({ ...good, iat: now - 1200, exp: now - 600 })],
@@ -221,6 +225,11 @@ describe('machine clients sending pre-alerts', () => {
   it('lets only an administrator of the agency register, and revocation stops tokens in hand and new ones', async () => {
     const nurse = await signIn(server.url, 'nurse@plumbline.test');
     expect((await nurse.send('POST', '/api/people/machine-clients', { name: 'Not mine', agencyId, requestsPerMinute: 5 })).status).toBe(403);
+    // An administrator only of other places cannot register for an agency that is not theirs.
+    const [foreign] = await server.db('agencies').insert({ name: 'Harrowgate Valley Ambulance Trust', created_at: Date.now() }).returning('id');
+    const notTheirs = await admin.send('POST', '/api/people/machine-clients', { name: 'Valley records', agencyId: foreign.id });
+    expect(notTheirs.status).toBe(400);
+    expect((await notTheirs.json()).error.field).toBe('agencyId');
     const bad = await admin.send('POST', '/api/people/machine-clients', { name: 'X', agencyId });
     expect(bad.status).toBe(400);
     expect((await bad.json()).error.field).toBe('name');
