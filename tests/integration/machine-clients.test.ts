@@ -207,6 +207,10 @@ describe('machine clients sending pre-alerts', () => {
       expect(answer.status, why).toBe(401);
       expect((await answer.json()).error.code, why).toBe('invalid_token');
     }
+    // The identity provider issues tokens for this API only.
+    const elsewhere = await tokenFor(sender, { resource: 'https://records.example.test/api' });
+    expect(elsewhere.status).toBe(400);
+    expect((await elsewhere.json()).error).toBe('invalid_target');
     // The same claims, well signed, pass: the refusals above are the claims', not the signature's.
     expect((await post(await forged(good), preAlert())).status).toBe(201);
     expect(await countCases()).toBe(before + 1);
