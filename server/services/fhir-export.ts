@@ -3,11 +3,12 @@ import { zipSync, strToU8 } from 'fflate';
 import { FHIR_EXPORT_TYPES, type FhirExportQuery, type FhirExportType } from '../../shared/schemas/exchange';
 import type { Me } from '../../shared/roles';
 import { caseBundle, caseResources, type FhirBundle, type FhirResource } from '../exchange/fhir';
+import { invalid } from '../errors';
 import { caseEvents, caseForReader, caseSummary, listCaseSummaries } from './cases';
 import { assertQualityReader } from './quality-report';
 
 const DAY = 86_400_000;
-/** A registry export reads at most this many cases at once; a longer period is asked for in parts. */
+/** A registry export holds at most this many cases; a longer period is refused and asked for in parts. */
 export const EXPORT_MAX_CASES = 5000;
 
 /** One case as a FHIR R4 Bundle, for someone who may read it. */
@@ -21,7 +22,8 @@ export async function fhirResourcesOfPeriod(db: Knex, me: Me, query: FhirExportQ
   assertQualityReader(me, query.hospitalId);
   const start = Date.parse(`${query.from}T00:00:00Z`);
   const end = Date.parse(`${query.to}T00:00:00Z`) + DAY;
-  const ids = (await db('cases').where({ hospital_id: query.hospitalId }).andWhere('created_at', '>=', start).andWhere('created_at', '<', end).orderBy('created_at').limit(EXPORT_MAX_CASES).pluck('id')) as number[];
+  const ids = (await db('cases').where({ hospital_id: query.hospitalId }).andWhere('created_at', '>=', start).andWhere('created_at', '<', end).orderBy('created_at').limit(EXPORT_MAX_CASES + 1).pluck('id')) as number[];
+  if (ids.length > EXPORT_MAX_CASES) throw invalid([{ field: 'to', message: `the period holds more than ${EXPORT_MAX_CASES} cases; export it in shorter periods` }]);
   const byType = new Map<FhirExportType, FhirResource[]>(FHIR_EXPORT_TYPES.map((type) => [type, []]));
   for (let i = 0; i < ids.length; i += 200) {
     const batch = ids.slice(i, i + 200);
