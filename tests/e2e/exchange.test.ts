@@ -41,6 +41,9 @@ describeInBrowser('Exchange in Chromium', () => {
       body: new URLSearchParams({ grant_type: 'client_credentials' }),
     }).then((r) => r.json());
     const hospitalId = (await server.db('hospitals').where({ short_name: 'Alderwick General' }).first('id')).id;
+    // The charge nurse's board is open before the system sends: the pre-alert arrives live.
+    const nurse = await newSignedInPage(browser, server.url, 'nurse@plumbline.test', { path: '/board' });
+    await nurse.page.locator('article.case-card').first().waitFor();
     // 81-year-old, fall from standing with head impact: moderate risk (low-level fall, age ≥ 65, head impact) [source: Newgard 2022].
     const sent = await fetch(new URL('/api/pre-alerts', server.url), {
       method: 'POST',
@@ -57,11 +60,11 @@ describeInBrowser('Exchange in Chromium', () => {
     expect(errors).toEqual([]);
     await context.close();
 
-    const nurse = await newSignedInPage(browser, server.url, 'nurse@plumbline.test', { path: '/board' });
-    const card = nurse.page.locator('article', { hasText: caseNumber });
-    await card.getByText('by its record system “Alderwick care-record system”').waitFor();
+    const card = nurse.page.locator(`article[data-case-number="${caseNumber}"]`);
+    await card.getByText('by its record system “Alderwick care-record system”').waitFor({ timeout: 15_000 });
+    expect(await card.innerText()).toContain('81-year-old female');
     await expectAccessible(nurse.page, 'Inbound board with a machine client pre-alert');
     await screenshot(nurse.page, 'board-machine-source');
     await nurse.context.close();
-  }, 90_000);
+  }, 180_000);
 });
