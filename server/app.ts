@@ -10,6 +10,7 @@ import { createSignInRouter } from './auth/sign-in';
 import { apiRouters } from './routes';
 import { messagePage } from './idp/pages';
 import { webhooksRouter } from './routes/webhooks';
+import { MACHINE_CLIENT_PATHS } from './exchange/machine-auth';
 
 export interface CreateAppOptions extends AppDeps {
   issuer: string;
@@ -53,7 +54,7 @@ export function createApp(opts: CreateAppOptions): Express {
   // The SMS provider's webhooks: called by the provider, never by our pages, so deliberately the
   // only POSTs outside the same-origin check; each is refused without the provider's signature.
   app.use(webhooksRouter(opts));
-  app.use(['/api', '/auth'], opts.sessionMiddleware, sameOriginOnly(publicOrigin));
+  app.use(['/api', '/auth'], opts.sessionMiddleware, sameOriginOnly(publicOrigin, MACHINE_CLIENT_PATHS));
   app.use('/api', express.json({ limit: '256kb' }));
   app.use(createSignInRouter({ db, logger, publicUrl, issuer: opts.issuer, clientId: config.oidc.clientId, clientSecret: config.oidc.clientSecret }));
   for (const router of apiRouters) app.use(router(opts));

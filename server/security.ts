@@ -35,9 +35,11 @@ export function securityHeaders(opts: { secure: boolean; extraFormActions: strin
 const SAFE_METHODS = new Set(['GET', 'HEAD', 'OPTIONS']);
 
 /** Refuses a state-changing request that did not come from a page of this site. */
-export function sameOriginOnly(publicOrigin: string): RequestHandler {
+export function sameOriginOnly(publicOrigin: string, bearerOnlyPaths: readonly string[] = []): RequestHandler {
   return (req, _res, next) => {
     if (SAFE_METHODS.has(req.method)) return next();
+    // Routes for machine clients take only a bearer token, which a browser never sends on its own, and never read the session.
+    if (bearerOnlyPaths.includes(req.baseUrl + req.path)) return next();
     const origin = req.get('origin') ?? (req.get('referer') ? new URL(req.get('referer')!).origin : undefined);
     if (origin === publicOrigin) return next();
     next(new AppError(403, 'cross_site', 'This request did not come from a Plumbline page.'));

@@ -10,6 +10,7 @@ import { startCheckpoints } from './db-checkpoints';
 import { systemClock, type AppDeps, type Clock } from './deps';
 import { createSessionMiddleware } from './auth/session';
 import { createLocalIdp } from './idp/provider';
+import { machineAudienceOf } from './exchange/machine-auth';
 import { createMailer, type Mailer } from './mail';
 import { createSmsSender, type SmsSender } from './sms';
 import { recordingMailer } from './services/messages';
@@ -112,6 +113,7 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
         dataDir: config.dataDir,
         cookieSecret: config.sessionSecret,
         clock,
+        machineAudience: machineAudienceOf(publicUrl),
         client: { id: config.oidc.clientId, secret: config.oidc.clientSecret, redirectUri: `${publicUrl}/auth/callback`, postLogoutRedirectUri: `${publicUrl}/signed-out` },
       });
   if (idp && publicUrl.startsWith('https://')) idp.provider.proxy = true;

@@ -4,7 +4,7 @@ import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import express, { Router, type Request, type Response } from 'express';
 import rateLimit from 'express-rate-limit';
-import Provider, { type Configuration, type KoaContextWithOIDC } from 'oidc-provider';
+import Provider, { errors, type Configuration, type KoaContextWithOIDC } from 'oidc-provider';
 import type { Knex } from 'knex';
 import type { Logger } from 'pino';
 import { verifyPassword } from '../auth/passwords';
@@ -21,10 +21,23 @@ export interface LocalIdpOptions {
   clock: { now(): number };
   client: { id: string; secret: string; redirectUri: string; postLogoutRedirectUri: string };
   signInAttemptsPerWindow?: number;
+  /** Where machine clients' access tokens are good: the API's address, the tokens' audience. */
+  machineAudience: string;
 }
+
+/** The one scope a machine client is given: sending pre-alerts for its agency. */
+export const MACHINE_SCOPE = 'pre-alerts:write';
+/** Short-lived, so a revoked client stops within minutes even with a token in hand. */
+export const MACHINE_TOKEN_SECONDS = 600;
 
 const here = dirname(fileURLToPath(import.meta.url));
 const fontFiles = join(dirname(fileURLToPath(import.meta.resolve('@fontsource/atkinson-hyperlegible/package.json'))), 'files');
+
+/** The public half of the built-in provider's signing keys, to check its access tokens in-process. */
+export function localIdpPublicKeys(dataDir: string): { keys: Array<Record<string, unknown>> } {
+  const { keys } = signingKeys(dataDir) as { keys: Array<Record<string, unknown>> };
+  return { keys: keys.map(({ kty, n, e, kid, alg, use }) => ({ kty, n, e, kid, alg, use })) };
+}
 
 function signingKeys(dataDir: string) {
   const file = join(dataDir, 'idp-signing-key.json');
@@ -57,6 +70,18 @@ export function createLocalIdp(opts: LocalIdpOptions): { provider: Provider; rou
     pkce: { required: () => true },
     features: {
       devInteractions: { enabled: false },
+      // Machine clients (registered in People & places, stored as 'Client' rows of the identity
+      // store, so they survive a restart) get JWT access tokens for the API and nothing else.
+      clientCredentials: { enabled: true },
+      resourceIndicators: {
+        enabled: true,
+        defaultResource: async (_ctx, client, oneOf) => oneOf ?? (client.grantTypes?.includes('client_credentials') ? opts.machineAudience : undefined),
+        useGrantedResource: async () => false,
+        getResourceServerInfo: async (_ctx, resource, client) => {
+          if (resource !== opts.machineAudience || !client.grantTypes?.includes('client_credentials')) throw new errors.InvalidTarget();
+          return { scope: MACHINE_SCOPE, audience: opts.machineAudience, accessTokenTTL: MACHINE_TOKEN_SECONDS, accessTokenFormat: 'jwt', jwt: { sign: { alg: 'RS256' } } };
+        },
+      },
       rpInitiatedLogout: {
         enabled: true,
         logoutSource: async (ctx: KoaContextWithOIDC, form: string) => {
@@ -72,6 +97,7 @@ export function createLocalIdp(opts: LocalIdpOptions): { provider: Provider; rou
     interactions: { url: (_ctx, interaction) => `/idp/interaction/${interaction.uid}` },
     ttl: {
       AccessToken: 3600,
+      ClientCredentials: MACHINE_TOKEN_SECONDS,
       AuthorizationCode: 120,
       IdToken: 3600,
       Interaction: 1800,

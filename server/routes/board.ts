@@ -10,7 +10,7 @@ import { actOnCase, boardSnapshotJson, CaseActionError } from '../services/board
 import { sendJsonText } from './json-text';
 import { startPaging } from '../services/sms-paging';
 
-const BoardQuery = z.object({
+export const BoardQuery = z.object({
   hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }).optional(),
   changesSince: z.string({ error: 'must be the cursor of an earlier snapshot' }).regex(BOARD_CURSOR, { error: 'must be the cursor of an earlier snapshot' }).optional(),
 });

@@ -8,7 +8,7 @@ import { CaseIdParam } from './params';
 import { caseEvents, caseForReader, caseRevisions, caseSummary, listCaseSummariesJson } from '../services/cases';
 import { sendJsonText } from './json-text';
 
-const CaseListQuery = z.object({ state: z.enum(['open', 'all']).default('open') });
+export const CaseListQuery = z.object({ state: z.enum(['open', 'all']).default('open') });
 const CaseId = CaseIdParam;
 
 // Crews read their agency's cases; ED staff read their hospital's. Writes go over the socket.

@@ -12,6 +12,9 @@ import { crewRouter } from './crew';
 import { qualityRouter } from './quality';
 import { pagingRouter } from './paging';
 import { auditRouter } from './audit';
+import { exchangeRouter } from './exchange';
+import { machineClientsRouter } from './machine-clients';
+import { openApiRouter } from './openapi';
 
 /** Every API router, in mounting order. A new resource adds its router here. */
-export const apiRouters: Array<(deps: AppDeps) => Router> = [healthRouter, meRouter, mailRouter, casesRouter, policiesRouter, peopleRouter, reviewRouter, crewRouter, boardRouter, qualityRouter, pagingRouter, auditRouter];
+export const apiRouters: Array<(deps: AppDeps) => Router> = [healthRouter, meRouter, mailRouter, casesRouter, policiesRouter, peopleRouter, reviewRouter, crewRouter, boardRouter, qualityRouter, pagingRouter, auditRouter, exchangeRouter, machineClientsRouter, openApiRouter];

@@ -5,7 +5,7 @@ import { hospitalIdsOf, requireRole, requireUser } from '../auth/guards';
 import { listMail } from '../services/mail-inbox';
 import { parseOr400 } from '../errors';
 
-const MailQuery = z.object({ limit: z.coerce.number({ error: 'must be a number' }).int({ error: 'must be a whole number' }).min(1, { error: 'must be at least 1' }).max(500, { error: 'must be at most 500' }).default(100) });
+export const MailQuery = z.object({ limit: z.coerce.number({ error: 'must be a number' }).int({ error: 'must be a whole number' }).min(1, { error: 'must be at least 1' }).max(500, { error: 'must be at most 500' }).default(100) });
 
 export function mailRouter(deps: AppDeps): Router {
   const router = Router();

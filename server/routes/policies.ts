@@ -7,7 +7,7 @@ import { IdParam } from './params';
 import { CreateDraft, PublishVersion, SaveDraft } from '../../shared/schemas/policies';
 import { approveVersion, createDraft, discardDraft, getPolicyVersion, listPolicyVersions, publishVersion, saveDraft } from '../services/policies';
 
-const HospitalQuery = z.object({ hospitalId: z.coerce.number({ error: 'must be a number' }).int().positive() });
+export const HospitalQuery = z.object({ hospitalId: z.coerce.number({ error: 'must be a number' }).int().positive() });
 const idOf = (req: Request) => parseOr400(IdParam, req.params).id;
 
 export function policiesRouter({ db, clock }: AppDeps): Router {

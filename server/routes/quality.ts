@@ -9,8 +9,8 @@ import { importOutcomes, outcomeTemplateCsv, previewOutcomes } from '../services
 import { assertQualityReader, drilldown, qualityReport, qualityTargets, reportCsv, saveQualityTargets } from '../services/quality-report';
 import { runWhatIf, whatIfPolicies } from '../services/what-if';
 
-const HospitalQuery = z.object({ hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }) });
-const TargetsRequest = z.object({ hospitalId: HospitalQuery.shape.hospitalId, targets: TargetsInput });
+export const HospitalQuery = z.object({ hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }) });
+export const TargetsRequest = z.object({ hospitalId: HospitalQuery.shape.hospitalId, targets: TargetsInput });
 
 // Spreadsheets on some systems label a .csv as Excel or plain text; the name must still end in .csv.
 const CSV_TYPES = new Set(['text/csv', 'application/csv', 'text/plain', 'application/vnd.ms-excel', 'application/octet-stream', 'text/comma-separated-values']);

@@ -11,7 +11,7 @@ import { toCsv, type CsvColumn } from '../services/csv';
 import { allReviewCases, caseTimeline, closeDiscussion, discussionList, listReviewCases, reviewCase, REVIEW_READER_ROLES, REVIEWER_ROLES, scopeHospitals } from '../services/reviews';
 import { getSetting, setSetting } from '../services/settings';
 
-const HospitalQuery = z.object({ hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }).optional() });
+export const HospitalQuery = z.object({ hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }).optional() });
 const idOf = (req: Request) => parseOr400(IdParam, req.params).id;
 
 const iso = (ms: number | null) => (ms == null ? null : new Date(ms).toISOString());

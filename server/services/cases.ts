@@ -10,7 +10,8 @@ import { conflict, forbidden, invalid, notFound } from '../errors';
 import { recordCaseEvent, type Actor } from './audit';
 import { policyInForce } from './policies';
 
-export interface CaseActor { me: Me; role: Role }
+/** Who changes a case: a person in a role, or a registered machine client, named by `source`. */
+export interface CaseActor { me: Me; role: Role | 'machine_client'; source?: string }
 const actorOf = (a: CaseActor): Actor => ({ id: a.me.user.id, role: a.role });
 
 interface CaseRow {
@@ -21,6 +22,7 @@ interface CaseRow {
   bay: string | null; paged_at: number | null; arrived_at: number | null; team_at_bedside_at: number | null;
   closed_at: number | null; cancelled_at: number | null; cancel_reason: string | null; overdue_at: number | null;
   policy_id: string; policy_version: number; created_at: number; updated_at: number; row_version: number;
+  source: string | null;
 }
 
 const num = (v: unknown) => (v == null ? null : Number(v));
@@ -108,6 +110,7 @@ export async function submitPreAlert(db: Knex, clock: Clock, actor: CaseActor, p
           level_rose: false,
           policy_id: result.policy.id,
           policy_version: result.policy.version,
+          source: actor.source ?? null,
           created_at: at,
           updated_at: at,
         })
@@ -400,6 +403,7 @@ export async function listCaseSummaries(db: Knex, filter: CaseFilter): Promise<C
       cancelReason: row.cancel_reason,
       overdueAt: num(row.overdue_at),
       policy: { id: row.policy_id, version: row.policy_version, example: result.policy.example },
+      source: row.source ?? null,
       rowVersion: row.row_version,
     } satisfies CaseSummary;
   });

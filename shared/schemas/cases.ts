@@ -83,6 +83,8 @@ export interface CaseSummary {
   cancelReason: string | null;
   overdueAt: number | null;
   policy: { id: string; version: number; example: boolean };
+  /** The record system that sent it, when a machine client did; null for a crew's screen. */
+  source: string | null;
   /** Bumped on every change; an action sends the version it saw, so the first of two wins. */
   rowVersion: number;
 }

@@ -113,6 +113,17 @@ const TABLE: Record<string, RouteEntry> = {
 
   'GET /api/quality/targets': { access: readersOfQuality, request: (ids) => ({ path: `/api/quality/targets?hospitalId=${ids.general}` }), allowed: 200 },
   'PUT /api/quality/targets': { access: ['quality', 'admin'], request: () => ({ path: '/api/quality/targets', body: {} }), allowed: 400 },
+
+  'GET /api/cases/:id/fhir': { access: all, request: (ids) => ({ path: `/api/cases/${ids.liveCase}/fhir` }), allowed: 200 },
+  'GET /api/quality/export.ndjson': { access: readersOfQuality, request: (ids) => ({ path: `/api/quality/export.ndjson?hospitalId=${ids.general}&${period}&type=Patient` }), allowed: 200 },
+  // For machine clients only: a person's session is no substitute for a bearer token, so everyone here gets 401
+  // (the tokens themselves: tests/integration/machine-clients.test.ts).
+  'POST /api/pre-alerts': { access: 'public', request: () => ({ path: '/api/pre-alerts', body: {} }), allowed: 401 },
+  'GET /api/people/machine-clients': { access: ['admin'], request: () => ({ path: '/api/people/machine-clients' }), allowed: 200 },
+  'POST /api/people/machine-clients': { access: ['admin'], request: () => ({ path: '/api/people/machine-clients', body: {} }), allowed: 400 },
+  'POST /api/people/machine-clients/:id/revoke': { access: ['admin'], request: () => ({ path: `/api/people/machine-clients/${NONE}/revoke` }), allowed: 404 },
+  'GET /api/openapi.json': { access: 'public', request: () => ({ path: '/api/openapi.json' }), allowed: 200 },
+  'GET /api/docs': { access: ['admin'], request: () => ({ path: '/api/docs' }), allowed: 200 },
 };
 
 /** Sign-in, the identity provider's pages and the client's pages: open to anyone by design. */

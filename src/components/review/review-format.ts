@@ -27,6 +27,7 @@ export const ROLE_WORDS: Record<string, string> = {
   quality: 'quality team',
   admin: 'administrator',
   system: 'Plumbline',
+  machine_client: 'record system',
 };
 
 /** Plain words for each step on a case; an unknown kind still reads (dashes become spaces). */
