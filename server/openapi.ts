@@ -18,6 +18,10 @@ import { HospitalQuery as PolicyHospitalQuery } from './routes/policies';
 import { HospitalQuery as QualityHospitalQuery, TargetsRequest } from './routes/quality';
 import { HospitalQuery as ReviewHospitalQuery } from './routes/review';
 import { IdParam } from './routes/params';
+import { HospitalQuery as PagingHospitalQuery, IntervalQuery as PagingIntervalQuery, Limit as MessageLimit } from './routes/paging';
+import { HospitalQuery as AuditHospitalQuery } from './routes/audit';
+import { PagingContact, PagingPlan } from '../shared/schemas/paging';
+import { ProgrammeEmail } from '../shared/schemas/audit';
 import { REVIEW_READER_ROLES, REVIEWER_ROLES } from './services/reviews';
 
 type Method = 'get' | 'post' | 'put' | 'patch' | 'delete';
@@ -123,6 +127,15 @@ export const API_OPERATIONS: readonly Operation[] = [
     method: 'get', path: '/api/quality/export.ndjson', summary: "A period's cases as FHIR Bulk Data NDJSON: one type per file, or all types in one ZIP", roles: qualityReaders, query: FhirExportQuery,
     response: { type: 'application/fhir+ndjson', description: 'One resource per line (with `type`); without it, application/zip with Patient.ndjson, Encounter.ndjson, Observation.ndjson and Provenance.ndjson' },
   },
+
+  { method: 'get', path: '/api/paging/hospitals/{id}', summary: "A hospital's paging plan, its people and the SMS sender", roles: admin, params: IdParam },
+  { method: 'put', path: '/api/paging/hospitals/{id}/plan', summary: "Change a hospital's paging plan (tiers, minutes, lists)", roles: admin, params: IdParam, body: PagingPlan },
+  { method: 'put', path: '/api/paging/contacts/{id}', summary: "A person's paging contacts (e-mail, mobile in E.164)", roles: admin, params: IdParam, body: PagingContact },
+  { method: 'get', path: '/api/paging/board', summary: 'Who is coming and who declined, per open case of a hospital', roles: ['charge_nurse', 'trauma_lead', 'admin'], query: PagingHospitalQuery },
+  { method: 'get', path: '/api/paging/intervals', summary: "Page to first 'on my way', against the hospital's target", roles: reviewReaders, query: PagingIntervalQuery },
+  { method: 'get', path: '/api/messages', summary: 'Everything sent, e-mail and SMS, with delivery state', roles: admin, query: MessageLimit },
+  { method: 'get', path: '/api/audit/programme-email', summary: "The trauma programme's address for audit checkpoints", roles: admin, query: AuditHospitalQuery },
+  { method: 'put', path: '/api/audit/programme-email', summary: "Change the trauma programme's address for audit checkpoints", roles: admin, body: ProgrammeEmail },
 
   { method: 'get', path: '/api/openapi.json', summary: 'This document', roles: null, response: { type: 'application/json', description: 'OpenAPI 3.1' } },
   { method: 'get', path: '/api/docs', summary: 'This document as a reference page for administrators', roles: null, response: { type: 'text/html', description: 'A page' } },

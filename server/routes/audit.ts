@@ -7,7 +7,7 @@ import { parseOr400 } from '../errors';
 import { PROGRAMME_EMAIL_SETTING } from '../services/audit-checkpoints';
 import { getSetting, setSetting } from '../services/settings';
 
-const HospitalQuery = z.object({ hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }) });
+export const HospitalQuery = z.object({ hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }) });
 
 // The trauma programme's address, where the audit trail's signed checkpoints are mailed. An
 // administrator sets it for the hospitals they administer.

@@ -11,14 +11,14 @@ import { listMessages } from '../services/messages';
 import { boardPaging, getPagingPlan, hospitalPeople, pageToFirstComing, savePagingPlan, setContact } from '../services/sms-paging';
 
 const idOf = (req: Request) => parseOr400(IdParam, req.params).id;
-const HospitalQuery = z.object({ hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }) });
-const IntervalQuery = z.object({
+export const HospitalQuery = z.object({ hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }) });
+export const IntervalQuery = z.object({
   hospitalId: HospitalQuery.shape.hospitalId.optional(),
   from: z.iso.date({ error: 'must be a date (YYYY-MM-DD)' }).optional(),
   to: z.iso.date({ error: 'must be a date (YYYY-MM-DD)' }).optional(),
   days: z.coerce.number({ error: 'must be a number of days' }).int({ error: 'must be whole days' }).min(1, { error: 'must be at least 1' }).max(3660, { error: 'must be at most 3660' }).default(90),
 });
-const Limit = z.object({ limit: z.coerce.number({ error: 'must be a number' }).int({ error: 'must be a whole number' }).min(1, { error: 'must be at least 1' }).max(500, { error: 'must be at most 500' }).default(200) });
+export const Limit = z.object({ limit: z.coerce.number({ error: 'must be a number' }).int({ error: 'must be a whole number' }).min(1, { error: 'must be at least 1' }).max(500, { error: 'must be at most 500' }).default(200) });
 
 export function pagingRouter(deps: AppDeps): Router {
   const { db, clock, sms, mailer } = deps;
