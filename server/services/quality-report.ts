@@ -211,7 +211,7 @@ async function groupCases(db: Knex, hospitalId: number, period: Period): Promise
   const bounds = period.months.slice(1).map((m) => m.start);
   const month = bounds.length ? `(CASE ${bounds.map((_, i) => `WHEN c.created_at < ? THEN ${i}`).join(' ')} ELSE ${bounds.length} END)` : '0';
   const band = `(CASE WHEN f.height_m IS NULL THEN ${HEIGHT_BANDS.length} ${HEIGHT_BANDS.slice(0, -1).map((b, i) => `WHEN f.height_m <= ${b.upToM} THEN ${i}`).join(' ')} ELSE ${HEIGHT_BANDS.length - 1} END)`;
-  // ISS > 15 is major trauma [source: Baker 1974, CLINICAL.md §5]; 0 = not known, 1 = not major, 2 = major.
+  // ISS > 15 is major trauma [source: Baker 1974, SOURCES.md §7]; 0 = not known, 1 = not major, 2 = major.
   const outcome = `((o.case_id IS NOT NULL) * 9 + (CASE WHEN o.iss IS NULL THEN 0 WHEN o.iss > 15 THEN 2 ELSE 1 END) * 3 + (CASE WHEN o.nfti_positive IS NULL THEN 0 WHEN o.nfti_positive THEN 2 ELSE 1 END))`;
   const key = `((((${month} * ${AGENCY_SPAN} + c.agency_id) * 8 + ${band}) * 5 + ${LEVEL_SQL('c.decided_level')}) * 5 + ${LEVEL_SQL('c.recommended_level')}) * 18 + ${outcome}`;
   const rows: Array<{ k: number; criteria: string | null; n: number }> = await db.raw(

@@ -15,7 +15,7 @@ export interface TriageOutcome {
   nfti?: boolean | null;
 }
 
-/** Major trauma under a standard; null when the outcome cannot tell. ISS > 15 [source: Baker 1974, CLINICAL.md §5]. */
+/** Major trauma under a standard; null when the outcome cannot tell. ISS > 15 [source: Baker 1974, SOURCES.md §7]. */
 export function isMajorTrauma(iss: number | null | undefined, nfti: boolean | null | undefined, standard: OutcomeStandard): boolean | null {
   const byIss = iss == null ? null : iss > 15;
   const byNfti = nfti ?? null;

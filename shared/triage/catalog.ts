@@ -19,6 +19,7 @@ export interface CatalogEntry {
   tier: RiskTier | null;
   label: string;
   source: string;
+  sourceLabel?: string;
   nemsis: NemsisCode | null;
   note?: string;
 }

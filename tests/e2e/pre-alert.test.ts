@@ -6,7 +6,7 @@ import { startTestServer, type TestServer } from '../support/server';
 import { collectPageErrors, describeInBrowser, expectAccessible, launchBrowser, newSignedInPage, PHONE, screenshot } from './support/browser';
 
 // Check values: 2021 field-triage guideline (Newgard CD et al., 2022) [source] for the field
-// risk; the shipped example policy (CLINICAL.md §4) [ours] for the level's name.
+// risk; the shipped example policy (SOURCES.md §6) [ours] for the level's name.
 
 describeInBrowser('New pre-alert on a phone in Chromium', () => {
   let server: TestServer;

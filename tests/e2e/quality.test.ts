@@ -22,7 +22,7 @@ const patient = (heightM: number, v: object = {}) => ({
   fall: { heightM, surface: 'concrete', firstImpact: 'lower-limb-feet', headImpact: false },
   vitals: { ...vitals, ...v }, findings: [], considerations: [],
 });
-const FULL = patient(0, { sbp: 80, hr: 70 }); // SBP < 90 at 40 → full under the example [ours, CLINICAL.md §4]
+const FULL = patient(0, { sbp: 80, hr: 70 }); // SBP < 90 at 40 → full under the example [ours, SOURCES.md §6]
 const CONSULT = patient(4); // fall > 10 ft → consult
 const NONE = patient(1);
 const FIXTURES = [

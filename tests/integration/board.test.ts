@@ -18,7 +18,7 @@ let general: number;
 let fenmoor: number;
 
 // 2021 guideline (Newgard 2022) [source]: SBP < 90 at age 10–64 is high risk; the example policy
-// (CLINICAL.md §4 [ours]) calls its full level for it.
+// (SOURCES.md §6 [ours]) calls its full level for it.
 const hypotensiveRoofer = { ageYears: 34, sex: 'male', fall: { heightM: 4, surface: 'concrete', firstImpact: 'back' }, vitals: { sbp: 84, hr: 120 } };
 // A fall over 10 ft (3.048 m) is a 2021 moderate-risk criterion [source: Newgard 2022] → consult.
 const ladderFall = { ageYears: 50, sex: 'female', fall: { heightM: 3.5, surface: 'grass', firstImpact: 'lower-limb-feet' }, vitals: { sbp: 130, hr: 80 } };

@@ -9,7 +9,7 @@ import { signIn, type SignedInClient } from '../support/sign-in';
 import { command, connectAs, nextEvent, type TestSocket } from '../support/socket';
 
 // Check values: 2021 field-triage guideline (Newgard CD et al., 2022) [source] for the field
-// risk; the shipped example policy (CLINICAL.md §4) [ours] for the activation level.
+// risk; the shipped example policy (SOURCES.md §6) [ours] for the activation level.
 
 let server: TestServer;
 let medic: SignedInClient;
