@@ -11,6 +11,7 @@ import type { LevelId } from '../../shared/triage/policy';
 import { assertHospital, hasRole } from '../auth/guards';
 import { forbidden, notFound } from '../errors';
 import { toCsv, type CsvColumn } from './csv';
+import { policyInForce } from './policies';
 import { getSetting, setSetting } from './settings';
 
 // The over- and under-triage report: one indexed scan over the hospital's cases in the period,
@@ -242,6 +243,7 @@ export async function buildReport(db: Knex, query: ReportQuery, at: number): Pro
   const period = periodOf(query.from, query.to, query.timeZone);
   const groups = await groupCases(db, query.hospitalId, period);
   const targets = await qualityTargets(db, query.hospitalId);
+  const inForce = await policyInForce(db, query.hospitalId, at);
   const { standard, basis } = query;
 
   const overall = new Int32Array(6);
@@ -291,6 +293,7 @@ export async function buildReport(db: Knex, query: ReportQuery, at: number): Pro
   return {
     query,
     hospital,
+    levels: inForce.levels.map((l) => ({ id: l.id, name: l.name })),
     generatedAt: at,
     cases,
     withOutcome: cases - overall[5],
