@@ -206,7 +206,7 @@ function readCsv(text: string, delimiter?: string): { rows: string[][]; lines: n
   try {
     const records = parseCsv(text, {
       delimiter: delimiter ?? detectDelimiter(first), skip_empty_lines: true, relax_column_count: true, trim: true, info: true,
-    }) as { record: string[]; info: { lines: number } }[];
+    }) as unknown as { record: string[]; info: { lines: number } }[];
     return { rows: records.map((r) => r.record), lines: records.map((r) => r.info.lines) };
   } catch (error) {
     return { error: `not valid CSV (${(error as Error).message.split('\n')[0]})` };
