@@ -54,7 +54,12 @@ function editDistance(a: string, b: string): number {
  * Null when nothing is near (more than half the key would have to change) [ours].
  */
 export function nearestField(key: string, at: readonly PropertyKey[] = []): string | null {
-  const typed = [...at.map(String), key].join('.').toLowerCase();
+  // Where the clinical input starts in the path: a pre-alert holds it under `clinical`.
+  const path = at.map(String);
+  let root = 0;
+  while (root < path.length && !(CLINICAL_FIELDS as readonly string[]).includes(path.slice(root).join('.'))) root++;
+  const prefix = path.slice(0, root).join('.');
+  const typed = [...path.slice(root), key].join('.').toLowerCase();
   const bare = key.toLowerCase();
   let best: string | null = null;
   let bestDistance = Infinity;
@@ -67,7 +72,8 @@ export function nearestField(key: string, at: readonly PropertyKey[] = []): stri
       best = field;
     }
   }
-  return bestDistance <= Math.max(1, Math.floor(bare.length / 2)) ? best : null;
+  if (best === null || bestDistance > Math.max(1, Math.floor(bare.length / 2))) return null;
+  return prefix ? `${prefix}.${best}` : best;
 }
 
 /** "unknown field SBP; did you mean vitals.sbp?" (an unknown key's name is cut at 60 characters). */
