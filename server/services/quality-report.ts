@@ -1,6 +1,6 @@
 import type { Knex } from 'knex';
 import type { Me } from '../../shared/roles';
-import { STANDARD_LABEL, cribariCellIndex, majorTraumaCode, rate, triageRates, wilsonInterval, type OutcomeStandard } from '../../shared/quality';
+import { MAJOR_TRAUMA_ISS_ABOVE, STANDARD_LABEL, cribariCellIndex, majorTraumaCode, rate, triageRates, wilsonInterval, type OutcomeStandard } from '../../shared/quality';
 import {
   HEIGHT_BANDS, heightBandOf,
   type Cell, type CriterionFigure, type Drilldown, type DrilldownCase, type DrilldownQuery, type HeightBandId,
@@ -190,8 +190,10 @@ export async function qualityReport(db: Knex, me: Me, query: ReportQuery, at: nu
 }
 
 const AGENCY_SPAN = 1 << 20;
-/** Outcome codes: stored or not × ISS 0–75 or not known × NFTI no, yes or not known. */
-const OUTCOME_SPAN = 2 * 77 * 3;
+/** Outcome codes: stored or not × ISS band × NFTI band (see groupCases). */
+const OUTCOME_SPAN = 18;
+/** An ISS standing for its band, for shared/quality's classification: not known, not major, major. */
+const ISS_OF_BAND = [-1, MAJOR_TRAUMA_ISS_ABOVE, MAJOR_TRAUMA_ISS_ABOVE + 1];
 const LEVEL_SQL = (col: string) => `(CASE ${col} WHEN 'none' THEN 0 WHEN 'consult' THEN 1 WHEN 'limited' THEN 2 WHEN 'full' THEN 3 ELSE 4 END)`;
 
 /**
@@ -204,9 +206,10 @@ async function groupCases(db: Knex, hospitalId: number, period: Period): Promise
   const bounds = period.months.slice(1).map((m) => m.start);
   const month = bounds.length ? `(CASE ${bounds.map((_, i) => `WHEN c.created_at < ? THEN ${i}`).join(' ')} ELSE ${bounds.length} END)` : '0';
   const band = `(CASE WHEN f.height_m IS NULL THEN ${HEIGHT_BANDS.length} ${HEIGHT_BANDS.slice(0, -1).map((b, i) => `WHEN f.height_m <= ${b.upToM} THEN ${i}`).join(' ')} ELSE ${HEIGHT_BANDS.length - 1} END)`;
-  // The outcome as stored, for shared/quality to classify (SQL only filters and counts): whether
-  // one is stored, the ISS (0–75, 76 when not known) and the NFTI (0 no, 1 yes, 2 not known).
-  const outcome = `(((o.case_id IS NOT NULL) * 77 + COALESCE(o.iss, 76)) * 3 + (CASE WHEN o.nfti_positive IS NULL THEN 2 WHEN o.nfti_positive THEN 1 ELSE 0 END))`;
+  // The outcome for shared/quality to classify (SQL only filters and counts): whether one is
+  // stored, the ISS split at shared/quality's threshold (0 not known, 1 at or below, 2 above),
+  // and the NFTI (0 not known, 1 no, 2 yes). Grouping by the ISS itself made ~50 times the groups.
+  const outcome = `((o.case_id IS NOT NULL) * 9 + (CASE WHEN o.iss IS NULL THEN 0 WHEN o.iss > ${MAJOR_TRAUMA_ISS_ABOVE} THEN 2 ELSE 1 END) * 3 + (CASE WHEN o.nfti_positive IS NULL THEN 0 WHEN o.nfti_positive THEN 2 ELSE 1 END))`;
   const key = `((((${month} * ${AGENCY_SPAN} + c.agency_id) * 8 + ${band}) * 5 + ${LEVEL_SQL('c.decided_level')}) * 5 + ${LEVEL_SQL('c.recommended_level')}) * ${OUTCOME_SPAN} + ${outcome}`;
   const rows: Array<{ k: number; criteria: string | null; n: number }> = await db.raw(
     `SELECT ${key} AS k, f.criteria AS criteria, COUNT(*) AS n
@@ -227,7 +230,7 @@ async function groupCases(db: Knex, hospitalId: number, period: Period): Promise
     return {
       month: Math.floor(rest / AGENCY_SPAN), agency: rest % AGENCY_SPAN, band: bandIndex,
       dec: dec === 4 ? null : LEVEL_OF[dec], rec: LEVEL_OF[rec] ?? 'none',
-      has_o: Math.floor(o / (77 * 3)), iss: Math.floor(o / 3) % 77 === 76 ? -1 : Math.floor(o / 3) % 77, nfti: o % 3 === 2 ? -1 : o % 3,
+      has_o: Math.floor(o / 9), iss: ISS_OF_BAND[Math.floor(o / 3) % 3], nfti: (o % 3) - 1,
       criteria: criteria ?? '', n: Number(n),
     };
   });

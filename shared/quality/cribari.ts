@@ -98,7 +98,7 @@ export function triageRates(a: number, b: number, c: number, d: number): Omit<Cr
 
 /** One plain pass over the rows: 100,000 rows take a few milliseconds. */
 export function cribariMatrix(rows: readonly TriageOutcome[], standard: OutcomeStandard = 'iss'): CribariResult {
-  const cells = [0, 0, 0, 0, 0];
+  const cells = new Int32Array(5);
   for (let i = 0; i < rows.length; i++) {
     const row = rows[i];
     cells[cribariCellIndex(row.fullActivation, majorTraumaCode(row.iss, row.nfti, standard))]++;
