@@ -3,6 +3,7 @@
 import { describe, expect, it } from 'vitest';
 import { ClinicalInput, describeIssues } from '../../../../shared/schemas/clinical';
 import { evaluate } from '../../../../shared/triage/evaluate';
+import { CRITERIA_SETS } from '../../../../shared/triage/catalog';
 import { estimateHeight } from '../../../../shared/triage/growth';
 import { patient } from './cases';
 
@@ -37,6 +38,18 @@ describe('the 2011 children’s fall rule: > 10 ft, or two to three times the ch
     // > 10 ft for children < 15; adults > 20 ft [sourced: Sasser 2012]
     expect(fired(patient({ ageYears: 14, bodyHeightCm: 180, fall: { heightM: 3.049 } }), CHILD_FALL)).toBeDefined();
     expect(fired(patient({ ageYears: 15, bodyHeightCm: 100, fall: { heightM: 3 } }), CHILD_FALL)).toBeUndefined();
+  });
+
+  it('with no height and no age to estimate one from, the child\'s height is listed as missing', () => {
+    // SOURCES.md §3.4 [ours]. The input requires an age, and every age under 15 has an estimate, so
+    // the rule alone is tried here, as data, on a patient past the growth tables.
+    const rule = { ...CRITERIA_SETS['field-2011'].criteria.find((c) => c.id === CHILD_FALL)!, id: 'test:twice-height', when: { kind: 'fall-above-body-heights', times: 2 } as const };
+    const set = { ...CRITERIA_SETS['field-2011'], criteria: [rule] };
+    const result = evaluate(patient({ ageYears: 20, fall: { heightM: 2.5 } }), { criteria: set });
+    expect(result.criteria.map((c) => c.id)).not.toContain('test:twice-height');
+    expect(result.missing.map((m) => m.field)).toContain('bodyHeightCm');
+    // With a height recorded it decides: 2.5 m > 2 × 1.2 m.
+    expect(evaluate(patient({ ageYears: 20, bodyHeightCm: 120, fall: { heightM: 2.5 } }), { criteria: set }).criteria.map((c) => c.id)).toContain('test:twice-height');
   });
 
   it('the estimate follows the references at their ends (SOURCES.md §4)', () => {
