@@ -5,7 +5,7 @@ import { messagePage } from './idp/pages';
 
 const pageFor = (error: AppError) => messagePage(error.status === 404 ? 'Not found' : 'Something went wrong', error.message, { href: '/', label: 'Back to Plumbline' });
 
-import { describeIssues, type FieldIssue } from '../shared/schemas/issues';
+import { describeIssues, formatIssue, type FieldIssue } from '../shared/schemas/issues';
 
 export type { FieldIssue };
 
@@ -30,7 +30,7 @@ export const zodIssues = (error: z.ZodError): FieldIssue[] => describeIssues(err
 
 export function invalid(issues: FieldIssue[]): AppError {
   const first = issues[0];
-  const message = first ? `${first.field}: ${first.message}` : 'The request is not valid.';
+  const message = first ? formatIssue(first) : 'The request is not valid.';
   return new AppError(400, 'invalid', message, issues);
 }
 

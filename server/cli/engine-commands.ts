@@ -1,15 +1,22 @@
 import { createInterface } from 'node:readline';
-import { ClinicalInput } from '../../shared/schemas/clinical';
+import { parse as parseCsv } from 'csv-parse/sync';
+import { stringify as csvLine } from 'csv-stringify/sync';
+import { z } from 'zod';
+import {
+  CLINICAL_FIELDS, CONSIDERATIONS, ClinicalInput, FINDINGS, unknownFieldMessage,
+} from '../../shared/schemas/clinical';
 import { describeIssues, formatIssue } from '../../shared/schemas/issues';
+import { feetToMetres, storeysToMetres } from '../../shared/schemas/units';
 import { isCriteriaSetId } from '../../shared/triage/catalog';
 import type { CriteriaSetId } from '../../shared/triage/criteria';
-import { evaluate } from '../../shared/triage/evaluate';
+import { evaluate, type Evaluation } from '../../shared/triage/evaluate';
 import { BUILT_IN_POLICIES, EXAMPLE_POLICY, LEVEL_IDS, type LevelId, type Policy } from '../../shared/triage/policy';
 import { cribariMatrix, type OutcomeStandard, type TriageOutcome } from '../../shared/quality/cribari';
 import { IssInput, injuryScores } from '../../shared/quality/iss';
 
-// The engine's batch commands. Exit codes: 0 all input answered, 1 some input refused (each
-// refusal on stderr as "line N: field: message", good lines still answered), 2 bad arguments.
+// The engine's batch commands. Exit codes: 0 all input answered; 1 input refused (each refusal
+// on stderr as "line N: field: message", good lines still answered), or no input at all; 2 bad
+// arguments. They never print a stack trace: main.ts catches whatever is left.
 
 export interface CliIo {
   stdin: NodeJS.ReadableStream;
@@ -17,8 +24,48 @@ export interface CliIo {
   stderr: NodeJS.WritableStream;
 }
 
-const USAGE_EVALUATE = 'usage: plumbline evaluate [--set field-2021|field-2011] [--policy ID] < inputs.jsonl\n';
-const USAGE_CRIBARI = 'usage: plumbline cribari < outcomes.csv   (columns activation,iss[,nfti]; header optional)\n';
+const EXIT_CODES = `Exit codes:
+  0  every input answered
+  1  some or all input refused (each on stderr as "line N: field: message"), or no input at all
+  2  bad arguments
+`;
+
+/** Fields a CSV header or a JSON line may name: the clinical input's, and the two other units of the fall height. */
+const HEIGHT_ALTERNATIVES = ['fall.heightFt', 'fall.heightStoreys'] as const;
+const LEAF_FIELDS = CLINICAL_FIELDS.filter((f) => !CLINICAL_FIELDS.some((g) => g.startsWith(`${f}.`)));
+
+function evaluateHelp(): string {
+  return `usage: plumbline evaluate [--set field-2021|field-2011] [--policy ID] [--csv] [--out jsonl|csv] < inputs
+
+Reads clinical inputs on stdin, one JSON object per line (JSON Lines), or with --csv a CSV file
+whose header row names the fields. Writes one result per input: JSON Lines, or CSV with --out csv
+(the default output is the input's format). Unknown fields are refused.
+
+Fields (dotted paths; in CSV, the header names them and an empty cell is "not recorded"):
+${LEAF_FIELDS.map((f) => `  ${f}`).join('\n')}
+The fall height may be given in metres (fall.heightM), feet (fall.heightFt) or storeys of 10 ft
+(fall.heightStoreys): exactly one of the three. In CSV, yes/no or true/false for the yes-or-no
+fields, and findings and considerations as ids separated by spaces or semicolons.
+
+Finding ids:
+${FINDINGS.map((f) => `  ${f}`).join('\n')}
+Consideration ids:
+${CONSIDERATIONS.map((c) => `  ${c}`).join('\n')}
+
+Criteria sets: field-2021 (default), field-2011. Policies: ${[...BUILT_IN_POLICIES.keys()].join(', ')}.
+\`plumbline schema\` prints the input's JSON Schema.
+
+${EXIT_CODES}`;
+}
+
+const USAGE_CRIBARI = `usage: plumbline cribari [--delimiter ,|;|tab] < outcomes.csv
+
+Reads one case per row: activation (full, limited, consult, none), iss (a whole number 0–75, or
+empty when not known) and, optionally, nfti (yes/no, true/false, 1/0, or empty). A header row
+naming these columns is optional. The delimiter (comma, semicolon or tab) is detected from the
+first row unless given. Numbers are decimal digits only. Prints the Cribari matrix and rates as JSON.
+
+${EXIT_CODES}`;
 const USAGE_ISS = 'usage: plumbline iss < injuries.json   ({ "injuries": [{ "region", "ais" }] }, one per line or one document)\n';
 
 /** Buffers output so that a long batch is a few large writes, and waits when the pipe is full. */
@@ -26,7 +73,7 @@ class Output {
   private buffer = '';
   constructor(private readonly stream: NodeJS.WritableStream) {}
   async line(text: string): Promise<void> {
-    this.buffer += text + '\n';
+    this.buffer += text.endsWith('\n') ? text : text + '\n';
     if (this.buffer.length >= 65_536) await this.flush();
   }
   async flush(): Promise<void> {
@@ -37,7 +84,8 @@ class Output {
   }
 }
 
-function parseFlags(args: string[], known: readonly string[]): { flags: Map<string, string>; error?: string } {
+/** Flags with values; `switches` are flags without one (--csv). */
+function parseFlags(args: string[], known: readonly string[], switches: readonly string[] = []): { flags: Map<string, string>; error?: string } {
   const flags = new Map<string, string>();
   for (let i = 0; i < args.length; i++) {
     const arg = args[i];
@@ -45,6 +93,10 @@ function parseFlags(args: string[], known: readonly string[]): { flags: Map<stri
     const name = eq > 0 ? arg.slice(0, eq) : arg;
     if (name === '--help' || name === '-h') {
       flags.set('--help', '');
+      continue;
+    }
+    if (switches.includes(name) && eq < 0) {
+      flags.set(name, '');
       continue;
     }
     if (!known.includes(name)) return { flags, error: `unknown argument ${arg}` };
@@ -64,6 +116,12 @@ async function* lines(stdin: NodeJS.ReadableStream): AsyncGenerator<[number, str
   }
 }
 
+async function readAll(stdin: NodeJS.ReadableStream): Promise<string> {
+  let text = '';
+  for await (const chunk of stdin) text += typeof chunk === 'string' ? chunk : (chunk as Buffer).toString('utf8');
+  return text.replace(/^\uFEFF/, '');
+}
+
 function parseJson(text: string): { value: unknown } | { error: string } {
   try {
     return { value: JSON.parse(text) };
@@ -72,14 +130,110 @@ function parseJson(text: string): { value: unknown } | { error: string } {
   }
 }
 
+/** A decimal number as typed: digits, one optional point, an optional sign; never hex, exponent or blank. */
+const DECIMAL = /^[+-]?(\d+(\.\d*)?|\.\d+)$/;
+
+const YES = new Set(['yes', 'true', '1', 'y']);
+const NO = new Set(['no', 'false', '0', 'n']);
+
+type Refusal = { field: string; message: string };
+
+/** The fall height in feet or storeys, as metres; exactly one of the three units. */
+function metresFromAlternatives(value: unknown): Refusal | null {
+  if (typeof value !== 'object' || value === null || Array.isArray(value)) return null;
+  const fall = (value as { fall?: unknown }).fall;
+  if (typeof fall !== 'object' || fall === null || Array.isArray(fall)) return null;
+  const f = fall as Record<string, unknown>;
+  const given = ['heightM', 'heightFt', 'heightStoreys'].filter((k) => k in f);
+  if (given.length > 1) return { field: 'fall', message: `give the fall height once, in one unit: ${given.map((k) => `fall.${k}`).join(' and ')} both given` };
+  for (const [key, toMetres] of [['heightFt', feetToMetres], ['heightStoreys', (v: number) => storeysToMetres(v)]] as const) {
+    if (!(key in f)) continue;
+    const v = f[key];
+    if (typeof v !== 'number' || !Number.isFinite(v)) return { field: `fall.${key}`, message: 'must be a number' };
+    delete f[key];
+    f.heightM = toMetres(v);
+  }
+  return null;
+}
+
+const NUMBER_FIELDS = new Set<string>([
+  'ageYears', 'pregnancyWeeks', 'weightKg', 'bodyHeightCm', 'fall.heightM', ...HEIGHT_ALTERNATIVES,
+  'vitals.sbp', 'vitals.hr', 'vitals.rr', 'vitals.spo2', 'vitals.gcs.eye', 'vitals.gcs.verbal', 'vitals.gcs.motor', 'vitals.gcsTotal',
+]);
+const YES_NO_FIELDS = new Set<string>([
+  'anticoagulant', 'fall.headImpact', 'vitals.spo2RoomAir', 'vitals.intubated', 'vitals.respiratorySupport', 'vitals.respiratoryDistress',
+]);
+const LIST_FIELDS = new Set<string>(['findings', 'considerations']);
+const CSV_FIELDS = new Set<string>([...LEAF_FIELDS, ...HEIGHT_ALTERNATIVES]);
+
+/** One CSV row as the clinical input's object; an empty cell is left out ("not recorded"). */
+function rowToInput(header: readonly string[], row: readonly string[]): { value: Record<string, unknown> } | { refusals: Refusal[] } {
+  const value: Record<string, unknown> = {};
+  const refusals: Refusal[] = [];
+  if (row.length !== header.length) return { refusals: [{ field: '(row)', message: `has ${row.length} cells; the header names ${header.length}` }] };
+  header.forEach((field, i) => {
+    const cell = row[i].trim();
+    if (cell === '') return;
+    let typed: unknown = cell;
+    if (NUMBER_FIELDS.has(field)) {
+      if (!DECIMAL.test(cell)) return refusals.push({ field, message: `must be a decimal number, not "${cell.slice(0, 40)}"` });
+      typed = Number(cell);
+    } else if (YES_NO_FIELDS.has(field)) {
+      const lower = cell.toLowerCase();
+      if (YES.has(lower)) typed = true;
+      else if (NO.has(lower)) typed = false;
+      else return refusals.push({ field, message: 'must be yes or no (true/false, 1/0), or empty when not known' });
+    } else if (LIST_FIELDS.has(field)) {
+      typed = cell.split(/[\s;]+/).filter(Boolean);
+    }
+    const path = field.split('.');
+    let at = value;
+    for (const key of path.slice(0, -1)) at = (at[key] ??= {}) as Record<string, unknown>;
+    at[path[path.length - 1]] = typed;
+  });
+  return refusals.length ? { refusals } : { value };
+}
+
+function detectDelimiter(firstLine: string): string {
+  const counts = [',', ';', '\t'].map((d) => [d, firstLine.split(d).length - 1] as const);
+  const [best] = counts.sort((x, y) => y[1] - x[1]);
+  return best[1] > 0 ? best[0] : ',';
+}
+
+/** The rows and the line each starts on. */
+function readCsv(text: string, delimiter?: string): { rows: string[][]; lines: number[]; error?: undefined } | { error: string } {
+  const first = text.split(/\r?\n/, 1)[0] ?? '';
+  try {
+    const records = parseCsv(text, {
+      delimiter: delimiter ?? detectDelimiter(first), skip_empty_lines: true, relax_column_count: true, trim: true, info: true,
+    }) as unknown as { record: string[]; info: { lines: number } }[];
+    return { rows: records.map((r) => r.record), lines: records.map((r) => r.info.lines) };
+  } catch (error) {
+    return { error: `not valid CSV (${(error as Error).message.split('\n')[0]})` };
+  }
+}
+
+const OUT_COLUMNS = ['line', 'set', 'fieldRisk', 'activation', 'activationName', 'criteria', 'because', 'missing', 'policy'] as const;
+
+function csvRow(n: number, r: Evaluation): string {
+  return csvLine([[
+    n, r.set, r.fieldRisk, r.activation, r.activationName,
+    r.criteria.map((c) => c.id).join(' '),
+    r.criteria.map((c) => c.because).join(' | '),
+    r.missing.map((m) => m.field).join(' '),
+    `${r.policy.id} v${r.policy.version}`,
+  ]]);
+}
+
 export async function evaluateCommand(args: string[], io: CliIo): Promise<number> {
-  const { flags, error } = parseFlags(args, ['--set', '--policy']);
+  const { flags, error } = parseFlags(args, ['--set', '--policy', '--out'], ['--csv']);
   if (flags.has('--help')) {
-    io.stdout.write(USAGE_EVALUATE);
+    io.stdout.write(evaluateHelp());
     return 0;
   }
+  const usage = 'usage: plumbline evaluate [--set field-2021|field-2011] [--policy ID] [--csv] [--out jsonl|csv]; --help for the fields\n';
   if (error) {
-    io.stderr.write(`${error}\n${USAGE_EVALUATE}`);
+    io.stderr.write(`${error}\n${usage}`);
     return 2;
   }
   const setArg = flags.get('--set') ?? 'field-2021';
@@ -94,43 +248,106 @@ export async function evaluateCommand(args: string[], io: CliIo): Promise<number
     io.stderr.write(`unknown policy ${policyId}; built in: ${[...BUILT_IN_POLICIES.keys()].join(', ')}\n`);
     return 2;
   }
+  const csvIn = flags.has('--csv');
+  const outFormat = flags.get('--out') ?? (csvIn ? 'csv' : 'jsonl');
+  if (outFormat !== 'csv' && outFormat !== 'jsonl') {
+    io.stderr.write(`--out must be jsonl or csv, not ${outFormat}\n`);
+    return 2;
+  }
 
   const out = new Output(io.stdout);
-  let refused = 0;
-  for await (const [n, text] of lines(io.stdin)) {
-    const json = parseJson(text);
-    if ('error' in json) {
-      refused++;
-      io.stderr.write(`line ${n}: ${json.error}\n`);
-      continue;
+  let refused = 0, inputs = 0;
+  const refuse = (n: number, refusals: readonly Refusal[]) => {
+    refused++;
+    for (const r of refusals) io.stderr.write(`line ${n}: ${r.field ? formatIssue(r) : r.message}\n`);
+  };
+  if (outFormat === 'csv') await out.line(csvLine([[...OUT_COLUMNS]]));
+  const answer = async (n: number, value: unknown) => {
+    inputs++;
+    const height = metresFromAlternatives(value);
+    if (height) return refuse(n, [height]);
+    const parsed = ClinicalInput.safeParse(value);
+    if (!parsed.success) return refuse(n, describeIssues(parsed.error));
+    const result = evaluate(parsed.data, { set, policy });
+    await out.line(outFormat === 'csv' ? csvRow(n, result) : JSON.stringify(result));
+  };
+
+  if (csvIn) {
+    const csv = readCsv(await readAll(io.stdin));
+    if (csv.error !== undefined) {
+      io.stderr.write(`${csv.error}\n`);
+      return 1;
     }
-    const parsed = ClinicalInput.safeParse(json.value);
-    if (!parsed.success) {
-      refused++;
-      for (const issue of describeIssues(parsed.error)) io.stderr.write(`line ${n}: ${formatIssue(issue)}\n`);
-      continue;
+    const [header, ...rows] = csv.rows;
+    if (header) {
+      const unknown = header.filter((h) => !CSV_FIELDS.has(h));
+      if (unknown.length) {
+        for (const h of unknown) io.stderr.write(`line 1: ${unknownFieldMessage(h)}\n`);
+        return 1;
+      }
+      for (let k = 0; k < rows.length; k++) {
+        const n = csv.lines[k + 1];
+        const row = rowToInput(header, rows[k]);
+        if ('refusals' in row) {
+          inputs++;
+          refuse(n, row.refusals);
+        } else await answer(n, row.value);
+      }
     }
-    await out.line(JSON.stringify(evaluate(parsed.data, { set, policy })));
+  } else {
+    for await (const [n, text] of lines(io.stdin)) {
+      const json = parseJson(text);
+      if ('error' in json) {
+        inputs++;
+        refuse(n, [{ field: '', message: json.error }]);
+        continue;
+      }
+      await answer(n, json.value);
+    }
   }
   await out.flush();
+  if (inputs === 0) {
+    io.stderr.write(`no input: give one clinical input per line on stdin\n${usage}`);
+    return 1;
+  }
   return refused ? 1 : 0;
 }
 
-const YES = new Set(['yes', 'true', '1', 'y']);
-const NO = new Set(['no', 'false', '0', 'n']);
-
-function cells(line: string): string[] {
-  return line.split(',').map((cell) => cell.trim().replace(/^"(.*)"$/, '$1').trim());
-}
-
-export async function cribariCommand(args: string[], io: CliIo): Promise<number> {
+/** The clinical input's JSON Schema, made from the zod schema the server checks with. */
+export async function schemaCommand(args: string[], io: CliIo): Promise<number> {
   if (args.includes('--help') || args.includes('-h')) {
-    io.stdout.write(USAGE_CRIBARI);
+    io.stdout.write('usage: plumbline schema   (prints the clinical input\'s JSON Schema)\n');
     return 0;
   }
   if (args.length) {
-    io.stderr.write(`unknown argument ${args[0]}\n${USAGE_CRIBARI}`);
+    io.stderr.write(`unknown argument ${args[0]}\nusage: plumbline schema\n`);
     return 2;
+  }
+  const schema = z.toJSONSchema(ClinicalInput, { io: 'input', unrepresentable: 'any' });
+  io.stdout.write(JSON.stringify({ title: 'Plumbline clinical input', ...schema }, null, 2) + '\n');
+  return 0;
+}
+
+export async function cribariCommand(args: string[], io: CliIo): Promise<number> {
+  const { flags, error } = parseFlags(args, ['--delimiter']);
+  if (flags.has('--help')) {
+    io.stdout.write(USAGE_CRIBARI);
+    return 0;
+  }
+  if (error) {
+    io.stderr.write(`${error}\n${USAGE_CRIBARI}`);
+    return 2;
+  }
+  const delimiterArg = flags.get('--delimiter');
+  const delimiter = delimiterArg === undefined ? undefined : delimiterArg === 'tab' || delimiterArg === '\\t' ? '\t' : delimiterArg;
+  if (delimiter !== undefined && ![',', ';', '\t', '|'].includes(delimiter)) {
+    io.stderr.write(`--delimiter must be one of , ; | tab, not ${delimiterArg}\n`);
+    return 2;
+  }
+  const csv = readCsv(await readAll(io.stdin), delimiter);
+  if (csv.error !== undefined) {
+    io.stderr.write(`${csv.error}\n`);
+    return 1;
   }
   const rows: TriageOutcome[] = [];
   let columns: { activation: number; iss: number; nfti: number } | null = null;
@@ -140,8 +357,9 @@ export async function cribariCommand(args: string[], io: CliIo): Promise<number>
     io.stderr.write(`line ${n}: ${message}\n`);
   };
 
-  for await (const [n, text] of lines(io.stdin)) {
-    const row = cells(text);
+  for (let k = 0; k < csv.rows.length; k++) {
+    const n = csv.lines[k];
+    const row = csv.rows[k];
     if (columns === null) {
       const names = row.map((cell) => cell.toLowerCase());
       if (names.includes('activation')) {
@@ -160,9 +378,9 @@ export async function cribariCommand(args: string[], io: CliIo): Promise<number>
       continue;
     }
     const issText = row[columns.iss] ?? '';
-    const iss = issText === '' ? null : Number(issText);
-    if (iss !== null && !(Number.isInteger(iss) && iss >= 0 && iss <= 75)) {
-      refuse(n, 'iss: must be a whole number from 0 to 75, or empty when not known');
+    const iss = issText === '' ? null : /^\d{1,2}$/.test(issText) ? Number(issText) : NaN;
+    if (iss !== null && !(iss >= 0 && iss <= 75)) {
+      refuse(n, `iss: must be a whole decimal number from 0 to 75, or empty when not known, not "${issText.slice(0, 40)}"`);
       continue;
     }
     let nfti: boolean | null = null;
@@ -178,6 +396,10 @@ export async function cribariCommand(args: string[], io: CliIo): Promise<number>
     rows.push({ fullActivation: (activation as LevelId) === 'full', iss, nfti });
   }
 
+  if (rows.length === 0) {
+    io.stderr.write(refused ? `every row was refused (${refused}); no matrix\n` : `no input: give one case per row on stdin\n${USAGE_CRIBARI}`);
+    return 1;
+  }
   const standard: OutcomeStandard = columns !== null && columns.nfti >= 0 ? 'iss-or-nfti' : 'iss';
   io.stdout.write(JSON.stringify({ rows: rows.length, ...cribariMatrix(rows, standard) }) + '\n');
   return refused ? 1 : 0;

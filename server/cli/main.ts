@@ -14,9 +14,12 @@ const usage = `Usage: plumbline <command>
   dev                   run the server with the client served by Vite, with hot reload
   migrate               bring the database up to the latest migration
   seed                  load the invented demo scenario into an empty database
-  evaluate [--set field-2021|field-2011] [--policy ID]
-                        JSON Lines of clinical inputs on stdin, one result per line on stdout
-  cribari               CSV (activation,iss[,nfti]) on stdin, the matrix and rates as JSON
+  evaluate [--set field-2021|field-2011] [--policy ID] [--csv] [--out jsonl|csv]
+                        clinical inputs on stdin (JSON Lines, or CSV with --csv), one result each
+                        on stdout; evaluate --help lists the fields and ids
+  schema                the clinical input's JSON Schema
+  cribari [--delimiter ,|;|tab]
+                        CSV (activation,iss[,nfti]) on stdin, the matrix and rates as JSON
   iss                   {"injuries":[{"region","ais"}]} on stdin, {"iss","niss"} on stdout
   audit verify [--checkpoints FILE]
                         check the audit trail's keyed hash chain, and against signed
@@ -57,11 +60,18 @@ export async function main(argv: string[]): Promise<number> {
       return 0;
     }
     case 'evaluate':
+    case 'schema':
     case 'cribari':
     case 'iss': {
       const engine = await import('./engine-commands');
-      const run = { evaluate: engine.evaluateCommand, cribari: engine.cribariCommand, iss: engine.issCommand }[command];
-      return run(args, io);
+      const run = { evaluate: engine.evaluateCommand, schema: engine.schemaCommand, cribari: engine.cribariCommand, iss: engine.issCommand }[command];
+      try {
+        return await run(args, io);
+      } catch (error) {
+        // A batch user gets one line, never a stack trace.
+        io.stderr.write(`plumbline ${command}: ${(error as Error)?.message ?? String(error)}\n`);
+        return 1;
+      }
     }
     case 'backup':
     case 'restore': {

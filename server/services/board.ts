@@ -25,6 +25,7 @@ import { caseSummary, listCaseSummariesJson, loadCaseRow, type CaseActor } from 
 import { composePage, notificationList } from './paging';
 import { policyInForce } from './policies';
 import { hasTierOneEntries } from './sms-paging';
+import { getSetting } from './settings';
 
 type CaseRow = Awaited<ReturnType<typeof loadCaseRow>>;
 
@@ -83,8 +84,9 @@ export async function boardSnapshotJson(db: Knex, clock: Clock, me: Me, hospital
   const at = clock.now();
   const hospital = await db('hospitals').where({ id }).first('id', 'name', 'height_unit', 'escalation_minutes');
   const policy = await policyInForce(db, id, at);
+  const responseTargetMinutes = await getSetting<number>(db, 'response.targetMinutes', id);
   const head = {
-    hospital: { id: hospital.id, name: hospital.name, heightUnit: hospital.height_unit, escalationMinutes: hospital.escalation_minutes },
+    hospital: { id: hospital.id, name: hospital.name, heightUnit: hospital.height_unit, escalationMinutes: hospital.escalation_minutes, responseTargetMinutes },
     levels: policy.levels.map((l) => ({ id: l.id, name: l.name })),
   } satisfies Omit<BoardSnapshot, 'cases' | 'at' | 'cursor'>;
   // The cursor is read first: whatever commits after it is in the next reload's changes.

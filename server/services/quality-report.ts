@@ -1,6 +1,6 @@
 import type { Knex } from 'knex';
 import type { Me } from '../../shared/roles';
-import { STANDARD_LABEL, rate, triageRates, wilsonInterval, type OutcomeStandard } from '../../shared/quality';
+import { MAJOR_TRAUMA_ISS_ABOVE, STANDARD_LABEL, cribariCellIndex, majorTraumaCode, rate, triageRates, wilsonInterval, type OutcomeStandard } from '../../shared/quality';
 import {
   HEIGHT_BANDS, heightBandOf,
   type Cell, type CriterionFigure, type Drilldown, type DrilldownCase, type DrilldownQuery, type HeightBandId,
@@ -11,6 +11,7 @@ import type { LevelId } from '../../shared/triage/policy';
 import { assertHospital, hasRole } from '../auth/guards';
 import { forbidden, notFound } from '../errors';
 import { toCsv, type CsvColumn } from './csv';
+import { policyInForce } from './policies';
 import { getSetting, setSetting } from './settings';
 
 // The over- and under-triage report: one indexed scan over the hospital's cases in the period,
@@ -142,20 +143,10 @@ async function scanCases(db: Knex, hospitalId: number, period: Period): Promise<
   return scan;
 }
 
-/** 1 major, 0 not, -1 cannot tell under the standard [source: Baker 1974 for ISS > 15; Roden-Foreman 2017 for NFTI]. */
-function majorOf(iss: number, nfti: number, standard: OutcomeStandard): number {
-  const byIss = iss < 0 ? -1 : iss > 15 ? 1 : 0;
-  if (standard === 'iss') return byIss;
-  if (standard === 'nfti') return nfti;
-  if (byIss === 1 || nfti === 1) return 1;
-  return byIss === 0 && nfti === 0 ? 0 : -1;
-}
-
-/** The Cribari cell: 0 a, 1 b, 2 c, 3 d; 4 outcome cannot tell; 5 no outcome stored. */
+/** The Cribari cell (shared/quality's classification): 0 a, 1 b, 2 c, 3 d; 4 outcome cannot tell; 5 no outcome stored. */
 function cellOf(full: boolean, major: number, hasOutcome: number): number {
   if (!hasOutcome) return 5;
-  if (major < 0) return 4;
-  return full ? (major ? 0 : 1) : major ? 2 : 3;
+  return cribariCellIndex(full, major);
 }
 
 const CELL_NAMES: Cell[] = ['a', 'b', 'c', 'd'];
@@ -199,6 +190,10 @@ export async function qualityReport(db: Knex, me: Me, query: ReportQuery, at: nu
 }
 
 const AGENCY_SPAN = 1 << 20;
+/** Outcome codes: stored or not × ISS band × NFTI band (see groupCases). */
+const OUTCOME_SPAN = 18;
+/** An ISS standing for its band, for shared/quality's classification: not known, not major, major. */
+const ISS_OF_BAND = [-1, MAJOR_TRAUMA_ISS_ABOVE, MAJOR_TRAUMA_ISS_ABOVE + 1];
 const LEVEL_SQL = (col: string) => `(CASE ${col} WHEN 'none' THEN 0 WHEN 'consult' THEN 1 WHEN 'limited' THEN 2 WHEN 'full' THEN 3 ELSE 4 END)`;
 
 /**
@@ -211,9 +206,11 @@ async function groupCases(db: Knex, hospitalId: number, period: Period): Promise
   const bounds = period.months.slice(1).map((m) => m.start);
   const month = bounds.length ? `(CASE ${bounds.map((_, i) => `WHEN c.created_at < ? THEN ${i}`).join(' ')} ELSE ${bounds.length} END)` : '0';
   const band = `(CASE WHEN f.height_m IS NULL THEN ${HEIGHT_BANDS.length} ${HEIGHT_BANDS.slice(0, -1).map((b, i) => `WHEN f.height_m <= ${b.upToM} THEN ${i}`).join(' ')} ELSE ${HEIGHT_BANDS.length - 1} END)`;
-  // ISS > 15 is major trauma [source: Baker 1974, CLINICAL.md §5]; 0 = not known, 1 = not major, 2 = major.
-  const outcome = `((o.case_id IS NOT NULL) * 9 + (CASE WHEN o.iss IS NULL THEN 0 WHEN o.iss > 15 THEN 2 ELSE 1 END) * 3 + (CASE WHEN o.nfti_positive IS NULL THEN 0 WHEN o.nfti_positive THEN 2 ELSE 1 END))`;
-  const key = `((((${month} * ${AGENCY_SPAN} + c.agency_id) * 8 + ${band}) * 5 + ${LEVEL_SQL('c.decided_level')}) * 5 + ${LEVEL_SQL('c.recommended_level')}) * 18 + ${outcome}`;
+  // The outcome for shared/quality to classify (SQL only filters and counts): whether one is
+  // stored, the ISS split at shared/quality's threshold (0 not known, 1 at or below, 2 above),
+  // and the NFTI (0 not known, 1 no, 2 yes). Grouping by the ISS itself made ~50 times the groups.
+  const outcome = `((o.case_id IS NOT NULL) * 9 + (CASE WHEN o.iss IS NULL THEN 0 WHEN o.iss > ${MAJOR_TRAUMA_ISS_ABOVE} THEN 2 ELSE 1 END) * 3 + (CASE WHEN o.nfti_positive IS NULL THEN 0 WHEN o.nfti_positive THEN 2 ELSE 1 END))`;
+  const key = `((((${month} * ${AGENCY_SPAN} + c.agency_id) * 8 + ${band}) * 5 + ${LEVEL_SQL('c.decided_level')}) * 5 + ${LEVEL_SQL('c.recommended_level')}) * ${OUTCOME_SPAN} + ${outcome}`;
   const rows: Array<{ k: number; criteria: string | null; n: number }> = await db.raw(
     `SELECT ${key} AS k, f.criteria AS criteria, COUNT(*) AS n
      FROM cases c LEFT JOIN outcomes o ON o.case_id = c.id LEFT JOIN case_quality_facts f ON f.case_id = c.id
@@ -222,8 +219,8 @@ async function groupCases(db: Knex, hospitalId: number, period: Period): Promise
     [...bounds, hospitalId, period.start, period.end],
   );
   return rows.map(({ k, criteria, n }) => {
-    const o = k % 18;
-    let rest = Math.floor(k / 18);
+    const o = k % OUTCOME_SPAN;
+    let rest = Math.floor(k / OUTCOME_SPAN);
     const rec = rest % 5;
     rest = Math.floor(rest / 5);
     const dec = rest % 5;
@@ -233,20 +230,14 @@ async function groupCases(db: Knex, hospitalId: number, period: Period): Promise
     return {
       month: Math.floor(rest / AGENCY_SPAN), agency: rest % AGENCY_SPAN, band: bandIndex,
       dec: dec === 4 ? null : LEVEL_OF[dec], rec: LEVEL_OF[rec] ?? 'none',
-      has_o: Math.floor(o / 9), by_iss: (Math.floor(o / 3) % 3) - 1, by_nfti: (o % 3) - 1,
+      has_o: Math.floor(o / 9), iss: ISS_OF_BAND[Math.floor(o / 3) % 3], nfti: (o % 3) - 1,
       criteria: criteria ?? '', n: Number(n),
     };
   });
 }
 
-interface GroupRow { month: number; agency: number; band: number; dec: LevelId | null; rec: LevelId; has_o: number; by_iss: number; by_nfti: number; criteria: string; n: number }
-
-function majorOfClasses(byIss: number, byNfti: number, standard: OutcomeStandard): number {
-  if (standard === 'iss') return byIss;
-  if (standard === 'nfti') return byNfti;
-  if (byIss === 1 || byNfti === 1) return 1;
-  return byIss === 0 && byNfti === 0 ? 0 : -1;
-}
+/** iss −1 and nfti −1 when not known. */
+interface GroupRow { month: number; agency: number; band: number; dec: LevelId | null; rec: LevelId; has_o: number; iss: number; nfti: number; criteria: string; n: number }
 
 /** The report without the caller check, for the benchmark and the services that already checked. */
 export async function buildReport(db: Knex, query: ReportQuery, at: number): Promise<QualityReport> {
@@ -255,6 +246,7 @@ export async function buildReport(db: Knex, query: ReportQuery, at: number): Pro
   const period = periodOf(query.from, query.to, query.timeZone);
   const groups = await groupCases(db, query.hospitalId, period);
   const targets = await qualityTargets(db, query.hospitalId);
+  const inForce = await policyInForce(db, query.hospitalId, at);
   const { standard, basis } = query;
 
   const overall = new Int32Array(6);
@@ -270,7 +262,7 @@ export async function buildReport(db: Knex, query: ReportQuery, at: number): Pro
   for (const g of groups) {
     const n = g.n;
     cases += n;
-    const major = majorOfClasses(g.by_iss, g.by_nfti, standard);
+    const major = majorTraumaCode(g.iss, g.nfti, standard);
     const cell = cellOf(levelOf(g) === 'full', major, g.has_o);
     if (g.has_o && !g.dec) undecided += n;
     overall[cell] += n;
@@ -304,6 +296,7 @@ export async function buildReport(db: Knex, query: ReportQuery, at: number): Pro
   return {
     query,
     hospital,
+    levels: inForce.levels.map((l) => ({ id: l.id, name: l.name })),
     generatedAt: at,
     cases,
     withOutcome: cases - overall[5],
@@ -345,7 +338,7 @@ export async function drilldown(db: Knex, me: Me, query: DrilldownQuery): Promis
     if (query.criterion && !criteria.includes(query.criterion)) continue;
     const decided = scan.decided[i];
     const level = query.basis === 'decided' && decided !== UNDECIDED ? decided : scan.recommended[i];
-    const cell = cellOf(level === 3, majorOf(scan.iss[i], scan.nfti[i], query.standard), scan.hasOutcome[i]);
+    const cell = cellOf(level === 3, majorTraumaCode(scan.iss[i], scan.nfti[i], query.standard), scan.hasOutcome[i]);
     if (query.cell === 'no-outcome' ? cell !== 5 : query.cell !== 'all' ? CELL_NAMES[cell] !== query.cell : false) continue;
     // A criterion's figures count cases with a known outcome only; so does its drill-down.
     if (query.criterion && cell >= 4) continue;

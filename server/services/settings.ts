@@ -9,7 +9,7 @@ export const PRODUCT_WIDE = 0;
 export const SETTING_DEFAULTS: Record<string, unknown> = {
   // Attending at the bedside within 15 minutes of arrival for the highest level [source: Ingraham A et al.].
   'response.targetMinutes': 15,
-  // Share of highest-level activations that should meet it [memory: trauma-centre standard, CLINICAL.md §3].
+  // Share of highest-level activations that should meet it [memory: trauma-centre standard, SOURCES.md §5].
   'response.compliance': 0.8,
 };
 

@@ -1,6 +1,6 @@
 import type { Knex } from 'knex';
 import type { Me } from '../../shared/roles';
-import { triageRates } from '../../shared/quality';
+import { cribariCellIndex, majorTraumaCode, triageRates } from '../../shared/quality';
 import type { LevelCounts, Matrix, WhatIfChange, WhatIfPolicyChoice, WhatIfQuery, WhatIfResult } from '../../shared/schemas/quality';
 import type { ClinicalInput } from '../../shared/schemas/clinical';
 import type { CriteriaSetId } from '../../shared/triage/criteria';
@@ -39,20 +39,11 @@ async function policyFor(db: Knex, hospitalId: number, choice: WhatIfQuery['poli
 const emptyLevels = (): LevelCounts => ({ full: 0, limited: 0, consult: 0, none: 0 });
 const CHANGE_LIMIT = 500;
 
-/** 1 major, 0 not, -1 cannot tell under the standard. */
-function majorOf(iss: number | null, nfti: boolean | null, standard: WhatIfQuery['standard']): number {
-  const byIss = iss == null ? -1 : iss > 15 ? 1 : 0;
-  const byNfti = nfti == null ? -1 : nfti ? 1 : 0;
-  if (standard === 'iss') return byIss;
-  if (standard === 'nfti') return byNfti;
-  if (byIss === 1 || byNfti === 1) return 1;
-  return byIss === 0 && byNfti === 0 ? 0 : -1;
-}
-
+/** Cribari cells through shared/quality's one classification. */
 class Cells {
   readonly n = new Int32Array(5);
   add(full: boolean, major: number) {
-    this.n[major < 0 ? 4 : full ? (major ? 0 : 1) : major ? 2 : 3]++;
+    this.n[cribariCellIndex(full, major)]++;
   }
   matrix(): Matrix {
     return { ...triageRates(this.n[0], this.n[1], this.n[2], this.n[3]), excluded: this.n[4] };
@@ -92,7 +83,7 @@ export async function runWhatIf(db: Knex, me: Me, query: WhatIfQuery, at: number
     levels.whatIf[whatIf]++;
     const iss = row.iss == null ? null : Number(row.iss);
     const nfti = row.nfti_positive == null ? null : Boolean(row.nfti_positive);
-    const major = row.outcome == null ? null : majorOf(iss, nfti, query.standard);
+    const major = row.outcome == null ? null : majorTraumaCode(iss, nfti, query.standard);
     if (major !== null) {
       withOutcome++;
       cells.decided.add(decided === 'full', major);

@@ -15,14 +15,46 @@ export interface TriageOutcome {
   nfti?: boolean | null;
 }
 
-/** Major trauma under a standard; null when the outcome cannot tell. ISS > 15 [source: Baker 1974, CLINICAL.md §5]. */
-export function isMajorTrauma(iss: number | null | undefined, nfti: boolean | null | undefined, standard: OutcomeStandard): boolean | null {
-  const byIss = iss == null ? null : iss > 15;
-  const byNfti = nfti ?? null;
+// The one Cribari classification (SOURCES.md §7): the report, the drill-down, the what-if and the
+// command line all call these; the database only filters and counts.
+
+/** ISS above this is major trauma [sourced: Baker 1974, SOURCES.md §7]. */
+export const MAJOR_TRAUMA_ISS_ABOVE = 15;
+
+export const MAJOR = 1;
+export const NOT_MAJOR = 0;
+export const CANNOT_TELL = -1;
+export type MajorCode = typeof MAJOR | typeof NOT_MAJOR | typeof CANNOT_TELL;
+
+/**
+ * Major trauma under a standard, as a code: 1 major, 0 not, −1 the outcome cannot tell. `iss`
+ * below 0 and `nfti` below 0 mean "not known" (the form columns of numbers carry), as do null and
+ * undefined.
+ */
+export function majorTraumaCode(iss: number | null | undefined, nfti: boolean | number | null | undefined, standard: OutcomeStandard): MajorCode {
+  const byIss: MajorCode = iss == null || iss < 0 ? CANNOT_TELL : iss > MAJOR_TRAUMA_ISS_ABOVE ? MAJOR : NOT_MAJOR;
+  const byNfti: MajorCode = nfti == null || nfti === -1 ? CANNOT_TELL : nfti === true || nfti === 1 ? MAJOR : NOT_MAJOR;
   if (standard === 'iss') return byIss;
   if (standard === 'nfti') return byNfti;
-  if (byIss === true || byNfti === true) return true;
-  return byIss === false && byNfti === false ? false : null;
+  if (byIss === MAJOR || byNfti === MAJOR) return MAJOR;
+  return byIss === NOT_MAJOR && byNfti === NOT_MAJOR ? NOT_MAJOR : CANNOT_TELL;
+}
+
+/** Major trauma under a standard; null when the outcome cannot tell. */
+export function isMajorTrauma(iss: number | null | undefined, nfti: boolean | null | undefined, standard: OutcomeStandard): boolean | null {
+  const code = majorTraumaCode(iss, nfti, standard);
+  return code === CANNOT_TELL ? null : code === MAJOR;
+}
+
+export type CribariCell = 'a' | 'b' | 'c' | 'd';
+export const CRIBARI_CELLS: readonly CribariCell[] = ['a', 'b', 'c', 'd'];
+/** The cell's index (0 a, 1 b, 2 c, 3 d), 4 when the outcome cannot tell. */
+export const CELL_CANNOT_TELL = 4;
+
+/** a full activation and major, b full and not, c not full and major, d not full and not; 4 cannot tell. */
+export function cribariCellIndex(fullActivation: boolean, major: MajorCode | number): number {
+  if (major < 0) return CELL_CANNOT_TELL;
+  return fullActivation ? (major ? 0 : 1) : major ? 2 : 3;
 }
 
 export interface TriageRates {
@@ -66,22 +98,10 @@ export function triageRates(a: number, b: number, c: number, d: number): Omit<Cr
 
 /** One plain pass over the rows: 100,000 rows take a few milliseconds. */
 export function cribariMatrix(rows: readonly TriageOutcome[], standard: OutcomeStandard = 'iss'): CribariResult {
-  let a = 0, b = 0, c = 0, d = 0, excluded = 0;
-  const useIss = standard !== 'nfti';
-  const useNfti = standard !== 'iss';
+  const cells = new Int32Array(5);
   for (let i = 0; i < rows.length; i++) {
     const row = rows[i];
-    const iss = useIss ? row.iss : null;
-    const nfti = useNfti ? row.nfti : null;
-    let major: boolean;
-    if ((iss != null && iss > 15) || nfti === true) major = true;
-    else if ((!useIss || iss != null) && (!useNfti || nfti === false)) major = false;
-    else {
-      excluded++;
-      continue;
-    }
-    if (row.fullActivation) major ? a++ : b++;
-    else major ? c++ : d++;
+    cells[cribariCellIndex(row.fullActivation, majorTraumaCode(row.iss, row.nfti, standard))]++;
   }
-  return { standard, standardLabel: STANDARD_LABEL[standard], excluded, ...triageRates(a, b, c, d) };
+  return { standard, standardLabel: STANDARD_LABEL[standard], excluded: cells[4], ...triageRates(cells[0], cells[1], cells[2], cells[3]) };
 }

@@ -89,7 +89,8 @@ export interface BoardLevel { id: LevelId; name: string }
 
 /** What the board loads first, and again after every reconnect: the truth, then live events. */
 export interface BoardSnapshot {
-  hospital: { id: number; name: string; heightUnit: 'm' | 'ft' | 'storeys'; escalationMinutes: number };
+  /** responseTargetMinutes: the hospital's own bedside target for the highest level (SOURCES.md §5). */
+  hospital: { id: number; name: string; heightUnit: 'm' | 'ft' | 'storeys'; escalationMinutes: number; responseTargetMinutes: number };
   /** The level names of the policy in force now, for the decide control. */
   levels: BoardLevel[];
   cases: CaseSummary[];

@@ -12,7 +12,12 @@ const eta = z.number({ error: 'must be a number of minutes' }).int({ error: 'mus
 const notes = z.string({ error: 'must be text' }).max(2000, { error: 'must be at most 2000 characters' });
 const reason = z.string({ error: 'must be text' }).trim().min(3, { error: 'needs a few words' }).max(500, { error: 'must be at most 500 characters' });
 
-/** A new pre-alert from the ambulance; clientId is made in the browser so a retry is harmless. */
+/**
+ * A new pre-alert from the ambulance; clientId is made in the browser so a retry is harmless.
+ * Its `clinical` part is ClinicalInput, the one strict clinical contract (unknown keys refused with
+ * the nearest known field, lists of unique catalogue ids): every way in — the socket, REST, the
+ * command line and machine clients — parses with this schema or with ClinicalInput itself.
+ */
 export const PreAlert = z.object({
   clientId: z.uuid({ error: 'must be a UUID made by the sending device' }),
   hospitalId: id('destination hospital'),

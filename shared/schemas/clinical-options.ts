@@ -1,4 +1,4 @@
-// Ids are the input contract of DESIGN.md; labels are the plain words the form and board show.
+// Ids are the input contract (SOURCES.md §2, §10); labels are the plain words the form and board show.
 
 export interface Option<Id extends string> {
   readonly id: Id;

@@ -254,6 +254,8 @@ export interface CriterionFigure {
 export interface QualityReport {
   query: ReportQuery;
   hospital: { id: number; name: string };
+  /** The level names of the hospital's policy in force, for every level the screens name. */
+  levels: { id: LevelId; name: string }[];
   generatedAt: number;
   /** Cases in the period (cancelled ones left out) and how many have an outcome. */
   cases: number;

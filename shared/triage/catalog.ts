@@ -19,6 +19,7 @@ export interface CatalogEntry {
   tier: RiskTier | null;
   label: string;
   source: string;
+  sourceLabel?: string;
   nemsis: NemsisCode | null;
   note?: string;
 }
@@ -42,4 +43,13 @@ export function compiledCriterion(id: string): CompiledCriterion | undefined {
 
 export function isCriteriaSetId(id: string): id is CriteriaSetId {
   return Object.prototype.hasOwnProperty.call(CRITERIA_SETS, id);
+}
+
+/**
+ * A fired or catalogued criterion's source in plain words for screens ("2021 field-triage
+ * guideline (Newgard 2022)"); a result stored before results carried it takes the catalogue's,
+ * and a criterion with no plain label shows its source as written.
+ */
+export function plainSource(c: { id: string; source: string; sourceLabel?: string }): string {
+  return c.sourceLabel ?? findCriterion(c.id)?.sourceLabel ?? c.source;
 }

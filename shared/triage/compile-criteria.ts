@@ -1,12 +1,15 @@
 import { considerationOptions, findingOptions } from '../schemas/clinical-options';
 import type { Condition, Criterion, Quantity } from './criteria';
-import { CONSIDERATION_BIT, FINDING_BIT, FLAG_INDEX, QUANTITY_INDEX, TRI } from './facts';
+import { CONSIDERATION_BIT, FINDING_BIT, FLAG_INDEX, QUANTITY_INDEX, TRI, bodyHeightOf } from './facts';
 import type { Facts, TriState } from './facts';
 import { MISSING_BIT } from './missing-inputs';
 
-// Turns criterion data, once, into steps the evaluator runs from columns of numbers in its own
-// loop, and into closures: test() is the general three-valued form the steps are held to,
-// explain() runs only for a met criterion, missing() only for an unknown one.
+// The one evaluator of criteria, in the browser and on the server alike: each criterion's data
+// (its `when` tree, SOURCES.md §1) is turned once into closures. test() gives the three-valued
+// state (met, not met, unknown: an unknown value never passes as normal), explain() runs only
+// for a met criterion, missing() only for an unknown one. No code is made at run time, so it runs
+// under the browser's content-security policy. Any criterion given as data is evaluated this way,
+// a hospital's own included.
 
 // Module-local copies: some loaders compile imported bindings into getter calls, which the
 // closures below would otherwise pay on every comparison.
@@ -23,101 +26,6 @@ export interface CompiledCriterion extends CompiledCondition {
   criterion: Criterion;
   /** 2 high, 1 moderate, 0 none (policy-catalog conditions). */
   tierRank: number;
-  /** The same condition as steps the evaluator runs in its own loop, without a call. */
-  steps: Step[];
-}
-
-/**
- * One step of a criterion's program, in post-order: a leaf compares numbers of the facts and
- * gives a three-valued state; `OP_ALL` and `OP_ANY` join the states of the `a` steps before them.
- * A comparison joined with an age band by "and" is one step with the band as [from, below).
- * Same answers as `test` (a property test holds them to it).
- */
-export interface Step {
-  op: number;
-  /** A quantity, flag index or bit, or the number of parts joined; `b` and `c` the second quantity or further flags. */
-  a: number;
-  b: number;
-  c: number;
-  /** Threshold, upper threshold (OP_OUTSIDE), and the threshold's rise per completed year of age. */
-  t: number;
-  t2: number;
-  perYear: number;
-  /** The age band in completed years, [from, below): −∞ to ∞ when the step has none. */
-  from: number;
-  below: number;
-}
-
-export const OP_FINDING = 1;
-export const OP_CONSIDERATION = 2;
-export const OP_FLAG = 3;
-/** Quantity < t + perYear × years, in the age band. */
-export const OP_BELOW = 4;
-/** Quantity > t, in the age band. */
-export const OP_ABOVE = 5;
-/** Quantity ≤ t, in the age band. */
-export const OP_AT_MOST = 6;
-/** Quantity a > quantity b, in the age band. */
-export const OP_EXCEEDS = 7;
-/** Quantity < t or > t2. */
-export const OP_OUTSIDE = 8;
-/** Any of the flags a, b, c met. */
-export const OP_ANY_FLAG = 9;
-/** Met in the age band, not met outside it. */
-export const OP_AGE = 10;
-/** SpO2 < t on room air. */
-export const OP_ROOM_AIR_SPO2_BELOW = 11;
-/** Pregnant more than t weeks. */
-export const OP_PREGNANCY_ABOVE = 12;
-/** All of the `a` states before it; any of them. */
-export const OP_ALL = 13;
-export const OP_ANY = 14;
-
-const step = (op: number, fields: Partial<Step> = {}): Step => ({
-  op, a: 0, b: 0, c: 0, t: 0, t2: 0, perYear: 0, from: -Infinity, below: Infinity, ...fields,
-});
-const COMPARISONS = new Set([OP_BELOW, OP_ABOVE, OP_AT_MOST, OP_EXCEEDS]);
-
-/** The condition as one step when it is a leaf or one of the joined forms read in one go. */
-function leafStep(c: Condition): Step | null {
-  switch (c.kind) {
-    case 'finding': return step(OP_FINDING, { a: FINDING_BIT[c.finding] });
-    case 'consideration': return step(OP_CONSIDERATION, { a: CONSIDERATION_BIT[c.consideration] });
-    case 'flag': return step(OP_FLAG, { a: FLAG_INDEX[c.flag] });
-    case 'below': return step(OP_BELOW, { a: QUANTITY_INDEX[c.quantity], t: c.value, perYear: c.perYearOfAge ?? 0 });
-    case 'above': return step(OP_ABOVE, { a: QUANTITY_INDEX[c.quantity], t: c.value });
-    case 'at-most': return step(OP_AT_MOST, { a: QUANTITY_INDEX[c.quantity], t: c.value });
-    case 'exceeds': return step(OP_EXCEEDS, { a: QUANTITY_INDEX[c.quantity], b: QUANTITY_INDEX[c.other] });
-    case 'age': return step(OP_AGE, { from: c.from ?? -Infinity, below: c.below ?? Infinity });
-    case 'room-air-spo2-below': return step(OP_ROOM_AIR_SPO2_BELOW, { t: c.value });
-    case 'pregnancy-above': return step(OP_PREGNANCY_ABOVE, { t: c.weeks });
-    case 'any': {
-      const [x, y] = c.of;
-      if (c.of.length === 2 && x.kind === 'below' && y.kind === 'above' && x.quantity === y.quantity && !x.perYearOfAge) {
-        return step(OP_OUTSIDE, { a: QUANTITY_INDEX[x.quantity], t: x.value, t2: y.value });
-      }
-      if (c.of.length <= 3 && c.of.every((part) => part.kind === 'flag')) {
-        // Fewer than three flags repeat the first: "a or a" is "a".
-        const idx = c.of.map((part) => FLAG_INDEX[(part as Extract<Condition, { kind: 'flag' }>).flag]);
-        return step(OP_ANY_FLAG, { a: idx[0], b: idx[1] ?? idx[0], c: idx[2] ?? idx[0] });
-      }
-      return null;
-    }
-    case 'all': {
-      const [band, rest] = c.of;
-      if (c.of.length !== 2 || band.kind !== 'age') return null;
-      const inner = leafStep(rest);
-      if (!inner || !COMPARISONS.has(inner.op)) return null;
-      return { ...inner, from: band.from ?? -Infinity, below: band.below ?? Infinity };
-    }
-  }
-}
-
-export function stepsOf(c: Condition): Step[] {
-  const leaf = leafStep(c);
-  if (leaf) return [leaf];
-  if (c.kind !== 'any' && c.kind !== 'all') throw new Error(`no step for condition ${c.kind}`);
-  return [...c.of.flatMap(stepsOf), step(c.kind === 'any' ? OP_ANY : OP_ALL, { a: c.of.length })];
 }
 
 // Whole numbers are most recorded values; a table spares a number-to-text conversion per explanation.
@@ -143,7 +51,8 @@ const fmt = (n: number, digits = 1): string => {
 const LABEL: Record<Quantity, string> = { sbp: 'SBP', hr: 'HR', rr: 'RR', heightM: 'fall', gcsTotal: 'GCS', gcsMotor: 'motor GCS' };
 const BIT = {
   sbp: MISSING_BIT['vitals.sbp'], hr: MISSING_BIT['vitals.hr'], rr: MISSING_BIT['vitals.rr'],
-  spo2: MISSING_BIT['vitals.spo2'], roomAir: MISSING_BIT['vitals.spo2RoomAir'],
+  spo2: MISSING_BIT['vitals.spo2'], roomAir: MISSING_BIT['vitals.spo2RoomAir'], roomAirSpo2: MISSING_BIT['vitals.spo2@room-air'],
+  bodyHeight: MISSING_BIT['bodyHeightCm'],
   gcs: MISSING_BIT['vitals.gcs'], eye: MISSING_BIT['vitals.gcs.eye'], verbal: MISSING_BIT['vitals.gcs.verbal'],
   motor: MISSING_BIT['vitals.gcs.motor'], pregnancy: MISSING_BIT['pregnancyWeeks'],
 } as const;
@@ -254,46 +163,6 @@ function quantityMissing(q: Quantity, i: number, f: Facts): number {
   return bits;
 }
 
-const QUANTITY_AT = Object.entries(QUANTITY_INDEX).sort((x, y) => x[1] - y[1]).map(([q]) => q as Quantity);
-const FLAG_BIT_AT = Object.entries(FLAG_INDEX).sort((x, y) => x[1] - y[1]).map(([flag]) => FLAG_FIELD_BIT[flag as keyof typeof FLAG_FIELD_BIT]);
-
-/**
- * The missing inputs of a leaf step left unknown when they are the same for every input that
- * leaves it unknown (a flag, a vital sign that was not recorded, pregnancy); null when they
- * depend on more (GCS parts, SpO2 on room air, two quantities, several flags).
- */
-export function fixedStepMissing(s: Step): number | null {
-  switch (s.op) {
-    case OP_FLAG: return FLAG_BIT_AT[s.a];
-    case OP_BELOW: case OP_ABOVE: case OP_AT_MOST: case OP_OUTSIDE: {
-      const q = QUANTITY_AT[s.a];
-      // Unknown only when not recorded: a recorded value decides every comparison.
-      return q === 'sbp' || q === 'hr' || q === 'rr' ? BIT[q] : q === 'heightM' ? 0 : null;
-    }
-    case OP_PREGNANCY_ABOVE: return BIT.pregnancy;
-    case OP_AGE: case OP_FINDING: case OP_CONSIDERATION: return 0;
-    default: return null;
-  }
-}
-
-/**
- * The missing inputs of one leaf step left unknown, as missing() of its condition gives them.
- * Only a step in the unknown state is asked.
- */
-export function stepMissing(s: Step, f: Facts): number {
-  const fixed = fixedStepMissing(s);
-  if (fixed !== null) return fixed;
-  switch (s.op) {
-    case OP_BELOW: case OP_ABOVE: case OP_AT_MOST: case OP_OUTSIDE: return quantityMissing(QUANTITY_AT[s.a], s.a, f);
-    case OP_EXCEEDS: return quantityMissing(QUANTITY_AT[s.a], s.a, f) | quantityMissing(QUANTITY_AT[s.b], s.b, f);
-    case OP_ANY_FLAG:
-      return (f.flags[s.a] === UNKNOWN ? FLAG_BIT_AT[s.a] : 0) | (f.flags[s.b] === UNKNOWN ? FLAG_BIT_AT[s.b] : 0)
-        | (f.flags[s.c] === UNKNOWN ? FLAG_BIT_AT[s.c] : 0);
-    case OP_ROOM_AIR_SPO2_BELOW: return (f.spo2 !== f.spo2 ? BIT.spo2 : 0) | (f.roomAir === UNKNOWN ? BIT.roomAir : 0);
-    default: return 0;
-  }
-}
-
 function thresholdText(c: { quantity: Quantity; value: number; display?: string }): string {
   return c.display ?? (c.quantity === 'heightM' ? `${c.value} m` : String(c.value));
 }
@@ -379,17 +248,42 @@ export function compileCondition(c: Condition): CompiledCondition {
     }
     case 'room-air-spo2-below': {
       const t = c.value;
-      // On oxygen the reading is not a room-air one; the crew's oxygen is recorded as respiratory
-      // support, which is its own criterion [ours].
+      // Below t on oxygen means below t on room air too; at or above t on oxygen says nothing of
+      // room air, so the criterion is unknown and the room-air reading is missing (SOURCES.md §2.4).
       return {
         test: (f) => {
-          if (f.roomAir === NOT_MET) return NOT_MET;
-          if (f.spo2 !== f.spo2) return UNKNOWN;
-          if (f.spo2 >= t) return NOT_MET;
-          return f.roomAir === MET ? MET : UNKNOWN;
+          const spo2 = f.spo2;
+          if (spo2 !== spo2) return UNKNOWN;
+          if (spo2 < t) return MET;
+          return f.roomAir === MET ? NOT_MET : UNKNOWN;
         },
-        explain: (f) => `SpO2 ${fmt(f.spo2)} % on room air < ${t} %`,
-        missing: (f) => (f.spo2 !== f.spo2 ? BIT.spo2 : 0) | (f.roomAir === UNKNOWN ? BIT.roomAir : 0),
+        explain: (f) => (f.roomAir === MET
+          ? `SpO2 ${fmt(f.spo2)} % on room air < ${t} %`
+          : f.roomAir === NOT_MET
+            ? `SpO2 ${fmt(f.spo2)} % on oxygen < ${t} %, so lower still on room air`
+            : `SpO2 ${fmt(f.spo2)} % < ${t} %, on room air or, if on oxygen, lower still on room air`),
+        missing: (f) => (f.spo2 !== f.spo2
+          ? BIT.spo2 | (f.roomAir === UNKNOWN ? BIT.roomAir : 0)
+          : f.roomAir === NOT_MET ? BIT.roomAirSpo2 : BIT.roomAir),
+      };
+    }
+    case 'fall-above-body-heights': {
+      const times = c.times;
+      const fallAt = QUANTITY_INDEX.heightM;
+      return {
+        test: (f) => {
+          const body = bodyHeightOf(f);
+          if (body !== body) return UNKNOWN;
+          return f.lo[fallAt] > times * body ? MET : NOT_MET;
+        },
+        explain: (f) => {
+          const body = bodyHeightOf(f);
+          const basis = f.bodyHeightReference === null
+            ? `height ${fmt(body, 2)} m as recorded`
+            : `height ${fmt(body, 2)} m estimated from ${ageText(f.ageYears)}, ${f.bodyHeightReference}`;
+          return `${heightText(f.lo[fallAt], times * body)} > ${fmt(times)} × the child's height (${basis})`;
+        },
+        missing: (f) => (bodyHeightOf(f) !== bodyHeightOf(f) ? BIT.bodyHeight : 0),
       };
     }
     case 'pregnancy-above': {
@@ -468,7 +362,6 @@ export function ageText(ageYears: number): string {
 export function compileCriterion(criterion: Criterion): CompiledCriterion {
   const compiled = compileCondition(criterion.when);
   return {
-    steps: stepsOf(criterion.when),
     criterion,
     tierRank: criterion.tier === 'high' ? 2 : criterion.tier === 'moderate' ? 1 : 0,
     test: compiled.test,

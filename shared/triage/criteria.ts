@@ -1,7 +1,8 @@
 import type { Consideration, Finding } from '../schemas/clinical-options';
 
-// Criteria are data: a condition tree over the clinical input, read by compile-criteria.ts.
-// Conditions are three-valued (met, not met, unknown) so that an unknown value never passes as normal.
+// Criteria are data: a condition tree over the clinical input, read by compile-criteria.ts, the
+// one evaluator. Conditions are three-valued (met, not met, unknown) so that an unknown value never
+// passes as normal. Every threshold and reading is listed, with its source, in SOURCES.md.
 
 export type CriteriaSetId = 'field-2021' | 'field-2011';
 /** Where a criterion belongs: a guideline set, or `policy`, the conditions policies may add. */
@@ -27,8 +28,16 @@ export type Condition =
   | { kind: 'flag'; flag: Flag }
   | { kind: 'finding'; finding: Finding }
   | { kind: 'consideration'; consideration: Consideration }
-  /** pulse oximetry on room air below value; a reading on oxygen is not a room-air reading */
+  /**
+   * pulse oximetry on room air below value: a reading below it on oxygen meets it too (room air
+   * would read lower still); a reading at or above it on oxygen leaves it unknown (SOURCES.md §2.4)
+   */
   | { kind: 'room-air-spo2-below'; value: number }
+  /**
+   * fall height above `times` × the patient's body height: the height recorded, else estimated
+   * from age and sex from a growth reference (SOURCES.md §3.4, §4)
+   */
+  | { kind: 'fall-above-body-heights'; times: number }
   /** pregnancy beyond the given weeks; not asked of a male patient or outside ages 10–59 */
   | { kind: 'pregnancy-above'; weeks: number }
   | { kind: 'any'; of: readonly Condition[] }
@@ -47,8 +56,11 @@ export interface Criterion {
   /** The guideline's risk block; null for policy-catalog conditions, which carry no field risk. */
   tier: RiskTier | null;
   label: string;
+  /** The published source, with its mark: [source], [from memory] or [ours]. */
   source: string;
-  /** Only where CLINICAL.md gives the code; never guessed. */
+  /** The source in plain words for screens: "2021 field-triage guideline (Newgard 2022)". */
+  sourceLabel?: string;
+  /** The NEMSIS v3.5 eInjury code, where SOURCES.md lists one; never guessed. */
   nemsis: NemsisCode | null;
   when: Condition;
   note?: string;

@@ -2,8 +2,9 @@ import type { ClinicalInput } from '../schemas/clinical';
 import type { Sex } from '../schemas/clinical-options';
 import { CONSIDERATIONS, FINDINGS } from '../schemas/clinical-options';
 import type { Flag, Quantity } from './criteria';
+import { estimateHeight } from './growth';
 
-// The input read once per evaluation into flat numbers, so compiled criteria compare without
+// The input read once per evaluation into flat numbers, so the criteria's closures compare without
 // walking objects. NaN and UNKNOWN stand for "not recorded"; numbers carry a [lo, hi] range
 // because a GCS known in part still bounds the total and the motor score.
 
@@ -36,6 +37,12 @@ export interface Facts {
   spo2: number;
   roomAir: TriState;
   pregnancyWeeks: number;
+  bodyHeightCm: number;
+  bodyHeightRead: boolean;
+  /** The body height in metres, recorded or estimated; NaN when neither (read it with bodyHeightOf). */
+  bodyHeightM: number;
+  /** The growth reference an estimated body height came from; null when it was recorded or is unknown. */
+  bodyHeightReference: string | null;
   flags: Uint8Array;
   findings: number;
   considerations: number;
@@ -46,7 +53,7 @@ export function createFacts(): Facts {
     ageYears: 0, years: 0, sex: null,
     lo: new Float64Array(6), hi: new Float64Array(6),
     eye: NaN, verbal: NaN, motor: NaN, gcsTotalRecorded: NaN, gcsRecorded: false,
-    spo2: NaN, roomAir: UNKNOWN, pregnancyWeeks: NaN,
+    spo2: NaN, roomAir: UNKNOWN, pregnancyWeeks: NaN, bodyHeightCm: NaN, bodyHeightRead: false, bodyHeightM: NaN, bodyHeightReference: null,
     flags: new Uint8Array(5), findings: 0, considerations: 0,
   };
 }
@@ -99,7 +106,9 @@ export function readFacts(input: ClinicalInput, f: Facts): Facts {
   f.spo2 = num(vitals?.spo2);
   f.roomAir = tri(vitals?.spo2RoomAir);
   f.pregnancyWeeks = num(input.pregnancyWeeks);
-
+  // The child's height is read only when a criterion asks (bodyHeightOf).
+  f.bodyHeightCm = num(input.bodyHeightCm);
+  f.bodyHeightRead = false;
   f.flags[0] = tri(input.anticoagulant);
   f.flags[1] = tri(vitals?.intubated);
   f.flags[2] = tri(vitals?.respiratorySupport);
@@ -117,4 +126,19 @@ export function readFacts(input: ClinicalInput, f: Facts): Facts {
   if (considerations) for (let i = 0; i < considerations.length; i++) bits |= CONSIDERATION_BIT[considerations[i]] ?? 0;
   f.considerations = bits;
   return f;
+}
+
+/** The child's height as recorded; else, under 15, estimated from age (SOURCES.md §4); NaN when neither. */
+export function bodyHeightOf(f: Facts): number {
+  if (f.bodyHeightRead) return f.bodyHeightM;
+  f.bodyHeightRead = true;
+  if (f.bodyHeightCm === f.bodyHeightCm) {
+    f.bodyHeightM = f.bodyHeightCm / 100;
+    f.bodyHeightReference = null;
+  } else {
+    const estimate = f.years < 15 ? estimateHeight(f.ageYears, f.sex) : null;
+    f.bodyHeightM = estimate ? estimate.metres : NaN;
+    f.bodyHeightReference = estimate ? estimate.reference : null;
+  }
+  return f.bodyHeightM;
 }

@@ -1,6 +1,8 @@
 import type { Condition, CriteriaSet, Criterion } from './criteria';
 
+// Every criterion below, its source, its mark and the readings taken: SOURCES.md §3.
 const SOURCE = '2011 CDC field-triage guideline, Sasser SM et al., MMWR Recomm Rep 2012;61(RR-1) [source]';
+const SOURCE_LABEL = '2011 field-triage guideline (Sasser 2012)';
 
 type Entry = Omit<Criterion, 'set' | 'source' | 'nemsis'> & { source?: string };
 
@@ -8,7 +10,7 @@ const finding = (id: string, f: Extract<Condition, { kind: 'finding' }>['finding
   id: `field-2011:${id}`, category: 'anatomic', tier: 'high', label, when: { kind: 'finding', finding: f }, ...(note ? { note } : {}),
 });
 
-// fieldRisk for this set [ours, CLINICAL.md §2]: steps 1–2 → high, steps 3–4 → moderate.
+// fieldRisk for this set [ours, SOURCES.md §3]: steps 1–2 → high, steps 3–4 → moderate.
 const entries: Entry[] = [
   // Step 1, physiologic [source: Sasser 2012]
   {
@@ -24,7 +26,7 @@ const entries: Entry[] = [
     id: 'field-2011:rr-out-of-range', category: 'physiologic', tier: 'high',
     label: 'Respiratory rate < 10 or > 29 (< 20 under 1 year)',
     // Under 1 year the floor is 20; > 29 is not applied there, as infants breathe faster than that
-    // when well [ours: reading of the guideline's parenthesis].
+    // when well (SOURCES.md §3.1) [ours: reading of the guideline's parenthesis].
     when: {
       kind: 'any',
       of: [
@@ -53,8 +55,9 @@ const entries: Entry[] = [
   finding('amputation-proximal', 'amputation-proximal', 'Amputation proximal to wrist or ankle'),
   finding('pelvic-fracture', 'pelvic-fracture', 'Pelvic fractures'),
   finding('open-or-depressed-skull-fracture', 'skull-deformity', 'Open or depressed skull fracture',
-    'Read from the skull-deformity finding [ours].'),
-  finding('paralysis', 'spinal-injury-deficit', 'Paralysis', 'Read from the spinal-injury-with-deficit finding [ours].'),
+    'Read from the skull-deformity finding, which includes a suspected skull fracture (SOURCES.md §3.2) [ours].'),
+  finding('paralysis', 'spinal-injury-deficit', 'Paralysis',
+    'Read from the spinal-injury-with-deficit finding, so a sensory-only loss counts too (SOURCES.md §3.2) [ours].'),
 
   // Step 3, mechanism: falls; one storey = 10 ft [source: Sasser 2012]
   {
@@ -67,11 +70,22 @@ const entries: Entry[] = [
   },
   {
     id: 'field-2011:fall-child-above-10-ft', category: 'mechanism', tier: 'moderate',
-    label: 'Child (under 15): fall > 10 feet',
-    note: 'The guideline also names two to three times the child\'s height; the input has no body height, so only 10 ft is checked.',
+    label: "Child (under 15): fall > 10 feet or more than twice the child's height",
+    // "Two to three times the height of the child": fired at twice, the conservative end [ours];
+    // the height recorded, else estimated from age (SOURCES.md §3.4, §4).
+    note: "The child's height is the crew's, or estimated from age from a growth reference and shown as an estimate.",
     when: {
       kind: 'all',
-      of: [{ kind: 'age', below: 15, label: 'under 15' }, { kind: 'above', quantity: 'heightM', value: 3.048, display: '3.048 m (10 ft)' }],
+      of: [
+        { kind: 'age', below: 15, label: 'under 15' },
+        {
+          kind: 'any',
+          of: [
+            { kind: 'above', quantity: 'heightM', value: 3.048, display: '3.048 m (10 ft)' },
+            { kind: 'fall-above-body-heights', times: 2 },
+          ],
+        },
+      ],
     },
   },
 
@@ -79,6 +93,7 @@ const entries: Entry[] = [
   {
     id: 'field-2011:age-above-55', category: 'special', tier: 'moderate',
     label: 'Older adult: over 55',
+    // "After 55" read as from the 56th birthday (SOURCES.md §3.3) [ours].
     note: 'The guideline says the risk of injury or death rises after 55; it is a consideration, not a threshold of injury.',
     when: { kind: 'age', from: 56, label: 'over 55' },
   },
@@ -110,5 +125,5 @@ export const FIELD_2011: CriteriaSet = {
   id: 'field-2011',
   name: '2011 CDC field-triage guideline (superseded)',
   source: SOURCE,
-  criteria: entries.map((e) => ({ ...e, set: 'field-2011', source: e.source ?? SOURCE, nemsis: null })),
+  criteria: entries.map((e) => ({ ...e, set: 'field-2011', source: e.source ?? SOURCE, sourceLabel: SOURCE_LABEL, nemsis: null })),
 };

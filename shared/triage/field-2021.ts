@@ -1,7 +1,9 @@
 import type { Condition, CriteriaSet, Criterion } from './criteria';
 
+// Every criterion below, its source, its mark and its NEMSIS code: SOURCES.md §2.
 const SOURCE = '2021 National Guideline for the Field Triage of Injured Patients, Newgard CD et al., J Trauma Acute Care Surg 2022 [source]';
 const LOW_LEVEL_SOURCE = `${SOURCE}; "low-level" taken as a fall of 10 ft (3.048 m) or less, standing included [ours]`;
+const SOURCE_LABEL = '2021 field-triage guideline (Newgard 2022)';
 
 type Entry = Omit<Criterion, 'set' | 'source' | 'nemsis'> & { source?: string; nemsis?: Criterion['nemsis'] };
 
@@ -44,9 +46,11 @@ const entries: Entry[] = [
   {
     id: 'field-2021:room-air-spo2-below-90', category: 'physiologic', tier: 'high',
     label: 'Room-air pulse oximetry < 90 %',
+    // Below 90 % on oxygen meets it; 90 % or more on oxygen leaves it unknown (SOURCES.md §2.4) [ours].
     when: { kind: 'room-air-spo2-below', value: 90 },
   },
-  // Age bands in completed years: "age 0–9" ends at the tenth birthday [ours: reading of the bands].
+  // Age bands in completed years: "age 0–9" ends at the tenth birthday, and 70 + 2 × age takes
+  // completed years at a fractional age (SOURCES.md §2.5) [ours: reading of the bands].
   {
     id: 'field-2021:sbp-low-age-0-9', category: 'physiologic', tier: 'high',
     label: 'Age 0–9: SBP < 70 + 2 × age',
@@ -125,5 +129,7 @@ export const FIELD_2021: CriteriaSet = {
   id: 'field-2021',
   name: '2021 national field-triage guideline',
   source: SOURCE,
-  criteria: entries.map((e) => ({ ...e, set: 'field-2021', source: e.source ?? SOURCE, nemsis: e.nemsis ?? null })),
+  criteria: entries.map((e) => ({
+    ...e, set: 'field-2021', source: e.source ?? SOURCE, sourceLabel: SOURCE_LABEL, nemsis: e.nemsis ?? null,
+  })),
 };

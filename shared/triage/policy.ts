@@ -51,7 +51,7 @@ const FULL_CRITERIA = [
   'field-2021:penetrating-injury',
 ];
 
-/** CLINICAL.md §4 [ours]: an example for each hospital to review, not a recommendation. */
+/** SOURCES.md §6 [ours]: an example for each hospital to review, not a recommendation. */
 export const EXAMPLE_POLICY: Policy = Object.freeze({
   id: 'example-tiered',
   version: 1,

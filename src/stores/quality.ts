@@ -3,6 +3,8 @@ import { computed, ref } from 'vue';
 import * as api from '../api/quality';
 import type { Cell, ActivationBasis, DrilldownRequest, ImportPreview, ImportResult, QualityReport, ReportRequest, WhatIfPolicyChoice, WhatIfResult } from '../../shared/schemas/quality';
 import type { OutcomeStandard } from '../../shared/quality';
+import type { LevelId } from '../../shared/triage/policy';
+import { levelNameIn } from '../components/quality/format';
 
 const pad = (n: number) => String(n).padStart(2, '0');
 const monthOf = (d: Date) => `${d.getFullYear()}-${pad(d.getMonth() + 1)}`;
@@ -134,9 +136,12 @@ export const useQualityStore = defineStore('quality', () => {
     drill.value = null;
   }
 
+  /** A level's name in the hospital's policy in force, as the report gives them. */
+  const levelName = (id: LevelId | null | undefined) => levelNameIn(report.value?.levels, id);
+
   return {
     hospitalId, fromMonth, toMonth, standard, basis, timeZone, request, periodProblem, csvHref,
-    report, loading, failure, loadReport,
+    report, loading, failure, loadReport, levelName,
     drill, drillFailure, openDrill, closeDrill,
     preview, imported, importing, importFailure, checkFile, confirmImport, discardPreview,
     policies, policyChoice, whatIf, whatIfBusy, whatIfFailure, loadPolicies, runWhatIf,

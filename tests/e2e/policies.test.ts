@@ -108,7 +108,7 @@ describeInBrowser('Policies in Chromium', () => {
     await expectAccessible(page, 'Hospitals');
     await screenshot(page, 'people-hospitals');
     // The response standard the review screen measures against, set on the hospital's card: the
-    // shipped 15 minutes for 80 % (CLINICAL.md section 3) changed to a local 20 minutes for 75 %.
+    // shipped 15 minutes for 80 % (SOURCES.md §5) changed to a local 20 minutes for 75 %.
     const general = (await server.db('hospitals').where({ short_name: 'Alderwick General' }).first('id')).id;
     const minutes = page.locator(`#h${general}-target-minutes`);
     await expect.poll(() => minutes.inputValue()).toBe('15');

@@ -6,7 +6,7 @@ import { startTestServer, type TestServer } from '../support/server';
 import { collectPageErrors, describeInBrowser, expectAccessible, launchBrowser, newSignedInPage, PHONE, screenshot } from './support/browser';
 
 // Check values: 2021 field-triage guideline (Newgard CD et al., 2022) [source] for the field
-// risk; the shipped example policy (CLINICAL.md §4) [ours] for the level's name.
+// risk; the shipped example policy (SOURCES.md §6) [ours] for the level's name.
 
 describeInBrowser('New pre-alert on a phone in Chromium', () => {
   let server: TestServer;
@@ -61,7 +61,11 @@ describeInBrowser('New pre-alert on a phone in Chromium', () => {
     await choose('Destination ED', 'Alderwick General Hospital (Level I)');
     await choose('Unit', 'Medic 11');
     await fill('ETA (minutes from now)', '12');
+    // A child's height is asked under 15, for the 2011 children's fall rule (SOURCES.md §3.4) [ours].
+    await fill('Age (years)', '6');
+    await page.getByLabel("Child's height, if known (cm)").waitFor();
     await fill('Age (years)', '34');
+    await page.getByLabel("Child's height, if known (cm)").waitFor({ state: 'detached' });
     await choose('Sex', 'Male');
     await choose('Height in', 'feet');
     await fill('Fall height (ft)', '12');
@@ -73,7 +77,7 @@ describeInBrowser('New pre-alert on a phone in Chromium', () => {
     // 12 ft > 10 ft [source: Newgard 2022] → moderate; the example policy calls a consult.
     await expect.poll(() => page.getByTestId('field-risk').textContent()).toBe('Moderate risk');
     expect(await page.getByTestId('activation').textContent()).toBe('Trauma consult');
-    expect(await page.getByTestId('criteria').locator('li').allInnerTexts()).toEqual(['MODERATE\nFall from height > 10 feet (3.048 m): fall 3.658 m (12 ft) > 3.048 m (10 ft) → Trauma consult']);
+    expect(await page.getByTestId('criteria').locator('li').allInnerTexts()).toEqual(['MODERATE\nFall from height > 10 feet (3.048 m): fall 3.658 m (12 ft) > 3.048 m (10 ft) → Trauma consult\n2021 field-triage guideline (Newgard 2022)']);
 
     await fill('Systolic BP (SBP) (mmHg)', '84');
     // SBP 84 < 90 at age 34 [source: Newgard 2022] → high; the example policy calls the full team.

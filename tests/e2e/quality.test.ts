@@ -7,6 +7,7 @@ import { signIn } from '../support/sign-in';
 import { loadMe } from '../../server/auth/guards';
 import { submitPreAlert } from '../../server/services/cases';
 import { OUTCOME_COLUMN_NAMES } from '../../shared/schemas/quality';
+import { EXAMPLE_POLICY } from '../../shared/triage/policy';
 import { collectPageErrors, describeInBrowser, expectAccessible, launchBrowser, newSignedInPage, screenshot } from './support/browser';
 
 // The quality team's month: download the template, upload outcomes with one bad row, see the
@@ -22,7 +23,7 @@ const patient = (heightM: number, v: object = {}) => ({
   fall: { heightM, surface: 'concrete', firstImpact: 'lower-limb-feet', headImpact: false },
   vitals: { ...vitals, ...v }, findings: [], considerations: [],
 });
-const FULL = patient(0, { sbp: 80, hr: 70 }); // SBP < 90 at 40 → full under the example [ours, CLINICAL.md §4]
+const FULL = patient(0, { sbp: 80, hr: 70 }); // SBP < 90 at 40 → full under the example [ours, SOURCES.md §6]
 const CONSULT = patient(4); // fall > 10 ft → consult
 const NONE = patient(1);
 const FIXTURES = [
@@ -41,10 +42,12 @@ describeInBrowser('Triage quality in Chromium', () => {
   const numbers: string[] = [];
   const ids: number[] = [];
   let now = Date.now();
+  let general = 0;
+  let draftId = 0;
 
   beforeAll(async () => {
     server = await startTestServer({}, { clock: { now: () => now } });
-    const general = (await server.db('hospitals').where({ short_name: 'Alderwick General' }).first('id')).id;
+    general = (await server.db('hospitals').where({ short_name: 'Alderwick General' }).first('id')).id;
     const paramedic = (await server.db('users').where({ email: 'paramedic@plumbline.test' }).first('id')).id;
     const me = (await loadMe(server.db, paramedic))!;
     for (const f of FIXTURES) {
@@ -59,6 +62,7 @@ describeInBrowser('Triage quality in Chromium', () => {
     // A stricter draft for the what-if: SBP < 90 alone no longer calls the full team.
     const admin = await signIn(server.url, 'admin@plumbline.test');
     const draft = await (await admin.send('POST', '/api/policies', { hospitalId: general, from: 'example' })).json();
+    draftId = draft.id;
     const rules = draft.document.rules.map((r: { level: string; criteria: string[] }) => (r.level === 'full' ? { ...r, criteria: r.criteria.filter((id) => id !== 'policy:sbp-below-90-age-10-up') } : r));
     expect((await admin.send('PUT', `/api/policies/${draft.id}`, { name: 'Stricter full team', levels: draft.document.levels, rules })).status).toBe(200);
 
@@ -169,6 +173,38 @@ describeInBrowser('Triage quality in Chromium', () => {
     await page.getByRole('tab', { name: 'Report' }).click();
     await expect.poll(() => page.locator('[data-rate="under"] .target').innerText()).toBe('Target: below 10.0 %');
     expect(await page.locator('[data-rate="over"] .target').innerText()).toBe('Target: 25.0 %–30.0 % for a hospital, below 50.0 % for a system');
+    expect(errors).toEqual([]);
+  });
+
+  it('shows the level names of the hospital\'s own policy in force, not the example\'s', async () => {
+    // Each hospital names its own levels (SOURCES.md §6) [ours]: a local policy, drafted by the
+    // administrator, approved by the trauma lead and published through the real screens' routes.
+    const admin = await signIn(server.url, 'admin@plumbline.test');
+    const lead = await signIn(server.url, 'lead@plumbline.test');
+    // The stricter draft of the what-if above, renamed and given the example's rules back.
+    const draft = await (await admin.get(`/api/policies/${draftId}`)).json();
+    const names: Record<string, string> = { full: 'Trauma call red', limited: 'Trauma call amber', consult: 'Surgical opinion', none: 'Usual ED care' };
+    const levels = draft.document.levels.map((l: { id: string }) => ({ ...l, name: names[l.id] }));
+    expect((await admin.send('PUT', `/api/policies/${draft.id}`, { name: 'Alderwick local levels', levels, rules: EXAMPLE_POLICY.rules })).status).toBe(200);
+    expect((await lead.send('POST', `/api/policies/${draft.id}/approve`)).status).toBe(200);
+    expect((await admin.send('POST', `/api/policies/${draft.id}/publish`, {})).status).toBe(200);
+
+    await page.reload();
+    await page.getByRole('tab', { name: 'Report' }).click();
+    await page.getByLabel('To month').fill('2031-02');
+    await page.getByLabel('From month').fill('2031-01');
+    await expect.poll(() => page.locator('.coverage').textContent()).toContain('5 cases in the period');
+    const matrix = page.getByRole('table', { name: 'Activation as decided (recommended when undecided)' });
+    await expect.poll(() => matrix.getByRole('rowheader').first().innerText()).toBe('Full activation (Trauma call red)');
+    await matrix.locator('[data-cell="c"] button').click();
+    const dialog = page.getByRole('dialog', { name: 'Cases under-triaged: not full, major trauma (c)' });
+    await dialog.getByText('1 case.').waitFor();
+    // #3 was recommended and decided at the consult level: the local name for it on both.
+    expect(await dialog.getByRole('row').nth(1).innerText()).toMatch(/\tSurgical opinion\tSurgical opinion\t/);
+    expect(await page.locator('body').innerText()).not.toContain('Trauma consult');
+    await expectAccessible(page, 'Drill-down with local level names');
+    await screenshot(page, 'quality-local-level-names');
+    await page.keyboard.press('Escape');
     expect(errors).toEqual([]);
   });
 });

@@ -18,7 +18,7 @@ let general: number;
 let fenmoor: number;
 
 // 2021 guideline (Newgard 2022) [source]: SBP < 90 at age 10–64 is high risk; the example policy
-// (CLINICAL.md §4 [ours]) calls its full level for it.
+// (SOURCES.md §6 [ours]) calls its full level for it.
 const hypotensiveRoofer = { ageYears: 34, sex: 'male', fall: { heightM: 4, surface: 'concrete', firstImpact: 'back' }, vitals: { sbp: 84, hr: 120 } };
 // A fall over 10 ft (3.048 m) is a 2021 moderate-risk criterion [source: Newgard 2022] → consult.
 const ladderFall = { ageYears: 50, sex: 'female', fall: { heightM: 3.5, surface: 'grass', firstImpact: 'lower-limb-feet' }, vitals: { sbp: 130, hr: 80 } };
@@ -67,12 +67,27 @@ afterAll(async () => {
 });
 
 describe('the board snapshot', () => {
+  it('carries the hospital’s own bedside target from its setting', async () => {
+    // A local 20 minutes in place of the shipped 15 [ours: each hospital sets its own, SOURCES.md §5].
+    await server.db('settings').insert({ hospital_id: fenmoor, key: 'response.targetMinutes', value: '20' }).onConflict(['hospital_id', 'key']).merge();
+    try {
+      const fenmoorNurse = await signIn(server.url, 'fenmoor.nurse@plumbline.test');
+      const own = (await (await fenmoorNurse.get('/api/board')).json()) as BoardSnapshot;
+      expect([own.hospital.id, own.hospital.responseTargetMinutes]).toEqual([fenmoor, 20]);
+      const nurseBoard = (await (await nurse.get('/api/board')).json()) as BoardSnapshot;
+      expect(nurseBoard.hospital.responseTargetMinutes).toBe(15);
+    } finally {
+      await server.db('settings').where({ hospital_id: fenmoor, key: 'response.targetMinutes' }).delete();
+    }
+  });
+
   it('gives a charge nurse her own hospital, its open cases in arrival order and the level names', async () => {
     const mine = await submit(hypotensiveRoofer);
     const res = await nurse.get('/api/board');
     expect(res.status).toBe(200);
     const board = (await res.json()) as BoardSnapshot;
-    expect(board.hospital).toEqual({ id: general, name: 'Alderwick General Hospital', heightUnit: 'ft', escalationMinutes: 2 });
+    // Bedside within 15 min is the shipped default [sourced: Ingraham A et al., SOURCES.md §5].
+    expect(board.hospital).toEqual({ id: general, name: 'Alderwick General Hospital', heightUnit: 'ft', escalationMinutes: 2, responseTargetMinutes: 15 });
     expect(board.levels.map((l) => l.name)).toEqual(['Full trauma team', 'Limited trauma team', 'Trauma consult', 'No activation']);
     expect(board.cases.find((c) => c.id === mine.id)?.recommendedLevel).toBe('full');
     expect(board.cases.every((c) => c.hospital.id === general && ['en-route', 'acknowledged', 'arrived'].includes(c.state))).toBe(true);

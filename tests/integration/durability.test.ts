@@ -96,7 +96,7 @@ describe('kill -9 of the server straight after the acknowledgements', () => {
       const ids = acked.map((a) => a.caseId);
       const revisions = await db('case_revisions').whereIn('case_id', ids).select('case_id', 'revision', 'activation');
       expect(revisions).toHaveLength(count + updated.length);
-      // The example policy [ours, CLINICAL.md §4]: SBP < 90 at age ≥ 10 calls a full activation.
+      // The example policy [ours, SOURCES.md §6]: SBP < 90 at age ≥ 10 calls a full activation.
       expect(revisions.filter((r) => r.revision === 2).every((r) => r.activation === 'full')).toBe(true);
       const events = await db('case_events').whereIn('case_id', ids).select('case_id', 'kind');
       expect(events.filter((e) => e.kind === 'received')).toHaveLength(count);

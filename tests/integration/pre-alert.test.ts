@@ -9,7 +9,7 @@ import { signIn, type SignedInClient } from '../support/sign-in';
 import { command, connectAs, nextEvent, type TestSocket } from '../support/socket';
 
 // Check values: 2021 field-triage guideline (Newgard CD et al., 2022) [source] for the field
-// risk; the shipped example policy (CLINICAL.md §4) [ours] for the activation level.
+// risk; the shipped example policy (SOURCES.md §6) [ours] for the activation level.
 
 let server: TestServer;
 let medic: SignedInClient;
@@ -174,6 +174,28 @@ describe('case:submit', () => {
     expect(answer).toEqual({ ok: false, error: { code: 'invalid', message: 'clinical.vitals.sbp: must be at most 300', field: 'clinical.vitals.sbp', issues: [{ field: 'clinical.vitals.sbp', message: 'must be at most 300' }] } });
     expect(await countCases()).toBe(before);
     expect(await server.db('cases').where({ client_id: payload.clientId }).first()).toBeUndefined();
+  });
+
+  it('refuses an unknown clinical field by name with the nearest known one, and stores nothing', async () => {
+    // One strict input (SOURCES.md §10) [ours]: "SBP" is never read as "no SBP recorded".
+    const before = await countCases();
+    const sbp = await submit(preAlert({ clinical: { ageYears: 34, fall: { heightM: 4 }, SBP: 70 } }));
+    expect(sbp).toEqual({ ok: false, error: {
+      code: 'invalid', message: 'unknown field clinical.SBP; did you mean clinical.vitals.sbp?', field: 'clinical.SBP',
+      issues: [{ field: 'clinical.SBP', message: 'unknown field clinical.SBP; did you mean clinical.vitals.sbp?' }],
+    } });
+    const head = await submit(preAlert({ clinical: { ageYears: 34, fall: { heightM: 4, headimpact: true } } }));
+    expect(head.ok === false && head.error.message).toBe('unknown field clinical.fall.headimpact; did you mean clinical.fall.headImpact?');
+    // Unique catalogue ids only, no more than the catalogue holds (10,000 entries fit in one socket
+    // message; the unit tests try 110,000 against the schema itself).
+    const flood = await submit(preAlert({ clinical: { ageYears: 34, fall: { heightM: 4 }, findings: Array(10_000).fill('pelvic-fracture') } }));
+    expect(flood.ok === false && flood.error.field).toBe('clinical.findings');
+    const twice = await submit(preAlert({ clinical: { ageYears: 34, fall: { heightM: 4 }, considerations: ['burns', 'burns'] } }));
+    expect(twice.ok === false && twice.error.message).toBe('clinical.considerations: must list each id at most once');
+    // A pregnancy for a patient recorded male (SOURCES.md §2.6) [ours].
+    const male = await submit(preAlert({ clinical: { ageYears: 34, sex: 'male', pregnancyWeeks: 24, fall: { heightM: 4 } } }));
+    expect(male.ok === false && male.error.field).toBe('clinical.pregnancyWeeks');
+    expect(await countCases()).toBe(before);
   });
 
   it('refuses a pre-alert without an age, and one without a client id, naming the field', async () => {

@@ -10,7 +10,7 @@ import type { LevelId } from '../../shared/triage/policy';
 // The over- and under-triage report against a case set whose Cribari matrix is counted by hand
 // below, the drill-down behind its cells, the CSV export, and a what-if whose answer is known.
 // Cribari: a full & major, b full & not, c not full & major, d not full & not; over-triage
-// b/(a+b), under-triage c/(c+d) [source: ACS-COT method, CLINICAL.md §5]; the second definition
+// b/(a+b), under-triage c/(c+d) [source: ACS-COT method, SOURCES.md §7]; the second definition
 // c/(a+c) and b/(b+d) [memory: Peng & Xiang 2016]. Major trauma = ISS > 15 [source: Baker 1974].
 
 let server: TestServer;
@@ -31,7 +31,7 @@ const patient = (heightM: number, vitals: object = {}) => ({
   fall: { heightM, surface: 'concrete', firstImpact: 'lower-limb-feet', headImpact: false },
   vitals: { ...normalVitals, ...vitals }, findings: [], considerations: [],
 });
-/** Each recommended level under the shipped example policy (CLINICAL.md §4 [ours]). */
+/** Each recommended level under the shipped example policy (SOURCES.md §6 [ours]). */
 const FULL = patient(0, { sbp: 80, hr: 70 }); // SBP 80 < 90 at 40 years → full
 const LIMITED = patient(7); // 7 m > 20 ft → limited
 const CONSULT = patient(4); // 4 m > 10 ft → consult
@@ -165,7 +165,7 @@ describe('the Cribari matrix against the hand count', () => {
     expect(sbp.ppv).toBeCloseTo(1 / 3, 10);
   });
 
-  it('reads the targets from the settings, defaults from CLINICAL.md, and says where the figures stand', async () => {
+  it('reads the targets from the settings, defaults from SOURCES.md §5 and §7, and says where the figures stand', async () => {
     const r = await report();
     // Under-triage < 5 % [source: Mohan 2011]; over-triage 25–35 % [memory], < 50 % system [source: Mohan 2011].
     expect(r.targets).toEqual({ underTriageMax: 0.05, overTriageHospital: [0.25, 0.35], overTriageSystemMax: 0.5 });

@@ -16,7 +16,7 @@ let now = t('2027-03-01T08:00:00Z');
 const clock = { now: () => now };
 const quietMailer: Mailer = { local: false, send: async () => ({ messageId: 'test' }), close: async () => {} };
 
-// Example policy (CLINICAL.md §4 [ours]) on the 2021 guideline criteria (Newgard 2022 [source]).
+// Example policy (SOURCES.md §6 [ours]) on the 2021 guideline criteria (Newgard 2022 [source]).
 const CLINICAL = {
   // SBP 84 < 90 at age 10–64: full.
   full: { ageYears: 34, sex: 'male', fall: { heightM: 4 }, vitals: { sbp: 84, hr: 120 } },

@@ -1,4 +1,4 @@
-import { CRITERION_CATALOG, findCriterion, type CatalogEntry } from '../../../shared/triage/catalog';
+import { CRITERION_CATALOG, findCriterion, plainSource, type CatalogEntry } from '../../../shared/triage/catalog';
 import { LEVEL_IDS, type LevelId, type Policy } from '../../../shared/triage/policy';
 import type { SaveDraft } from '../../../shared/schemas/policies';
 
@@ -57,7 +57,7 @@ export const setName = (set: CatalogEntry['set']) => SET_NAMES[set];
 
 export function describeCriterion(id: string): { label: string; source: string; set: string } {
   const entry = findCriterion(id);
-  return entry ? { label: entry.label, source: entry.source, set: SET_NAMES[entry.set] } : { label: id, source: 'not in the criteria catalog', set: 'unknown' };
+  return entry ? { label: entry.label, source: plainSource(entry), set: SET_NAMES[entry.set] } : { label: id, source: 'not in the criteria catalog', set: 'unknown' };
 }
 
 /** The catalog grouped for the picker, leaving out what the level already names. */

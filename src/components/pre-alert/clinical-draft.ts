@@ -16,6 +16,8 @@ export interface ClinicalDraft {
   pregnancyWeeks: string;
   anticoagulant: Tri;
   weightKg: string;
+  /** The child's own height in cm, for the 2011 children's fall rule (SOURCES.md §3.4). */
+  bodyHeightCm: string;
   height: string;
   heightUnit: HeightUnit;
   surface: Surface;
@@ -40,7 +42,7 @@ export interface ClinicalDraft {
 
 export function emptyDraft(heightUnit: HeightUnit = 'm'): ClinicalDraft {
   return {
-    age: '', ageUnit: 'years', sex: 'unknown', pregnant: null, pregnancyWeeks: '', anticoagulant: null, weightKg: '',
+    age: '', ageUnit: 'years', sex: 'unknown', pregnant: null, pregnancyWeeks: '', anticoagulant: null, weightKg: '', bodyHeightCm: '',
     height: '', heightUnit, surface: 'unknown', firstImpact: 'unknown', headImpact: null,
     sbp: '', hr: '', rr: '', spo2: '', spo2RoomAir: null,
     gcsMode: 'parts', gcsEye: null, gcsVerbal: null, gcsMotor: null, gcsTotal: '',
@@ -56,6 +58,7 @@ export const FIELD_LABELS: Record<string, string> = {
   pregnancyWeeks: 'Weeks pregnant',
   anticoagulant: 'Anticoagulants',
   weightKg: 'Weight',
+  bodyHeightCm: "Child's height",
   'fall.heightM': 'Fall height',
   'fall.surface': 'Landing surface',
   'fall.firstImpact': 'Struck first',
@@ -78,7 +81,7 @@ export const FIELD_LABELS: Record<string, string> = {
 
 /** Which input shows a schema path's message. */
 const INPUT_OF: Record<string, keyof ClinicalDraft> = {
-  ageYears: 'age', pregnancyWeeks: 'pregnancyWeeks', weightKg: 'weightKg', 'fall.heightM': 'height',
+  ageYears: 'age', pregnancyWeeks: 'pregnancyWeeks', weightKg: 'weightKg', bodyHeightCm: 'bodyHeightCm', 'fall.heightM': 'height',
   'vitals.sbp': 'sbp', 'vitals.hr': 'hr', 'vitals.rr': 'rr', 'vitals.spo2': 'spo2',
   'vitals.gcs.eye': 'gcsEye', 'vitals.gcs.verbal': 'gcsVerbal', 'vitals.gcs.motor': 'gcsMotor', 'vitals.gcsTotal': 'gcsTotal',
 };
@@ -118,6 +121,12 @@ export function heightFromMetres(metres: number, unit: HeightUnit): number {
 }
 
 /** Asked where the engine's pregnancy criterion can apply: not male, age 10–59 [ours]. */
+/** A child's height is asked under 15 years, where the 2011 fall rule uses it (SOURCES.md §3.4). */
+export function childHeightAsked(draft: ClinicalDraft): boolean {
+  const age = parseNumber(draft.age);
+  return typeof age === 'number' && (draft.ageUnit === 'months' || age < 15);
+}
+
 export function pregnancyAsked(draft: ClinicalDraft): boolean {
   if (draft.sex === 'male') return false;
   const age = parseNumber(draft.age);
@@ -169,6 +178,7 @@ export function toClinical(draft: ClinicalDraft): BuiltClinical {
     pregnancyWeeks: !pregnancyAsked(draft) ? null : draft.pregnant === false ? 0 : weeks,
     anticoagulant: draft.anticoagulant,
     weightKg: read('weightKg', draft.weightKg),
+    bodyHeightCm: childHeightAsked(draft) ? read('bodyHeightCm', draft.bodyHeightCm) : null,
     fall: { heightM, surface: draft.surface, firstImpact: draft.firstImpact, headImpact: draft.headImpact },
     vitals: {
       sbp: read('vitals.sbp', draft.sbp),
@@ -213,6 +223,7 @@ export function draftFromInput(input: ClinicalInput, heightUnit: HeightUnit): Cl
     pregnancyWeeks: input.pregnancyWeeks ? String(input.pregnancyWeeks) : '',
     anticoagulant: input.anticoagulant ?? null,
     weightKg: text(input.weightKg),
+    bodyHeightCm: text(input.bodyHeightCm),
     height: String(heightFromMetres(input.fall.heightM, heightUnit)),
     heightUnit,
     surface: input.fall.surface ?? 'unknown',

@@ -1,14 +1,15 @@
 import type { Interval } from '../../../shared/quality';
 import type { TargetStanding } from '../../../shared/schemas/quality';
-import { EXAMPLE_POLICY, type LevelId } from '../../../shared/triage/policy';
+import type { LevelId } from '../../../shared/triage/policy';
 
 // How the quality figures read on screen and on paper: one decimal, the interval beside it.
 
 export const percent = (v: number | null | undefined) => (v == null ? '—' : `${(v * 100).toFixed(1)} %`);
 export const interval = (ci: Interval | null | undefined) => (ci ? `95 % CI ${(ci[0] * 100).toFixed(1)}–${(ci[1] * 100).toFixed(1)} %` : 'no cases to count');
 
-const LEVEL_WORDS = Object.fromEntries(EXAMPLE_POLICY.levels.map((l) => [l.id, l.name])) as Record<LevelId, string>;
-export const levelName = (id: LevelId | null | undefined) => (id ? LEVEL_WORDS[id] ?? id : 'Not decided');
+/** A level's name in the hospital's policy in force (the report carries them); the id until it has loaded. */
+export const levelNameIn = (levels: readonly { id: LevelId; name: string }[] | null | undefined, id: LevelId | null | undefined) =>
+  (id ? levels?.find((l) => l.id === id)?.name ?? id : 'Not decided');
 
 export const STANDING_WORDS: Record<TargetStanding, { text: string; severity: 'success' | 'danger' | 'warn' | 'secondary' }> = {
   meets: { text: 'Meets the target', severity: 'success' },

@@ -5,21 +5,21 @@ import { evaluate } from '../../../../shared/triage/evaluate';
 
 describe('fall physics', () => {
   it('40 m without drag: 28.0 m/s (about 101 km/h) after 2.86 s', () => {
-    // √(2 · 9.80665 · 40) = 28.01 m/s; √(2 · 40 / 9.80665) = 2.856 s [source: standard mechanics, CLINICAL.md §6]
+    // √(2 · 9.80665 · 40) = 28.01 m/s; √(2 · 40 / 9.80665) = 2.856 s [source: standard mechanics, SOURCES.md §8]
     expect(vacuumImpactSpeed(40)).toBeCloseTo(28.0, 1);
     expect(vacuumImpactSpeed(40) * 3.6).toBeCloseTo(101, 0);
     expect(vacuumFallTime(40)).toBeCloseTo(2.86, 2);
   });
 
   it('40 m with drag (vt 55 m/s): about 26 m/s after about 2.9 s', () => {
-    // 55 · √(1 − e^(−2·9.80665·40/3025)) = 26.3 m/s [source: standard mechanics, CLINICAL.md §6]
+    // 55 · √(1 − e^(−2·9.80665·40/3025)) = 26.3 m/s [source: standard mechanics, SOURCES.md §8]
     expect(impactSpeed(40)).toBeGreaterThan(25.5);
     expect(impactSpeed(40)).toBeLessThan(26.5);
     expect(fallTime(40)).toBeCloseTo(2.9, 1);
   });
 
   it('14.8 m: 16.6 m/s with drag against 17.0 without', () => {
-    // [source: standard mechanics, CLINICAL.md §6]
+    // [source: standard mechanics, SOURCES.md §8]
     expect(impactSpeed(14.8)).toBeCloseTo(16.6, 1);
     expect(vacuumImpactSpeed(14.8)).toBeCloseTo(17.0, 1);
   });

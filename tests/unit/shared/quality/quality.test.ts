@@ -36,7 +36,7 @@ describe('Cribari matrix', () => {
   });
 
   it('ISS 15 is not major trauma, 16 is; with NFTI either counts; an unknown outcome sits in no cell', () => {
-    // Major trauma ISS > 15 [source: CLINICAL.md §5]
+    // Major trauma ISS > 15 [source: SOURCES.md §7]
     expect(isMajorTrauma(15, null, 'iss')).toBe(false);
     expect(isMajorTrauma(16, null, 'iss')).toBe(true);
     expect(isMajorTrauma(9, true, 'iss-or-nfti')).toBe(true);

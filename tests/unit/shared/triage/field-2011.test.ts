@@ -63,7 +63,7 @@ describe('2011 field triage (second set)', () => {
   });
 
   it('the activation policy gives the same level whichever set is chosen', () => {
-    // [ours]: the policy names its own criterion ids (CLINICAL.md §4)
+    // [ours]: the policy names its own criterion ids (SOURCES.md §6)
     const input = patient({ ageYears: 68, vitals: { sbp: 105 } });
     expect(evaluate(input, { set: 'field-2011' }).activation).toBe('limited');
     expect(evaluate(input, { set: 'field-2021' }).activation).toBe('limited');

@@ -72,18 +72,43 @@ describe('2021 field triage: vital signs at their thresholds', () => {
     expect(ids(patient({ vitals: { rr: 30 } }))).toEqual(['field-2021:rr-out-of-range']);
   });
 
-  it('room-air SpO2 89 / 90 / 91; 85 on oxygen does not count', () => {
-    // 2021 guideline, Newgard 2022: room-air pulse oximetry < 90 % [source]
+  it('room-air SpO2 89 / 90 / 91', () => {
+    // 2021 guideline, Newgard 2022: room-air pulse oximetry < 90 % (SOURCES.md §2.4) [sourced]
     expect(ids(patient({ vitals: { spo2: 89 } }))).toEqual(['field-2021:room-air-spo2-below-90']);
     expect(ids(patient({ vitals: { spo2: 90 } }))).toEqual([]);
     expect(ids(patient({ vitals: { spo2: 91 } }))).toEqual([]);
-    // Not a room-air reading [ours]
-    expect(ids(patient({ vitals: { spo2: 85, spo2RoomAir: false } }))).toEqual([]);
   });
 
-  it('SpO2 85 with room air not recorded: unknown, and said so', () => {
-    // 2021 guideline, Newgard 2022: room-air pulse oximetry < 90 % [source]
+  it('SpO2 89 on oxygen: met, room air would read lower still', () => {
+    // Room-air SpO2 < 90 % [sourced: Newgard 2022]; below 90 on oxygen meets it (SOURCES.md §2.4) [ours]
+    const result = evaluate(patient({ vitals: { spo2: 89, spo2RoomAir: false } }));
+    expect(result.criteria.map((c) => c.id)).toContain('field-2021:room-air-spo2-below-90');
+    expect(result.fieldRisk).toBe('high');
+    expect(result.criteria.find((c) => c.id === 'field-2021:room-air-spo2-below-90')?.because)
+      .toBe('SpO2 89 % on oxygen < 90 %, so lower still on room air');
+  });
+
+  it('SpO2 90 and 96 on oxygen: unknown, the room-air SpO2 listed as missing', () => {
+    // At or above 90 % on oxygen says nothing of room air (SOURCES.md §2.4) [ours]
+    for (const spo2 of [90, 96]) {
+      const result = evaluate(patient({ vitals: { spo2, spo2RoomAir: false } }));
+      expect(result.fieldRisk).toBe('none');
+      expect(result.missing).toContainEqual({ field: 'vitals.spo2', message: 'no room-air SpO2 recorded (a reading of 90 % or more on oxygen cannot show it)' });
+    }
+    // The same 90 % on room air decides it: not met, nothing missing for it [sourced: Newgard 2022].
+    expect(evaluate(patient({ vitals: { spo2: 90, spo2RoomAir: true } })).missing.map((m) => m.field)).not.toContain('vitals.spo2');
+  });
+
+  it('SpO2 85 with room air not recorded: met either way', () => {
+    // Below 90 on room air meets it [sourced: Newgard 2022]; below 90 on oxygen too (SOURCES.md §2.4) [ours]
     const result = evaluate(patient({ vitals: { spo2: 85, spo2RoomAir: null } }));
+    expect(result.fieldRisk).toBe('high');
+    expect(result.criteria.map((c) => c.id)).toContain('field-2021:room-air-spo2-below-90');
+  });
+
+  it('SpO2 95 with room air not recorded: unknown, and said so', () => {
+    // SOURCES.md §2.4 [ours]: whether it was room air decides it.
+    const result = evaluate(patient({ vitals: { spo2: 95, spo2RoomAir: null } }));
     expect(result.fieldRisk).toBe('none');
     expect(result.missing.map((m) => m.field)).toEqual(['vitals.spo2RoomAir']);
   });

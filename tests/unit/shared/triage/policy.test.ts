@@ -6,7 +6,7 @@ import { patient } from './cases';
 
 const level = (input: Parameters<typeof evaluate>[0]) => evaluate(input).activation;
 
-describe('example tiered policy (CLINICAL.md §4) [ours]', () => {
+describe('example tiered policy (SOURCES.md §6) [ours]', () => {
   it('is marked as an example and passes its own validation', () => {
     expect(EXAMPLE_POLICY.example).toBe(true);
     expect(validatePolicy(EXAMPLE_POLICY)).toEqual({ ok: true, policy: EXAMPLE_POLICY });

@@ -1,13 +1,14 @@
 import fc from 'fast-check';
-import { afterEach, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import type { ClinicalInput } from '../../../../shared/schemas/clinical';
 import { CONSIDERATIONS, FINDINGS } from '../../../../shared/schemas/clinical-options';
-import { evaluate, stepRunner } from '../../../../shared/triage/evaluate';
+import { evaluate } from '../../../../shared/triage/evaluate';
+import type { Criterion } from '../../../../shared/triage/criteria';
+import { criterionState } from './oracle';
 import { EXAMPLE_POLICY, LEVEL_RANK } from '../../../../shared/triage/policy';
 import { CRITERIA_SETS, compiledCriterion } from '../../../../shared/triage/catalog';
 import { POLICY_CRITERIA } from '../../../../shared/triage/policy-criteria';
-import { TRI, createFacts, readFacts } from '../../../../shared/triage/facts';
-import { CAN_MAKE_CODE, straightLine } from '../../../../shared/triage/straight-line';
+import { createFacts, readFacts } from '../../../../shared/triage/facts';
 
 const RISK_RANK = { none: 0, moderate: 1, high: 2 } as const;
 const orNull = <T>(arb: fc.Arbitrary<T>) => fc.option(arb, { nil: null });
@@ -17,6 +18,7 @@ const input: fc.Arbitrary<ClinicalInput> = fc.record({
   sex: orNull(fc.constantFrom('female', 'male', 'other', 'unknown') as fc.Arbitrary<'female' | 'male' | 'other' | 'unknown'>),
   pregnancyWeeks: orNull(fc.integer({ min: 0, max: 42 })),
   anticoagulant: orNull(fc.boolean()),
+  bodyHeightCm: orNull(fc.integer({ min: 45, max: 200 })),
   fall: fc.record({
     // Thresholds exactly (10 and 20 ft) as well as anywhere between.
     heightM: fc.oneof(fc.double({ min: 0, max: 40, noNaN: true }), fc.constantFrom(0, 3.048, 6.096, 9.144)),
@@ -93,61 +95,46 @@ describe('unknown is never read as normal', () => {
   });
 });
 
-describe('the evaluator’s steps read the criteria as their general form does', () => {
-  // The evaluator runs each criterion as steps over columns of numbers, in its own loop (as in a
-  // browser) or as one generated function (under Node.js); each criterion also keeps the general
-  // three-valued test compiled straight from its condition tree. All must give the same met
-  // criteria, in the same order, for any input [ours: an internal consistency check].
-  afterEach(() => { stepRunner.straightLine = true; });
-
-  for (const straightLine of [true, false]) {
-    it(`met criteria and field risk as a plain walk over every criterion’s own test (${straightLine ? 'generated function' : 'step loop'})`, () => {
-      stepRunner.straightLine = straightLine;
-      fc.assert(fc.property(input, sets, (x, set) => {
-        const facts = readFacts(x, createFacts());
-        const expectedMet = CRITERIA_SETS[set].criteria.filter((c) => compiledCriterion(c.id)!.test(facts) === TRI.MET);
-        const result = evaluate(x, { set });
-        expect(result.criteria.filter((c) => c.set === set).map((c) => c.id)).toEqual(expectedMet.map((c) => c.id));
-        const rank = Math.max(0, ...expectedMet.map((c) => (c.tier === 'high' ? 2 : 1)));
-        expect(result.fieldRisk).toBe((['none', 'moderate', 'high'] as const)[rank]);
-        // The policy's own conditions that the policy names, the same way.
-        const named = new Set(EXAMPLE_POLICY.rules.flatMap((r) => r.criteria));
-        const policyMet = POLICY_CRITERIA.filter((c) => named.has(c.id) && compiledCriterion(c.id)!.test(facts) === TRI.MET).map((c) => c.id);
-        expect(result.criteria.filter((c) => c.set === 'policy').map((c) => c.id)).toEqual(policyMet);
-      }), { numRuns: 1000 });
-    });
-  }
-
-  it('the generated function and the step loop give the same whole result, missing inputs included', () => {
+describe('the evaluator reads every criterion as the plain three-valued oracle does', () => {
+  // The one evaluator (compile-criteria.ts) runs in the browser and on the server alike. A plain
+  // walk over each criterion's condition tree, written apart under tests/ (oracle.ts), must give
+  // the same met criteria, in the same order, and the same field risk, for any input [ours: an
+  // internal consistency check of the rules SOURCES.md states].
+  it('met criteria and field risk as the oracle gives them, the policy’s own conditions included', () => {
     fc.assert(fc.property(input, sets, (x, set) => {
-      stepRunner.straightLine = true;
-      const generated = evaluate(x, { set });
-      stepRunner.straightLine = false;
-      expect(evaluate(x, { set })).toEqual(generated);
-    }), { numRuns: 2000 });
+      const expectedMet = CRITERIA_SETS[set].criteria.filter((c) => criterionState(c, x) === 'met');
+      const result = evaluate(x, { set });
+      expect(result.criteria.filter((c) => c.set === set).map((c) => c.id)).toEqual(expectedMet.map((c) => c.id));
+      const rank = Math.max(0, ...expectedMet.map((c) => (c.tier === 'high' ? 2 : 1)));
+      expect(result.fieldRisk).toBe((['none', 'moderate', 'high'] as const)[rank]);
+      const named = new Set(EXAMPLE_POLICY.rules.flatMap((r) => r.criteria));
+      const policyMet = POLICY_CRITERIA.filter((c) => named.has(c.id) && criterionState(c, x) === 'met').map((c) => c.id);
+      expect(result.criteria.filter((c) => c.set === 'policy').map((c) => c.id)).toEqual(policyMet);
+    }), { numRuns: 1500 });
   });
 
-  it('the step loop and the generated function are both used', () => {
-    // Node.js can make code, so the tests run both; a result of each carries the same level.
-    expect(CAN_MAKE_CODE).toBe(true);
-    // The generator makes a function for every criterion of both sets and the policy catalog.
+  it('every criterion’s own state, unknown included, as the oracle gives it', () => {
     const all = [...CRITERIA_SETS['field-2021'].criteria, ...CRITERIA_SETS['field-2011'].criteria, ...POLICY_CRITERIA];
-    const members = all.map((c, index) => ({ index, steps: compiledCriterion(c.id)!.steps, risk: 1, firstRule: 0 }));
-    const run = straightLine(members, 1);
-    expect(run).toBeTypeOf('function');
-    const facts = readFacts({ ageYears: 70, fall: { heightM: 0, headImpact: true }, vitals: { sbp: 100 }, findings: [] }, createFacts());
-    const met = new Int32Array(all.length), unknown = new Int32Array(all.length), out = new Int32Array(4);
-    run!(facts.lo, facts.hi, facts.years, facts.flags, facts, met, unknown, new Int32Array(all.length), out);
-    const expected = all.flatMap((c, i) => (compiledCriterion(c.id)!.test(facts) === TRI.MET ? [i] : []));
-    expect(Array.from(met.subarray(0, out[2]))).toEqual(expected);
-    expect(expected.length).toBeGreaterThan(0);
-    const x: ClinicalInput = { ageYears: 70, fall: { heightM: 0, headImpact: true }, vitals: { sbp: 100 }, findings: [] };
-    stepRunner.straightLine = false;
-    const loop = evaluate(x);
-    stepRunner.straightLine = true;
-    expect(evaluate(x)).toEqual(loop);
-    // Age 65 or older with SBP 100 < 110 [source: Newgard 2022]: high risk.
-    expect(loop.fieldRisk).toBe('high');
+    const names = ['not met', 'met', 'unknown'] as const;
+    fc.assert(fc.property(input, (x) => {
+      const facts = readFacts(x, createFacts());
+      for (const c of all) expect([c.id, names[compiledCriterion(c.id)!.test(facts)]]).toEqual([c.id, criterionState(c, x)]);
+    }), { numRuns: 1500 });
+  });
+
+  it('a criterion given as data, not shipped, is evaluated and carries its own source', () => {
+    // A hospital's own criterion appended to the 2021 set [ours: the evaluator reads any criterion as data].
+    const local: Criterion = {
+      id: 'local:fall-above-2-m-age-70-up', set: 'policy', category: 'mechanism', tier: 'moderate', nemsis: null,
+      label: 'Age 70 or older: fall > 2 m', source: 'Alderwick General local rule [ours]', sourceLabel: 'Local rule, Alderwick General',
+      when: { kind: 'all', of: [{ kind: 'age', from: 70, label: '70 or older' }, { kind: 'above', quantity: 'heightM', value: 2 }] },
+    };
+    const set = { ...CRITERIA_SETS['field-2021'], criteria: [...CRITERIA_SETS['field-2021'].criteria, local] };
+    const x: ClinicalInput = { ageYears: 72, fall: { heightM: 2.5 }, vitals: { sbp: 140, hr: 80, rr: 16, gcsTotal: 15 }, findings: [] };
+    const fired = evaluate(x, { criteria: set }).criteria.find((c) => c.id === local.id);
+    expect(fired).toMatchObject({ sourceLabel: 'Local rule, Alderwick General', because: 'fall 2.5 m (8.2 ft) > 2 m, age 72 (70 or older)' });
+    expect(criterionState(local, x)).toBe('met');
+    expect(evaluate({ ...x, ageYears: 60 }, { criteria: set }).criteria.map((c) => c.id)).not.toContain(local.id);
   });
 });
 
