@@ -67,7 +67,7 @@ describe('the condition builder', () => {
       expect(readBack(back)).toBe(readBack(c));
       expect(checkCondition(c)).toEqual([]);
     }
-    expect(readBack(conditions[4])).toBe('Age under 16 and (pelvic fracture or burns or SpO2 on room air below 92 %)');
+    expect(readBack(conditions[4])).toBe('Age under 16 and (suspected broken pelvis, burns as well as the injury or SpO2 on room air below 92 %)');
   });
 
   it('makes "at least" exactly that: 90 meets SBP at least 90, 89.9 does not', () => {
@@ -103,9 +103,10 @@ describe('a local criterion in the engine', () => {
     const result = evaluate(patient({ ageYears: 80, anticoagulant: null, vitals: { sbp: null } }), { policy });
     expect(result.activation).not.toBe('full');
     expect(result.missing.map((m) => m.field)).toEqual(expect.arrayContaining(['vitals.sbp', 'anticoagulant']));
-    // Too young for the rule: age decides it, nothing is missing for it.
-    const young = evaluate(patient({ ageYears: 30, anticoagulant: null, vitals: { sbp: 130 } }), { policy });
-    expect(young.missing.map((m) => m.field)).not.toContain('anticoagulant');
+    // Once given, the same inputs decide it: met, and the level it calls.
+    const given = evaluate(patient({ ageYears: 80, anticoagulant: true, vitals: { sbp: 115 } }), { policy });
+    expect(given.activation).toBe('full');
+    expect(given.criteria.find((c) => c.set === 'local')?.because).toBe('on an anticoagulant, SBP 115 < 120, age 80 (65 or older)');
   });
 
   it('refuses a stored criterion whose when or id was changed', () => {
