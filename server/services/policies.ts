@@ -106,7 +106,7 @@ function summarise(row: PolicyVersionRow, names: Map<number, string>, inForceId:
 }
 
 export interface HospitalPolicies {
-  hospital: { id: number; name: string };
+  hospital: { id: number; name: string; heightUnit: 'm' | 'ft' | 'storeys' };
   /** What decides a new evaluation now; `example` is true until the hospital publishes its own. */
   inForce: { policyId: string; version: number; name: string; example: boolean; versionId: number | null };
   versions: PolicyVersionSummary[];
@@ -114,7 +114,7 @@ export interface HospitalPolicies {
 
 export async function listPolicyVersions(db: Knex, me: Me, hospitalId: number, at: number): Promise<HospitalPolicies> {
   assertHospital(me, hospitalId);
-  const hospital = await db('hospitals').where({ id: hospitalId }).first('id', 'name');
+  const hospital = await db('hospitals').where({ id: hospitalId }).first('id', 'name', 'height_unit as heightUnit');
   if (!hospital) throw notFound('That hospital');
   const rows: PolicyVersionRow[] = await db('policy_versions').where({ hospital_id: hospitalId }).orderBy('version', 'desc');
   const names = await namesOf(db, rows.flatMap((row) => [row.created_by, row.published_by]));
