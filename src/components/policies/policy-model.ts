@@ -37,7 +37,7 @@ export interface PolicyForm {
 
 export function localToForm(policy: Policy, c: LocalCriterion): LocalCriterionForm {
   const level = levelCalled(policy, c.id);
-  return { id: c.id, label: c.label, reason: c.reason, level: level === 'none' ? 'full' : level, condition: structuredClone(c.condition), source: c.source };
+  return { id: c.id, label: c.label, reason: c.reason, level: level === 'none' ? 'full' : level, condition: JSON.parse(JSON.stringify(c.condition)) as LocalCondition, source: c.source };
 }
 
 export function toForm(policy: Policy): PolicyForm {
