@@ -14,7 +14,7 @@ import { runWhatIf } from '../../server/services/what-if';
 import type { Me } from '../../shared/roles';
 import type { ClinicalInput } from '../../shared/schemas/clinical';
 import { WhatIfRequest } from '../../shared/schemas/quality';
-import { evaluate } from '../../shared/triage/evaluate';
+import { evaluate, type Evaluation } from '../../shared/triage/evaluate';
 import { settleLocalCriterion } from '../../shared/triage/local-criteria';
 import { EXAMPLE_POLICY, validatePolicy } from '../../shared/triage/policy';
 
@@ -67,7 +67,7 @@ export async function benchWhatIf(count = 100_000): Promise<WhatIfBench> {
     const fillStarted = performance.now();
     await db.transaction(async (trx) => {
       for (let start = 0; start < count; start += BATCH) {
-        const rows = [];
+        const rows: Array<{ input: ClinicalInput; result: Evaluation; createdAt: number; i: number }> = [];
         for (let i = start; i < Math.min(count, start + BATCH); i++) {
           const input = invented();
           const result = evaluate(input);
