@@ -130,5 +130,5 @@ describeInBrowser('Local criteria in Chromium', () => {
     await expectAccessible(board, 'Board with a local criterion');
     await screenshot(board, 'local-criterion-board');
     await nurseContext.close();
-  }, 180_000);
+  }, 240_000);
 });
