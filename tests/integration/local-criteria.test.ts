@@ -165,4 +165,14 @@ describe('a local criterion from draft to a new pre-alert', () => {
     expect(next.document.rules[0].criteria).toContain(local.id);
     expect(next.document.rules[0].criteria.some((id: string) => id.includes(':v1:'))).toBe(false);
   });
+
+  it('refuses a flood of previews from one account with 429, and not the next person', async () => {
+    const body = { hospitalId: general, condition: fallAbove15ft().condition };
+    const statuses: number[] = [];
+    for (let i = 0; i < 125 && !statuses.includes(429); i++) statuses.push((await lead.send('POST', '/api/policies/local-preview', body)).status);
+    // 120 a minute per person: the lead asked once before, from another hospital.
+    expect(statuses.filter((s) => s === 200).length).toBe(119);
+    expect(statuses.at(-1)).toBe(429);
+    expect((await admin.send('POST', '/api/policies/local-preview', body)).status).toBe(200);
+  });
 });
