@@ -1,10 +1,12 @@
 import { Router, type Request } from 'express';
+import rateLimit from 'express-rate-limit';
 import { z } from 'zod';
 import type { AppDeps } from '../deps';
 import { requireRole, requireUser } from '../auth/guards';
-import { parseOr400 } from '../errors';
+import { AppError, errorBody, parseOr400 } from '../errors';
 import { IdParam } from './params';
-import { CreateDraft, PublishVersion, SaveDraft } from '../../shared/schemas/policies';
+import { ApproveVersion, CreateDraft, LocalPreviewQuery, PublishVersion, SaveDraft } from '../../shared/schemas/policies';
+import { previewLocalCondition } from '../services/local-criteria';
 import { approveVersion, createDraft, discardDraft, getPolicyVersion, listPolicyVersions, publishVersion, saveDraft } from '../services/policies';
 
 export const HospitalQuery = z.object({ hospitalId: z.coerce.number({ error: 'must be a number' }).int().positive() });
@@ -15,6 +17,13 @@ export function policiesRouter({ db, clock }: AppDeps): Router {
   const user = requireUser(db);
   const readers = requireRole('admin', 'trauma_lead');
   router.get('/api/policies', user, readers, async (req, res) => res.json(await listPolicyVersions(db, req.me!, parseOr400(HospitalQuery, req.query).hospitalId, clock.now())));
+  // Each preview reads up to 20,000 past cases; the form asks at most every 0.4 s while a person types [ours].
+  const previews = rateLimit({
+    windowMs: 60_000, limit: 120, standardHeaders: 'draft-8', legacyHeaders: false,
+    keyGenerator: (req) => `user:${req.me!.user.id}`,
+    handler: (_req, res) => res.status(429).json(errorBody(new AppError(429, 'too_many', 'Too many previews in a minute; wait a moment and try again.'))),
+  });
+  router.post('/api/policies/local-preview', user, readers, previews, async (req, res) => res.json(await previewLocalCondition(db, req.me!, parseOr400(LocalPreviewQuery, req.body))));
   router.get('/api/policies/:id', user, readers, async (req, res) => res.json(await getPolicyVersion(db, req.me!, idOf(req), clock.now())));
   router.post('/api/policies', user, requireRole('admin'), async (req, res) => res.status(201).json(await createDraft(db, req.me!, parseOr400(CreateDraft, req.body), clock.now())));
   router.put('/api/policies/:id', user, requireRole('admin'), async (req, res) => res.json(await saveDraft(db, req.me!, idOf(req), parseOr400(SaveDraft, req.body), clock.now())));
@@ -22,7 +31,7 @@ export function policiesRouter({ db, clock }: AppDeps): Router {
     await discardDraft(db, req.me!, idOf(req), clock.now());
     res.status(204).end();
   });
-  router.post('/api/policies/:id/approve', user, requireRole('trauma_lead'), async (req, res) => res.json(await approveVersion(db, req.me!, idOf(req), clock.now())));
+  router.post('/api/policies/:id/approve', user, requireRole('trauma_lead'), async (req, res) => res.json(await approveVersion(db, req.me!, idOf(req), parseOr400(ApproveVersion, req.body ?? {}), clock.now())));
   router.post('/api/policies/:id/publish', user, readers, async (req, res) => res.json(await publishVersion(db, req.me!, idOf(req), parseOr400(PublishVersion, req.body ?? {}), clock.now())));
   return router;
 }

@@ -1,7 +1,10 @@
 import type { Knex } from 'knex';
 import type { Me, Role } from '../../shared/roles';
-import type { CreateDraft, PolicyStatus, PolicyVersionSummary, PublishVersion, SaveDraft } from '../../shared/schemas/policies';
+import type { ApproveVersion, CreateDraft, LooseningWarning, PolicyStatus, PolicyVersionSummary, PublishVersion, SaveDraft } from '../../shared/schemas/policies';
 import { EXAMPLE_POLICY, Policy, validatePolicy } from '../../shared/triage/policy';
+import { withLocalCriteria } from '../../shared/triage/local-criteria';
+import { looseningWarnings } from '../../shared/triage/loosening';
+import { rekeyLocalCriteria, settleDraftCriteria } from './local-criteria';
 import { assertHospital, hasRole } from '../auth/guards';
 import { AppError, conflict, forbidden, invalid, notFound } from '../errors';
 import { appendAudit, type Actor } from './audit';
@@ -23,7 +26,7 @@ export async function policyInForce(db: Knex, hospitalId: number, at: number): P
   if (!row) return EXAMPLE_POLICY;
   let policy = publishedCache.get(row.document);
   if (!policy) {
-    policy = Policy.parse(JSON.parse(row.document));
+    policy = withLocalCriteria(Policy.parse(JSON.parse(row.document)));
     publishedCache.set(row.document, policy);
   }
   return policy;
@@ -49,10 +52,15 @@ export interface PolicyVersionRow {
   published_by: number | null;
   published_at: number | null;
   effective_from: number | null;
+  loosening_acknowledged: string | null;
 }
 
 export interface PolicyVersionDetail extends PolicyVersionSummary {
   document: Policy;
+  /** Guarded criteria this version loosens against the policy in force now. */
+  warnings: LooseningWarning[];
+  /** The warnings the approver ticked as read; null when the approval had none (or not yet approved). */
+  looseningAcknowledged: LooseningWarning[] | null;
 }
 
 /** How far in the past an effective date may be and still count as "now" (client clocks drift). */
@@ -98,7 +106,7 @@ function summarise(row: PolicyVersionRow, names: Map<number, string>, inForceId:
 }
 
 export interface HospitalPolicies {
-  hospital: { id: number; name: string };
+  hospital: { id: number; name: string; heightUnit: 'm' | 'ft' | 'storeys' };
   /** What decides a new evaluation now; `example` is true until the hospital publishes its own. */
   inForce: { policyId: string; version: number; name: string; example: boolean; versionId: number | null };
   versions: PolicyVersionSummary[];
@@ -106,7 +114,7 @@ export interface HospitalPolicies {
 
 export async function listPolicyVersions(db: Knex, me: Me, hospitalId: number, at: number): Promise<HospitalPolicies> {
   assertHospital(me, hospitalId);
-  const hospital = await db('hospitals').where({ id: hospitalId }).first('id', 'name');
+  const hospital = await db('hospitals').where({ id: hospitalId }).first('id', 'name', 'height_unit as heightUnit');
   if (!hospital) throw notFound('That hospital');
   const rows: PolicyVersionRow[] = await db('policy_versions').where({ hospital_id: hospitalId }).orderBy('version', 'desc');
   const names = await namesOf(db, rows.flatMap((row) => [row.created_by, row.published_by]));
@@ -130,7 +138,13 @@ async function loadVersion(db: Knex, me: Me, versionId: number): Promise<PolicyV
 export async function getPolicyVersion(db: Knex, me: Me, versionId: number, at: number): Promise<PolicyVersionDetail> {
   const row = await loadVersion(db, me, versionId);
   const names = await namesOf(db, [row.created_by, row.published_by]);
-  return { ...summarise(row, names, await inForceVersionId(db, row.hospital_id, at)), document: JSON.parse(row.document) };
+  const document = withLocalCriteria(JSON.parse(row.document) as Policy);
+  return {
+    ...summarise(row, names, await inForceVersionId(db, row.hospital_id, at)),
+    document,
+    warnings: looseningWarnings(document, await policyInForce(db, row.hospital_id, at)),
+    looseningAcknowledged: row.loosening_acknowledged == null ? null : JSON.parse(row.loosening_acknowledged),
+  };
 }
 
 const slug = (text: string) => text.toLowerCase().normalize('NFKD').replace(/[^a-z0-9]+/g, '-').replace(/^-+|-+$/g, '').slice(0, 40);
@@ -165,8 +179,9 @@ export async function createDraft(db: Knex, me: Me, request: CreateDraft, at: nu
     const policyId = await policyIdFor(trx, request.hospitalId);
     const last = await trx('policy_versions').where({ hospital_id: request.hospitalId, policy_id: policyId }).max({ v: 'version' }).first();
     const version = Number(last?.v ?? 0) + 1;
+    const hospital = await trx('hospitals').where({ id: request.hospitalId }).first('name');
     const document: Policy = {
-      ...structuredClone(source),
+      ...rekeyLocalCriteria(structuredClone(source), policyId, version, hospital?.name ?? 'this hospital'),
       id: policyId,
       version,
       name: source.example ? 'Activation policy' : source.name,
@@ -193,13 +208,15 @@ export async function saveDraft(db: Knex, me: Me, versionId: number, edit: SaveD
     const row = await loadVersion(trx, me, versionId);
     if (row.status !== 'draft') throw notEditable(row);
     const before: Policy = JSON.parse(row.document);
-    const check = validatePolicy({ ...before, name: edit.name, note: edit.note, levels: edit.levels, rules: edit.rules });
+    const hospital = await trx('hospitals').where({ id: row.hospital_id }).first('name');
+    const local = settleDraftCriteria(edit, row.policy_id, row.version, hospital?.name ?? 'this hospital');
+    const check = validatePolicy({ ...before, name: edit.name, note: edit.note, levels: edit.levels, rules: local.rules, localCriteria: local.localCriteria });
     if (!check.ok) throw invalid(check.issues);
     await trx('policy_versions').where({ id: versionId }).update({ document: JSON.stringify(check.policy) });
     await appendAudit(trx, {
       at, actor: actorOf(me, 'admin'), action: 'policy.draft-saved', entity: 'policy', entityId: versionId,
-      before: { name: before.name, levels: before.levels, rules: before.rules },
-      after: { name: check.policy.name, levels: check.policy.levels, rules: check.policy.rules },
+      before: { name: before.name, levels: before.levels, rules: before.rules, localCriteria: before.localCriteria ?? [] },
+      after: { name: check.policy.name, levels: check.policy.levels, rules: check.policy.rules, localCriteria: check.policy.localCriteria ?? [] },
       policy: refOf(row),
     });
   });
@@ -216,7 +233,7 @@ export async function discardDraft(db: Knex, me: Me, versionId: number, at: numb
 }
 
 /** Only a trauma lead of the version's own hospital approves, and the approval names them. */
-export async function approveVersion(db: Knex, me: Me, versionId: number, at: number): Promise<PolicyVersionDetail> {
+export async function approveVersion(db: Knex, me: Me, versionId: number, request: ApproveVersion, at: number): Promise<PolicyVersionDetail> {
   if (!hasRole(me, 'trauma_lead')) throw forbidden('Only a trauma lead approves a policy version.');
   await db.transaction(async (trx) => {
     const row = await loadVersion(trx, me, versionId);
@@ -224,12 +241,23 @@ export async function approveVersion(db: Knex, me: Me, versionId: number, at: nu
     // Saved drafts were checked, but the catalog may have changed since: check again before it can go live.
     const check = validatePolicy({ ...JSON.parse(row.document), approvedBy: me.user.name });
     if (!check.ok) throw invalid(check.issues);
+    // A draft that loosens a guarded criterion is approved only by someone who ticks that they read each warning.
+    const warnings = looseningWarnings(check.policy, await policyInForce(trx, row.hospital_id, at));
+    if (warnings.length && !request.looseningAcknowledged) {
+      throw invalid([{ field: 'looseningAcknowledged', message: `must be ticked: this version loosens ${warnings.length === 1 ? 'a guarded criterion' : `${warnings.length} guarded criteria`}: ${warnings.map((w) => w.label).join('; ')}` }]);
+    }
+    const acknowledged = warnings.length ? warnings : null;
     await trx('policy_versions')
       .where({ id: versionId })
-      .update({ status: 'approved', document: JSON.stringify(check.policy), approved_by: me.user.id, approved_by_name: me.user.name, approved_at: at });
+      .update({
+        status: 'approved', document: JSON.stringify(check.policy), approved_by: me.user.id, approved_by_name: me.user.name, approved_at: at,
+        loosening_acknowledged: acknowledged && JSON.stringify(acknowledged),
+      });
     await appendAudit(trx, {
       at, actor: actorOf(me, 'trauma_lead'), action: 'policy.approved', entity: 'policy', entityId: versionId,
-      before: { status: 'draft' }, after: { status: 'approved', approvedBy: me.user.name, approvedAt: at }, policy: refOf(row),
+      before: { status: 'draft' },
+      after: { status: 'approved', approvedBy: me.user.name, approvedAt: at, looseningAcknowledged: acknowledged?.map((w) => w.message) ?? null },
+      policy: refOf(row),
     });
   });
   return getPolicyVersion(db, me, versionId, at);

@@ -9,6 +9,7 @@ import { LEVEL_RANK, validatePolicy, type LevelId, type Policy } from '../../sha
 import { forbidden, invalid, notFound } from '../errors';
 import { policyInForce } from './policies';
 import { assertQualityReader, periodOf } from './quality-report';
+import { localCriteriaRead } from './what-if-local';
 
 // A draft policy tried on the past: the latest revision of every case in the period evaluated
 // again under it, beside what the ED decided and what Plumbline recommended at the time.
@@ -113,5 +114,6 @@ export async function runWhatIf(db: Knex, me: Me, query: WhatIfQuery, at: number
     changes,
     limited: changed > changes.length,
     ms: Math.round(performance.now() - started),
+    localCriteria: localCriteriaRead(policy),
   };
 }

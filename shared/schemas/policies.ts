@@ -1,5 +1,7 @@
 import { z } from 'zod';
 import { PolicyLevel, PolicyRule } from '../triage/policy';
+import { LocalCondition, LocalCriterionDraft } from '../triage/local-criteria';
+import type { LooseningWarning } from '../triage/loosening';
 
 // Requests of the Policies screen. The policy document itself is the engine's Policy; a draft
 // carries only what a hospital edits, and the server fills in id, version and approval.
@@ -21,8 +23,38 @@ export const SaveDraft = z.object({
   note: z.string({ error: 'must be text' }).max(2000, { error: 'must be at most 2000 characters' }).optional(),
   levels: z.array(PolicyLevel, { error: 'must be a list' }),
   rules: z.array(PolicyRule, { error: 'must be a list' }),
+  /** The hospital's own criteria; rules name a new one by the id the form gave it. */
+  localCriteria: z.array(LocalCriterionDraft, { error: 'must be a list' }).max(50, { error: 'must hold at most 50 criteria' }).optional(),
 });
 export type SaveDraft = z.infer<typeof SaveDraft>;
+
+export const ApproveVersion = z.object({
+  /** The approver's tick: they read every loosening warning the draft shows. */
+  looseningAcknowledged: z.boolean({ error: 'must be true or false' }).default(false),
+});
+export type ApproveVersion = z.infer<typeof ApproveVersion>;
+
+/** A condition tried on the hospital's past cases while it is being written. */
+export const LocalPreviewQuery = z.object({ hospitalId: id, condition: LocalCondition });
+export type LocalPreviewQuery = z.infer<typeof LocalPreviewQuery>;
+
+export interface LocalPreviewExample {
+  caseId: number;
+  caseNumber: string;
+  createdAt: number;
+  /** What the case showed of the rule: the engine's own explanation of the condition. */
+  because: string;
+}
+
+export interface LocalPreview {
+  sentence: string;
+  /** How many of the hospital's past cases (latest revision, not cancelled) it would catch, of how many. */
+  caught: number;
+  cases: number;
+  examples: LocalPreviewExample[];
+}
+
+export type { LooseningWarning };
 
 export const PublishVersion = z.object({
   /** Milliseconds since the epoch; now when left out. */

@@ -341,4 +341,6 @@ export interface WhatIfResult {
   changes: WhatIfChange[];
   limited: boolean;
   ms: number;
+  /** The tried version's own criteria, read back, with the level each calls. */
+  localCriteria?: { label: string; sentence: string; level: string }[];
 }

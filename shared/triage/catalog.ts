@@ -31,14 +31,25 @@ const COMPILED: readonly CompiledCriterion[] = ALL.map(compileCriterion);
 const INDEX = new Map<string, number>(ALL.map((c, i) => [c.id, i]));
 if (INDEX.size !== ALL.length) throw new Error('criterion ids must be unique');
 
+// A hospital's own criteria (local-criteria.ts) join the catalog when a policy carrying them is
+// checked or put to use. Their ids name the policy, its version and a hash of their content, so
+// an id always means the same criterion and registering it again changes nothing.
+const LOCAL = new Map<string, { entry: CatalogEntry; compiled: CompiledCriterion }>();
+
+export function registerCriterion(compiled: CompiledCriterion): void {
+  const { when: _when, ...entry } = compiled.criterion;
+  if (INDEX.has(entry.id)) throw new Error(`criterion id ${entry.id} belongs to a shipped set`);
+  if (!LOCAL.has(entry.id)) LOCAL.set(entry.id, { entry: Object.freeze(entry), compiled });
+}
+
 export function findCriterion(id: string): CatalogEntry | undefined {
   const i = INDEX.get(id);
-  return i === undefined ? undefined : CRITERION_CATALOG[i];
+  return i === undefined ? LOCAL.get(id)?.entry : CRITERION_CATALOG[i];
 }
 
 export function compiledCriterion(id: string): CompiledCriterion | undefined {
   const i = INDEX.get(id);
-  return i === undefined ? undefined : COMPILED[i];
+  return i === undefined ? LOCAL.get(id)?.compiled : COMPILED[i];
 }
 
 export function isCriteriaSetId(id: string): id is CriteriaSetId {

@@ -5,8 +5,11 @@ import type { Consideration, Finding } from '../schemas/clinical-options';
 // passes as normal. Every threshold and reading is listed, with its source, in SOURCES.md.
 
 export type CriteriaSetId = 'field-2021' | 'field-2011';
-/** Where a criterion belongs: a guideline set, or `policy`, the conditions policies may add. */
-export type CriterionSetId = CriteriaSetId | 'policy';
+/**
+ * Where a criterion belongs: a guideline set, `policy`, the conditions policies may add, or
+ * `local`, a criterion a hospital wrote into one version of its own policy.
+ */
+export type CriterionSetId = CriteriaSetId | 'policy' | 'local';
 export type RiskTier = 'high' | 'moderate';
 export type CriterionCategory = 'physiologic' | 'anatomic' | 'mechanism' | 'special';
 

@@ -7,3 +7,5 @@ export { MISSING_INPUTS } from './missing-inputs';
 export { FIELD_2021 } from './field-2021';
 export { FIELD_2011 } from './field-2011';
 export { POLICY_CRITERIA } from './policy-criteria';
+export * from './local-criteria';
+export * from './loosening';

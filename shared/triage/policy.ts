@@ -2,6 +2,7 @@ import { z } from 'zod';
 import { describeIssues, type FieldIssue } from '../schemas/issues';
 import { findCriterion } from './catalog';
 import { FIELD_2021 } from './field-2021';
+import { LocalCriterion, checkLocalCriterion, registerLocalCriterion } from './local-criteria';
 
 // An activation policy is data a hospital owns: levels with its own display names, and rules
 // "this level is called by any of these criterion ids", read from the top; the first rule with a
@@ -36,6 +37,8 @@ export const Policy = z.object({
   note: z.string().max(2000).optional(),
   levels: z.array(PolicyLevel, { error: 'must be a list' }).min(1, { error: 'must list at least the level none' }),
   rules: z.array(PolicyRule, { error: 'must be a list' }),
+  /** The hospital's own criteria (local-criteria.ts); rules name them by id like any other. */
+  localCriteria: z.array(LocalCriterion, { error: 'must be a list' }).max(50, { error: 'must hold at most 50 criteria' }).optional(),
 });
 export type Policy = z.infer<typeof Policy>;
 
@@ -88,6 +91,19 @@ export function validatePolicy(raw: unknown): PolicyCheck {
   const policy = parsed.data;
   const issues: FieldIssue[] = [];
 
+  // The hospital's own criteria first: a rule may name them only once they are known to be sound.
+  const local = new Set<string>();
+  (policy.localCriteria ?? []).forEach((c, i) => {
+    const found = checkLocalCriterion(c, policy.id, policy.version, `localCriteria[${i}]`);
+    if (local.has(c.id)) found.push({ field: `localCriteria[${i}]`, message: `${c.label} is listed twice` });
+    if (found.length) return void issues.push(...found);
+    local.add(c.id);
+    registerLocalCriterion(c);
+    if (!policy.rules.some((rule) => rule.criteria.includes(c.id))) {
+      issues.push({ field: `localCriteria[${i}]`, message: `${c.label} calls no level: choose the level it calls` });
+    }
+  });
+
   const declared = new Set<LevelId>();
   policy.levels.forEach((level, i) => {
     if (declared.has(level.id)) issues.push({ field: `levels[${i}].id`, message: `level ${level.id} is listed twice` });
@@ -114,7 +130,8 @@ export function validatePolicy(raw: unknown): PolicyCheck {
     previousRank = Math.min(previousRank, rank);
     let wins = false;
     rule.criteria.forEach((id, c) => {
-      if (!findCriterion(id)) issues.push({ field: `rules[${r}].criteria[${c}]`, message: `unknown criterion id ${id}` });
+      if (id.startsWith('local:') && !local.has(id)) issues.push({ field: `rules[${r}].criteria[${c}]`, message: `${id} is not one of this version's own criteria` });
+      else if (!findCriterion(id)) issues.push({ field: `rules[${r}].criteria[${c}]`, message: `unknown criterion id ${id}` });
       else if (!caught.has(id)) wins = true;
     });
     if (wins) reachable.add(rule.level);

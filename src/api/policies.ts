@@ -1,12 +1,16 @@
 import { apiGet, apiSend } from './http';
 import type { Policy } from '../../shared/triage/policy';
-import type { CreateDraft, PolicyVersionSummary, PublishVersion, SaveDraft } from '../../shared/schemas/policies';
+import type { ApproveVersion, CreateDraft, LocalPreview, LocalPreviewQuery, LooseningWarning, PolicyVersionSummary, PublishVersion, SaveDraft } from '../../shared/schemas/policies';
 
-export type { PolicyVersionSummary };
-export interface PolicyVersionDetail extends PolicyVersionSummary { document: Policy }
+export type { LocalPreview, LooseningWarning, PolicyVersionSummary };
+export interface PolicyVersionDetail extends PolicyVersionSummary {
+  document: Policy;
+  warnings: LooseningWarning[];
+  looseningAcknowledged: LooseningWarning[] | null;
+}
 
 export interface HospitalPolicies {
-  hospital: { id: number; name: string };
+  hospital: { id: number; name: string; heightUnit: 'm' | 'ft' | 'storeys' };
   inForce: { policyId: string; version: number; name: string; example: boolean; versionId: number | null };
   versions: PolicyVersionSummary[];
 }
@@ -16,5 +20,6 @@ export const getPolicyVersion = (id: number) => apiGet<PolicyVersionDetail>(`/ap
 export const createDraft = (request: CreateDraft) => apiSend<PolicyVersionDetail>('POST', '/api/policies', request);
 export const saveDraft = (id: number, edit: SaveDraft) => apiSend<PolicyVersionDetail>('PUT', `/api/policies/${id}`, edit);
 export const discardDraft = (id: number) => apiSend<void>('DELETE', `/api/policies/${id}`);
-export const approveVersion = (id: number) => apiSend<PolicyVersionDetail>('POST', `/api/policies/${id}/approve`, {});
+export const approveVersion = (id: number, request: ApproveVersion) => apiSend<PolicyVersionDetail>('POST', `/api/policies/${id}/approve`, request);
+export const previewLocalCondition = (query: LocalPreviewQuery) => apiSend<LocalPreview>('POST', '/api/policies/local-preview', query);
 export const publishVersion = (id: number, request: PublishVersion) => apiSend<PolicyVersionDetail>('POST', `/api/policies/${id}/publish`, request);

@@ -2,8 +2,9 @@ import { defineStore } from 'pinia';
 import { computed, ref } from 'vue';
 import * as api from '../api/policies';
 import type { HospitalPolicies, PolicyVersionDetail } from '../api/policies';
-import type { SaveDraft } from '../../shared/schemas/policies';
+import type { LocalPreviewQuery, SaveDraft } from '../../shared/schemas/policies';
 import { EXAMPLE_POLICY } from '../../shared/triage/policy';
+import { withLocalCriteria } from '../../shared/triage/local-criteria';
 
 export const usePoliciesStore = defineStore('policies', () => {
   const hospitalId = ref<number | null>(null);
@@ -37,6 +38,7 @@ export const usePoliciesStore = defineStore('policies', () => {
     let detail = details.get(versionId);
     if (!detail) {
       detail = await api.getPolicyVersion(versionId);
+      withLocalCriteria(detail.document);
       details.set(versionId, detail);
     }
     return detail.document;
@@ -44,10 +46,12 @@ export const usePoliciesStore = defineStore('policies', () => {
 
   async function select(versionId: number): Promise<void> {
     selected.value = details.get(versionId) ?? (await api.getPolicyVersion(versionId));
+    withLocalCriteria(selected.value.document);
     details.set(versionId, selected.value);
   }
 
   async function afterChange(detail: PolicyVersionDetail): Promise<PolicyVersionDetail> {
+    withLocalCriteria(detail.document);
     details.set(detail.id, detail);
     selected.value = detail;
     await refresh();
@@ -56,7 +60,8 @@ export const usePoliciesStore = defineStore('policies', () => {
 
   const startDraft = async (from: 'in-force' | 'example' | number) => afterChange(await api.createDraft({ hospitalId: hospitalId.value!, from }));
   const save = async (id: number, edit: SaveDraft) => afterChange(await api.saveDraft(id, edit));
-  const approve = async (id: number) => afterChange(await api.approveVersion(id));
+  const approve = async (id: number, looseningAcknowledged = false) => afterChange(await api.approveVersion(id, { looseningAcknowledged }));
+  const previewLocal = (query: LocalPreviewQuery) => api.previewLocalCondition(query);
   const publish = async (id: number, effectiveFrom?: number) => afterChange(await api.publishVersion(id, { effectiveFrom }));
   async function discard(id: number): Promise<void> {
     await api.discardDraft(id);
@@ -64,5 +69,5 @@ export const usePoliciesStore = defineStore('policies', () => {
     await refresh();
   }
 
-  return { hospitalId, listing, versions, openDraft, selected, loading, load, refresh, select, documentOf, startDraft, save, approve, publish, discard };
+  return { hospitalId, listing, versions, openDraft, selected, loading, load, refresh, select, documentOf, startDraft, save, approve, publish, discard, previewLocal };
 });

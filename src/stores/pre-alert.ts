@@ -4,6 +4,7 @@ import { getDestinations, type CrewDestinations } from '../api/crew';
 import { PreAlert } from '../../shared/schemas/cases';
 import { describeIssues, type FieldIssue } from '../../shared/schemas/issues';
 import { evaluate, type Evaluation } from '../../shared/triage/evaluate';
+import { withLocalCriteria } from '../../shared/triage/local-criteria';
 import { EXAMPLE_POLICY } from '../../shared/triage/policy';
 import { describePatient, emptyDraft, toClinical, type ClinicalDraft, type HeightUnit } from '../components/pre-alert/clinical-draft';
 import { useOutbox } from '../composables/use-outbox';
@@ -97,7 +98,7 @@ export const usePreAlertStore = defineStore('pre-alert', () => {
   /** The shared engine in the browser, under the destination's policy in force (the example until one is chosen). */
   const evaluation = computed<Evaluation | null>(() => {
     const input = built.value.input;
-    return input ? evaluate(input, { policy: hospital.value?.policy ?? EXAMPLE_POLICY }) : null;
+    return input ? evaluate(input, { policy: withLocalCriteria(hospital.value?.policy ?? EXAMPLE_POLICY) }) : null;
   });
 
   function reset(): void {

@@ -145,10 +145,12 @@ describeInBrowser('Triage quality in Chromium', () => {
     await page.getByRole('button', { name: 'Run on past cases' }).click();
     const compare = page.getByRole('table', { name: 'Side by side' });
     await compare.waitFor();
-    expect(await compare.locator('[data-level="full"]').innerText()).toBe('Full trauma team\t2\t2\t0');
+    // Columns: decided, recommended at the time, the policy in force now (still the example), the tried draft.
+    expect(await compare.locator('[data-level="full"]').innerText()).toBe('Full trauma team\t2\t2\t2\t0');
     // #1 (ISS 25) and #2 (ISS 9) lose the full team: c 1 → 2, d 2 → 3, under-triage 1/3 → 2/5.
-    expect(await compare.locator('[data-cell="c"]').innerText()).toBe('Cribari c · not full, major\t1\t1\t2');
-    expect(await compare.locator('[data-rate="under"]').innerText()).toBe('Under-triage c / (c + d)\t33.3 %\t33.3 %\t40.0 %');
+    expect(await compare.locator('[data-cell="c"]').innerText()).toBe('Cribari c · not full, major\t1\t1\t1\t2');
+    // Each rate with its 95 % Wilson score interval (1/3 → 6.1–79.2 %, 2/5 → 11.8–76.9 %) [source: Wilson EB, J Am Stat Assoc 1927].
+    expect(await compare.locator('[data-rate="under"] td').allInnerTexts()).toEqual(['33.3 %\n95 % CI 6.1–79.2 %', '33.3 %\n95 % CI 6.1–79.2 %', '33.3 %\n95 % CI 6.1–79.2 %', '40.0 %\n95 % CI 11.8–76.9 %']);
     await page.getByText('The level would change for 2 (0 higher, 2 lower).').waitFor();
     expect(await page.getByText('would be under-triaged').count()).toBe(1);
     await expectAccessible(page, 'What-if');

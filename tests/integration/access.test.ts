@@ -53,6 +53,11 @@ const TABLE: Record<string, RouteEntry> = {
   'PUT /api/policies/:id': { access: ['admin'], request: (ids) => ({ path: `/api/policies/${ids.draft}`, body: {} }), allowed: 400 },
   'DELETE /api/policies/:id': { access: ['admin'], request: () => ({ path: `/api/policies/${NONE}` }), allowed: 404 },
   'POST /api/policies/:id/approve': { access: ['trauma_lead'], request: () => ({ path: `/api/policies/${NONE}/approve` }), allowed: 404 },
+  'POST /api/policies/local-preview': {
+    access: ['admin', 'trauma_lead'],
+    request: (ids) => ({ path: '/api/policies/local-preview', body: { hospitalId: ids.general, condition: { join: 'all', heightUnit: 'ft', parts: [{ kind: 'measure', measure: 'fallHeight', comparison: 'above', value: 15 }] } } }),
+    allowed: 200,
+  },
   'POST /api/policies/:id/publish': { access: ['admin', 'trauma_lead'], request: () => ({ path: `/api/policies/${NONE}/publish` }), allowed: 404 },
 
   'GET /api/people/users': { access: ['admin'], request: () => ({ path: '/api/people/users' }), allowed: 200 },
@@ -259,8 +264,9 @@ describe('another county’s people on Alderwick’s records', () => {
       lead.send('POST', `/api/policies/${ids.draft}/approve`),
       lead.send('POST', `/api/policies/${ids.draft}/publish`, {}),
       lead.get(`/api/quality/report?hospitalId=${ids.general}&${period}`),
+      lead.send('POST', '/api/policies/local-preview', { hospitalId: ids.general, condition: { join: 'all', heightUnit: 'ft', parts: [{ kind: 'flag', flag: 'anticoagulant' }] } }),
     ]);
-    expect(answers.map((r) => r.status)).toEqual(Array(12).fill(403));
+    expect(answers.map((r) => r.status)).toEqual(Array(13).fill(403));
     const rows = await (await lead.get('/api/review/cases')).json();
     expect(rows.rows).toEqual([]);
     expect(await server.db('reviews').count({ n: '*' }).first()).toEqual(reviewsBefore);
