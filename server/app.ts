@@ -47,8 +47,14 @@ export function createApp(opts: CreateAppOptions): Express {
   if (opts.idpRouter) app.use(opts.idpRouter);
 
   app.use(['/api', '/auth'], opts.sessionMiddleware, sameOriginOnly(publicOrigin));
+  // Answers hold patient data or who may see it: no browser or proxy keeps a copy, so nothing of a
+  // case stays on a shared workstation after sign-out.
+  app.use(['/api', '/auth'], (_req, res, next) => {
+    res.set('Cache-Control', 'no-store');
+    next();
+  });
   app.use('/api', express.json({ limit: '256kb' }));
-  app.use(createSignInRouter({ db, logger, publicUrl, issuer: opts.issuer, clientId: config.oidc.clientId, clientSecret: config.oidc.clientSecret }));
+  app.use(createSignInRouter({ db, logger, publicUrl, issuer: opts.issuer, clientId: config.oidc.clientId, clientSecret: config.oidc.clientSecret, io: opts.io }));
   for (const router of apiRouters) app.use(router(opts));
   app.use('/api', notFoundHandler);
 

@@ -32,13 +32,19 @@ export function securityHeaders(opts: { secure: boolean; extraFormActions: strin
   });
 }
 
+/** The origin of a Referer header; undefined when there is none or it is not a URL. */
+function originOf(referer: string | undefined): string | undefined {
+  if (!referer || !URL.canParse(referer)) return undefined;
+  return new URL(referer).origin;
+}
+
 const SAFE_METHODS = new Set(['GET', 'HEAD', 'OPTIONS']);
 
 /** Refuses a state-changing request that did not come from a page of this site. */
 export function sameOriginOnly(publicOrigin: string): RequestHandler {
   return (req, _res, next) => {
     if (SAFE_METHODS.has(req.method)) return next();
-    const origin = req.get('origin') ?? (req.get('referer') ? new URL(req.get('referer')!).origin : undefined);
+    const origin = req.get('origin') ?? originOf(req.get('referer'));
     if (origin === publicOrigin) return next();
     next(new AppError(403, 'cross_site', 'This request did not come from a Plumbline page.'));
   };

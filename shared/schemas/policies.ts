@@ -1,4 +1,6 @@
 import { z } from 'zod';
+import { safeText } from './text';
+import { boundedTime } from './dates';
 import { PolicyLevel, PolicyRule } from '../triage/policy';
 
 // Requests of the Policies screen. The policy document itself is the engine's Policy; a draft
@@ -17,16 +19,16 @@ export const CreateDraft = z.object({
 export type CreateDraft = z.infer<typeof CreateDraft>;
 
 export const SaveDraft = z.object({
-  name: z.string({ error: 'must be text' }).trim().min(1, { error: 'must not be empty' }).max(200, { error: 'must be at most 200 characters' }),
-  note: z.string({ error: 'must be text' }).max(2000, { error: 'must be at most 2000 characters' }).optional(),
+  name: safeText({ max: 200 }),
+  note: safeText({ max: 2000, min: 0, lines: true }).optional(),
   levels: z.array(PolicyLevel, { error: 'must be a list' }),
   rules: z.array(PolicyRule, { error: 'must be a list' }),
 });
 export type SaveDraft = z.infer<typeof SaveDraft>;
 
 export const PublishVersion = z.object({
-  /** Milliseconds since the epoch; now when left out. */
-  effectiveFrom: z.number({ error: 'must be a time' }).int({ error: 'must be a whole number of milliseconds' }).positive().optional(),
+  /** Milliseconds since the epoch, within 2000–2100; now when left out. */
+  effectiveFrom: boundedTime.optional(),
 });
 export type PublishVersion = z.infer<typeof PublishVersion>;
 
