@@ -3,7 +3,7 @@ import { existsSync, readFileSync, writeFileSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import express, { Router, type Request, type Response } from 'express';
-import Provider, { type Configuration, type KoaContextWithOIDC } from 'oidc-provider';
+import Provider, { interactionPolicy, type Configuration, type KoaContextWithOIDC } from 'oidc-provider';
 import type { Knex } from 'knex';
 import type { Logger } from 'pino';
 import { verifyPassword } from '../auth/passwords';
@@ -35,6 +35,21 @@ function signingKeys(dataDir: string) {
   const jwk = { ...privateKey.export({ format: 'jwk' }), use: 'sig', alg: 'RS256', kid: `plumbline-${Date.now()}` };
   writeFileSync(file, JSON.stringify({ keys: [jwk] }), { mode: 0o600 });
   return { keys: [jwk] };
+}
+
+/**
+ * The provider's prompts, with one more reason to ask for the password: a provider session whose
+ * person is no longer active (deactivated while it lived) goes back to the sign-in page, which
+ * refuses them plainly, instead of failing further on.
+ */
+function signInPolicy() {
+  const { Check } = interactionPolicy;
+  const policy = interactionPolicy.base();
+  policy.get('login')!.checks.add(
+    new Check('account_inactive', 'The signed-in account is no longer active', (ctx) => (ctx.oidc.session?.accountId && !ctx.oidc.account ? Check.REQUEST_PROMPT : Check.NO_NEED_TO_PROMPT)),
+    0,
+  );
+  return policy;
 }
 
 /** The identity provider that runs inside Plumbline when no outside issuer is configured. */
@@ -71,7 +86,7 @@ export function createLocalIdp(opts: LocalIdpOptions): { provider: Provider; rou
         },
       },
     },
-    interactions: { url: (_ctx, interaction) => `/idp/interaction/${interaction.uid}` },
+    interactions: { policy: signInPolicy(), url: (_ctx, interaction) => `/idp/interaction/${interaction.uid}` },
     // Only the authorization-code flow (with PKCE, above): no implicit or hybrid response types,
     // which hand tokens to the browser's address bar (RFC 9700, section 2.1.2).
     responseTypes: ['code'],

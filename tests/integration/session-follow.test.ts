@@ -11,8 +11,7 @@ import { command, connectAs, nextEvent, type TestSocket } from '../support/socke
 
 const WITHIN_MS = 2000;
 const PASSWORD = 'a-long-test-password';
-// A ladder fall from 6 m: over the 2021 field-triage guideline's 10 ft / 3 m adult fall criterion
-// (Newgard et al., Prehosp Emerg Care 2023), so it is a case every board shows.
+// A fall from 6 m: over 10 ft (3.048 m), a 2021 moderate-risk criterion [source: Newgard 2022].
 const clinical = { ageYears: 58, sex: 'male', fall: { heightM: 6, surface: 'concrete' } };
 
 let server: TestServer;
