@@ -55,8 +55,14 @@ export function createApp(opts: CreateAppOptions): Express {
   // only POSTs outside the same-origin check; each is refused without the provider's signature.
   app.use(webhooksRouter(opts));
   app.use(['/api', '/auth'], opts.sessionMiddleware, sameOriginOnly(publicOrigin, MACHINE_CLIENT_PATHS));
+  // Answers hold patient data or who may see it: no browser or proxy keeps a copy, so nothing of a
+  // case stays on a shared workstation after sign-out.
+  app.use(['/api', '/auth'], (_req, res, next) => {
+    res.set('Cache-Control', 'no-store');
+    next();
+  });
   app.use('/api', express.json({ limit: '256kb' }));
-  app.use(createSignInRouter({ db, logger, publicUrl, issuer: opts.issuer, clientId: config.oidc.clientId, clientSecret: config.oidc.clientSecret }));
+  app.use(createSignInRouter({ db, logger, publicUrl, issuer: opts.issuer, clientId: config.oidc.clientId, clientSecret: config.oidc.clientSecret, io: opts.io }));
   for (const router of apiRouters) app.use(router(opts));
   app.use('/api', notFoundHandler);
 

@@ -1,6 +1,7 @@
 import { randomBytes } from 'node:crypto';
 import { existsSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs';
 import { join, resolve } from 'node:path';
+import { DEFAULT_CREW_COMMAND_LIMITS, type CrewCommandLimits } from './limits';
 
 export interface Config {
   port: number;
@@ -19,6 +20,15 @@ export interface Config {
   logLevel: string;
   dev: boolean;
   seedDemo: boolean;
+  /** Pre-alerts and updates a minute, per account and per unit (server/limits.ts). */
+  crewCommandLimits: CrewCommandLimits;
+}
+
+function perMinute(value: string | undefined, name: string, fallback: number): number {
+  if (value === undefined || value === '') return fallback;
+  const n = Number(value);
+  if (!Number.isInteger(n) || n < 1) throw new Error(`${name} must be a whole number of at least 1, got "${value}"`);
+  return n;
 }
 
 function readSecret(dataDir: string): string {
@@ -57,6 +67,10 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env, overrides: Part
     logLevel: env.LOG_LEVEL || (env.NODE_ENV === 'test' ? 'silent' : 'info'),
     dev: false,
     seedDemo: env.SEED_DEMO !== 'false',
+    crewCommandLimits: {
+      perAccountPerMinute: perMinute(env.CREW_COMMANDS_PER_MINUTE, 'CREW_COMMANDS_PER_MINUTE', DEFAULT_CREW_COMMAND_LIMITS.perAccountPerMinute),
+      perUnitPerMinute: perMinute(env.UNIT_COMMANDS_PER_MINUTE, 'UNIT_COMMANDS_PER_MINUTE', DEFAULT_CREW_COMMAND_LIMITS.perUnitPerMinute),
+    },
     ...overrides,
   };
 }

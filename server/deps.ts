@@ -6,6 +6,7 @@ import type { Mailer } from './mail';
 import type { SmsSender } from './sms';
 import type { RealtimeServer } from './realtime';
 import type { CatchUpLane } from './realtime/catch-up';
+import type { LimiterStore } from './limits';
 
 export interface Clock { now(): number }
 export const systemClock: Clock = { now: () => Date.now() };
@@ -26,4 +27,6 @@ export interface AppDeps {
   io: RealtimeServer;
   /** Where reconnecting clients' catch-up work waits, behind pre-alerts (realtime/catch-up.ts). */
   catchUp: CatchUpLane;
+  /** Where rate limits count; the memory store unless a shared one is given (server/limits.ts). */
+  limiterStore?: LimiterStore;
 }

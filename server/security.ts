@@ -32,6 +32,12 @@ export function securityHeaders(opts: { secure: boolean; extraFormActions: strin
   });
 }
 
+/** The origin of a Referer header; undefined when there is none or it is not a URL. */
+function originOf(referer: string | undefined): string | undefined {
+  if (!referer || !URL.canParse(referer)) return undefined;
+  return new URL(referer).origin;
+}
+
 const SAFE_METHODS = new Set(['GET', 'HEAD', 'OPTIONS']);
 
 /** Refuses a state-changing request that did not come from a page of this site. */
@@ -40,7 +46,7 @@ export function sameOriginOnly(publicOrigin: string, bearerOnlyPaths: readonly s
     if (SAFE_METHODS.has(req.method)) return next();
     // Routes for machine clients take only a bearer token, which a browser never sends on its own, and never read the session.
     if (bearerOnlyPaths.includes(req.baseUrl + req.path)) return next();
-    const origin = req.get('origin') ?? (req.get('referer') ? new URL(req.get('referer')!).origin : undefined);
+    const origin = req.get('origin') ?? originOf(req.get('referer'));
     if (origin === publicOrigin) return next();
     next(new AppError(403, 'cross_site', 'This request did not come from a Plumbline page.'));
   };

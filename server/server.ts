@@ -11,6 +11,7 @@ import { systemClock, type AppDeps, type Clock } from './deps';
 import { createSessionMiddleware } from './auth/session';
 import { createLocalIdp } from './idp/provider';
 import { machineAudienceOf } from './exchange/machine-auth';
+import type { LimiterStore } from './limits';
 import { createMailer, type Mailer } from './mail';
 import { createSmsSender, type SmsSender } from './sms';
 import { recordingMailer } from './services/messages';
@@ -55,6 +56,8 @@ export interface StartOptions {
   dev?: boolean;
   /** Run the timed jobs (escalation); tests that need them drive them by hand on a fake clock. */
   backgroundJobs?: boolean;
+  /** Where rate limits count; this process's memory unless a shared store is given. */
+  limiterStore?: LimiterStore;
 }
 
 /** Starts the whole product in this process: database, identity provider, mail, HTTP and sockets. */
@@ -101,7 +104,7 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
   const sessionMiddleware = createSessionMiddleware({ db, secret: config.sessionSecret, secure: publicUrl.startsWith('https://') });
   const catchUp = catchUpLane();
   const io = createRealtime({ httpServer: http, sessionMiddleware, db, logger, publicOrigin: new URL(publicUrl).origin, catchUp });
-  const deps: AppDeps = { config, db, logger, clock, mailer: recordingMailer(mailer, db, clock, logger), sms, publicUrl, sessionMiddleware, io, catchUp };
+  const deps: AppDeps = { config, db, logger, clock, mailer: recordingMailer(mailer, db, clock, logger), sms, publicUrl, sessionMiddleware, io, catchUp, limiterStore: opts.limiterStore };
   attachSocketFeatures(io, socketFeatures(deps));
 
   const idp = config.oidc.issuer

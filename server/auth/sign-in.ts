@@ -6,6 +6,8 @@ import { Role } from '../../shared/roles';
 import { findUserByEmail } from '../services/users';
 import { messagePage } from '../idp/pages';
 import { SESSION_COOKIE } from './session';
+import type { RealtimeServer } from '../realtime';
+import { disconnectSession } from '../realtime/session-follow';
 
 export interface SignInOptions {
   db: Knex;
@@ -14,6 +16,8 @@ export interface SignInOptions {
   issuer: string;
   clientId: string;
   clientSecret: string;
+  /** The sockets opened with a session close as it signs out. */
+  io?: RealtimeServer;
 }
 
 /** Only a path on this site may be a place to return to after sign-in. */
@@ -103,6 +107,7 @@ export function createSignInRouter(opts: SignInOptions): Router {
 
   router.post('/auth/logout', async (req, res) => {
     const idToken = req.session?.idToken;
+    if (opts.io) disconnectSession(opts.io, req.sessionID);
     await new Promise<void>((resolve) => (req.session ? req.session.destroy(() => resolve()) : resolve()));
     res.clearCookie(SESSION_COOKIE);
     const config = await configuration();

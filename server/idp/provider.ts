@@ -3,11 +3,12 @@ import { existsSync, readFileSync, writeFileSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import express, { Router, type Request, type Response } from 'express';
-import rateLimit from 'express-rate-limit';
-import Provider, { errors, type Configuration, type KoaContextWithOIDC } from 'oidc-provider';
+import Provider, { errors, interactionPolicy, type Configuration, type KoaContextWithOIDC } from 'oidc-provider';
 import type { Knex } from 'knex';
 import type { Logger } from 'pino';
 import { verifyPassword } from '../auth/passwords';
+import { signInThrottle, type SignInThrottle } from '../auth/sign-in-throttle';
+import { waitText } from '../limits';
 import { findUserByEmail, findUserById } from '../services/users';
 import { messagePage, signInPage, signOutPage } from './pages';
 import { identityStoreFor } from './store';
@@ -20,9 +21,10 @@ export interface LocalIdpOptions {
   cookieSecret: string;
   clock: { now(): number };
   client: { id: string; secret: string; redirectUri: string; postLogoutRedirectUri: string };
-  signInAttemptsPerWindow?: number;
   /** Where machine clients' access tokens are good: the API's address, the tokens' audience. */
   machineAudience: string;
+  /** Failed sign-ins per account, per account and address, and per address (auth/sign-in-throttle.ts). */
+  throttle?: SignInThrottle;
 }
 
 /** The one scope a machine client is given: sending pre-alerts for its agency. */
@@ -46,6 +48,21 @@ function signingKeys(dataDir: string) {
   const jwk = { ...privateKey.export({ format: 'jwk' }), use: 'sig', alg: 'RS256', kid: `plumbline-${Date.now()}` };
   writeFileSync(file, JSON.stringify({ keys: [jwk] }), { mode: 0o600 });
   return { keys: [jwk] };
+}
+
+/**
+ * The provider's prompts, with one more reason to ask for the password: a provider session whose
+ * person is no longer active (deactivated while it lived) goes back to the sign-in page, which
+ * refuses them plainly, instead of failing further on.
+ */
+function signInPolicy() {
+  const { Check } = interactionPolicy;
+  const policy = interactionPolicy.base();
+  policy.get('login')!.checks.add(
+    new Check('account_inactive', 'The signed-in account is no longer active', (ctx) => (ctx.oidc.session?.accountId && !ctx.oidc.account ? Check.REQUEST_PROMPT : Check.NO_NEED_TO_PROMPT)),
+    0,
+  );
+  return policy;
 }
 
 /** The identity provider that runs inside Plumbline when no outside issuer is configured. */
@@ -94,13 +111,18 @@ export function createLocalIdp(opts: LocalIdpOptions): { provider: Provider; rou
         },
       },
     },
-    interactions: { url: (_ctx, interaction) => `/idp/interaction/${interaction.uid}` },
+    interactions: { policy: signInPolicy(), url: (_ctx, interaction) => `/idp/interaction/${interaction.uid}` },
+    // Only the authorization-code flow (with PKCE, above): no implicit or hybrid response types,
+    // which hand tokens to the browser's address bar (RFC 9700, section 2.1.2).
+    responseTypes: ['code'],
+    // Plumbline reads the tokens once, at sign-in, and keeps its own session after that: they
+    // need to live only long enough for that exchange.
     ttl: {
-      AccessToken: 3600,
+      AccessToken: 300,
       ClientCredentials: MACHINE_TOKEN_SECONDS,
-      AuthorizationCode: 120,
-      IdToken: 3600,
-      Interaction: 1800,
+      AuthorizationCode: 60,
+      IdToken: 300,
+      Interaction: 900,
       Session: 12 * 3600,
       Grant: 12 * 3600,
     },
@@ -125,15 +147,7 @@ export function createLocalIdp(opts: LocalIdpOptions): { provider: Provider; rou
   router.use('/idp-assets/fonts', express.static(fontFiles, { immutable: true, maxAge: '365d' }));
   router.use('/idp-assets', express.static(join(here, 'assets'), { maxAge: '1h' }));
 
-  const attempts = rateLimit({
-    windowMs: 10 * 60_000,
-    limit: opts.signInAttemptsPerWindow ?? 20,
-    standardHeaders: 'draft-8',
-    legacyHeaders: false,
-    handler: (_req, res) => {
-      res.status(429).type('html').send(messagePage('Too many attempts', 'Too many sign-in attempts from this device. Wait a few minutes and try again.'));
-    },
-  });
+  const throttle = opts.throttle ?? signInThrottle();
 
   const noStore = (_req: Request, res: Response, next: () => void) => {
     res.set('Cache-Control', 'no-store');
@@ -160,7 +174,7 @@ export function createLocalIdp(opts: LocalIdpOptions): { provider: Provider; rou
     }
   });
 
-  router.post('/idp/interaction/:uid/login', noStore, attempts, express.urlencoded({ extended: false, limit: '4kb' }), async (req, res, next) => {
+  router.post('/idp/interaction/:uid/login', noStore, express.urlencoded({ extended: false, limit: '4kb' }), async (req, res, next) => {
     try {
       const details = await provider.interactionDetails(req, res);
       const email = String(req.body?.email ?? '').trim();
@@ -170,11 +184,20 @@ export function createLocalIdp(opts: LocalIdpOptions): { provider: Provider; rou
         res.status(400).type('html').send(signInPage({ action, email, demo: true, error: !email ? 'Enter your email address.' : 'Enter your password.' }));
         return;
       }
+      const address = req.ip ?? 'unknown';
+      const wait = await throttle.waitMs(email, address);
+      if (wait > 0) {
+        res.status(429).set('Retry-After', String(Math.ceil(wait / 1000))).type('html')
+          .send(signInPage({ action, email, demo: true, error: `Too many failed sign-ins for this account. Wait ${waitText(wait)} and try again, or ask your administrator to reset your password.` }));
+        return;
+      }
       const user = await findUserByEmail(db, email);
       if (!user || !user.active || !(await verifyPassword(password, user.password_hash))) {
+        await throttle.failed(email, address);
         res.status(401).type('html').send(signInPage({ action, email, demo: true, error: 'That email and password do not match an active account.' }));
         return;
       }
+      await throttle.succeeded(email, address);
       await provider.interactionFinished(req, res, { login: { accountId: String(user.id) } }, { mergeWithLastSubmission: false });
     } catch (err) {
       next(err);

@@ -55,3 +55,14 @@ export function identityStoreFor(db: Knex, clock: { now(): number }): new (model
     }
   };
 }
+
+/**
+ * Ends what the built-in provider holds for a person: its sign-in sessions (which would let the
+ * next sign-in skip the password), grants and any tokens. Answers how many sessions ended.
+ */
+export async function endIdentitySessionsOf(db: Knex, userId: number): Promise<number> {
+  const accountOf = db.client.config.client === 'pg' ? "(payload::json->>'accountId')" : "json_extract(payload, '$.accountId')";
+  const sessions = await db('identity_store').where({ model: 'Session' }).whereRaw(`${accountOf} = ?`, [String(userId)]).delete();
+  await db('identity_store').whereIn('model', ['Grant', 'AccessToken', 'AuthorizationCode', 'RefreshToken']).whereRaw(`${accountOf} = ?`, [String(userId)]).delete();
+  return sessions;
+}

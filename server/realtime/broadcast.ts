@@ -2,6 +2,7 @@ import type { Logger } from 'pino';
 import type { CaseSummary } from '../../shared/schemas/cases';
 import { roomOfAgency, roomOfHospital, type CaseChange } from '../../shared/realtime/events';
 import type { CatchUpLane } from './catch-up';
+import { crewView } from '../services/crew';
 import type { RealtimeServer } from './index';
 
 /** What an announcement needs: the socket server, the lane the crews' copies wait in, and where a failed copy is logged. */
@@ -18,10 +19,12 @@ export interface Announcer { io: RealtimeServer; catchUp: CatchUpLane; logger: L
  */
 export function announceCase({ io, catchUp, logger }: Announcer, summary: CaseSummary, change: CaseChange | 'submitted'): void {
   const boards = roomOfHospital(summary.hospital.id);
-  const send = (to: ReturnType<RealtimeServer['to']>) => (change === 'submitted' ? to.emit('case:submitted', summary) : to.emit('case:updated', summary, change));
-  send(io.to(boards));
-  // A person in both rooms (a nurse who is also a crew member) has had the boards' copy.
-  catchUp.run(() => send(io.to(roomOfAgency(summary.agency.id)).except(boards))).catch((err: unknown) => logger.error({ err, caseId: summary.id }, "the crews' copy of a change could not be sent"));
+  const send = (to: ReturnType<RealtimeServer['to']>, copy: CaseSummary) => (change === 'submitted' ? to.emit('case:submitted', copy) : to.emit('case:updated', copy, change));
+  send(io.to(boards), summary);
+  // A person in both rooms (a nurse who is also a crew member) has had the boards' copy. The
+  // crews' copy leaves out what only the hospital reads.
+  const crews = crewView(summary);
+  catchUp.run(() => send(io.to(roomOfAgency(summary.agency.id)).except(boards), crews)).catch((err: unknown) => logger.error({ err, caseId: summary.id }, "the crews' copy of a change could not be sent"));
 }
 
 export function announceRemoved({ io }: Announcer, hospitalId: number, summary: CaseSummary, reason: string): void {

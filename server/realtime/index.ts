@@ -7,9 +7,17 @@ import type { Me } from '../../shared/roles';
 import { roomOfAgency, roomOfHospital, roomOfUser, type ClientToServerEvents, type ServerToClientEvents } from '../../shared/realtime/events';
 import { loadMe } from '../auth/guards';
 import { AppError } from '../errors';
+import { RateLimited } from '../limits';
 import type { CatchUpLane } from './catch-up';
+import { sweepEndedSessions } from './session-follow';
 
-export interface SocketData { me: Me }
+export interface SocketData {
+  me: Me;
+  /** The session the socket was opened with: it ends with it (session-follow.ts). */
+  sid?: string;
+  /** Roles an outside issuer claimed at sign-in, kept so a re-read of the person keeps them. */
+  claimedRoles?: Me['roles'];
+}
 export type RealtimeServer = Server<ClientToServerEvents, ServerToClientEvents, Record<string, never>, SocketData>;
 export type RealtimeSocket = Socket<ClientToServerEvents, ServerToClientEvents, Record<string, never>, SocketData>;
 
@@ -23,7 +31,8 @@ export function roomsOf(me: Me): string[] {
 /** Only allow-listed error details reach a client; anything else is logged and answered generically. */
 export function ackError(err: unknown, logger: Logger) {
   if (err instanceof AppError) {
-    return { ok: false as const, error: { code: err.code, message: err.message, ...(err.issues?.[0] ? { field: err.issues[0].field, issues: err.issues } : {}) } };
+    const wait = err instanceof RateLimited ? { retryAfterMs: err.retryAfterMs } : {};
+    return { ok: false as const, error: { code: err.code, message: err.message, ...wait, ...(err.issues?.[0] ? { field: err.issues[0].field, issues: err.issues } : {}) } };
   }
   logger.error({ err }, 'socket handler failed');
   return { ok: false as const, error: { code: 'internal', message: 'Something went wrong on our side. It has been logged.' } };
@@ -50,17 +59,21 @@ export function createRealtime(opts: {
   });
   io.engine.use(opts.catchUp.wrap(opts.sessionMiddleware));
   io.use(async (socket, next) => {
-    const request = socket.request as IncomingMessage & { session?: { userId?: number; claimedRoles?: Me['roles'] } };
+    const request = socket.request as IncomingMessage & { sessionID?: string; session?: { userId?: number; claimedRoles?: Me['roles'] } };
     try {
       const me = await opts.catchUp.run(() => loadMe(opts.db, request.session?.userId, request.session?.claimedRoles));
       if (!me) return next(new Error('unauthenticated'));
       socket.data.me = me;
+      socket.data.sid = request.sessionID;
+      socket.data.claimedRoles = request.session?.claimedRoles;
       next();
     } catch (err) {
       opts.logger.error({ err }, 'socket authentication failed');
       next(new Error('unauthenticated'));
     }
   });
+  const stopSweep = sweepEndedSessions(io, opts.db, opts.logger);
+  opts.httpServer.once('close', stopSweep);
   io.on('connection', (socket) => {
     const rooms = roomsOf(socket.data.me);
     socket.join(rooms);

@@ -7,6 +7,8 @@ import { parseOr400 } from '../errors';
 import { CaseIdParam } from './params';
 import { caseEvents, caseForReader, caseRevisions, caseSummary, listCaseSummariesJson } from '../services/cases';
 import { sendJsonText } from './json-text';
+import { crewEvents, crewView, readsAsCrew } from '../services/crew';
+import type { CaseSummary } from '../../shared/schemas/cases';
 
 export const CaseListQuery = z.object({ state: z.enum(['open', 'all']).default('open') });
 const CaseId = CaseIdParam;
@@ -21,14 +23,24 @@ export function casesRouter({ db, clock, catchUp }: AppDeps): Router {
     const me = req.me!;
     // A crew's screen reloads after every connection that did not recover: in the catch-up lane, behind pre-alerts.
     await catchUp.run(async () => {
-      const cases = await listCaseSummariesJson(db, { hospitalIds: hospitalIdsOf(me), agencyIds: agencyIdsOf(me), states: state === 'open' ? OPEN_STATES : undefined });
-      sendJsonText(res, `{"cases":${cases},"at":${clock.now()}}`);
+      const filter = { hospitalIds: hospitalIdsOf(me), agencyIds: agencyIdsOf(me), states: state === 'open' ? OPEN_STATES : undefined };
+      if (!me.memberships.some((m) => m.kind === 'agency')) {
+        const cases = await listCaseSummariesJson(db, filter);
+        sendJsonText(res, `{"cases":${cases},"at":${clock.now()}}`);
+        return;
+      }
+      // A crew member reads their agency's cases as the crew sees them.
+      const cases = (JSON.parse(await listCaseSummariesJson(db, filter)) as CaseSummary[]).map((summary) => (readsAsCrew(me, summary) ? crewView(summary) : summary));
+      res.json({ cases, at: clock.now() });
     });
   });
   router.get('/api/cases/:id', requireUser(db), requireRole(...readers), async (req, res) => {
     const { id } = parseOr400(CaseId, req.params);
     await caseForReader(db, req.me!, id);
-    res.json({ case: await caseSummary(db, id), revisions: await caseRevisions(db, id), events: await caseEvents(db, id) });
+    const summary = await caseSummary(db, id);
+    const events = await caseEvents(db, id);
+    if (readsAsCrew(req.me!, summary)) res.json({ case: crewView(summary), revisions: await caseRevisions(db, id), events: crewEvents(events) });
+    else res.json({ case: summary, revisions: await caseRevisions(db, id), events });
   });
   return router;
 }

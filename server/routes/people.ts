@@ -3,7 +3,7 @@ import type { AppDeps } from '../deps';
 import { requireRole, requireUser } from '../auth/guards';
 import { conflict, parseOr400 } from '../errors';
 import { IdParam } from './params';
-import { roomOfUser } from '../../shared/realtime/events';
+import { disconnectSocketsOf, refreshSocketsOf } from '../realtime/session-follow';
 import { AgencyDestinations, AgencyFields, CreateUser, HospitalFields, SetPassword, UnitFields, UpdateHospital, UpdateUnit, UpdateUser } from '../../shared/schemas/people';
 import * as people from '../services/people';
 
@@ -15,16 +15,24 @@ export function peopleRouter({ db, clock, io, config }: AppDeps): Router {
   const admin = requireRole('admin');
   router.get('/api/people/users', user, admin, async (req, res) => res.json(await people.listPeople(db, req.me!)));
   router.post('/api/people/users', user, admin, async (req, res) => res.status(201).json(await people.createPerson(db, req.me!, parseOr400(CreateUser, req.body), clock.now())));
-  router.patch('/api/people/users/:id', user, admin, async (req, res) => res.json(await people.updatePerson(db, req.me!, idOf(req), parseOr400(UpdateUser, req.body), clock.now())));
+  router.patch('/api/people/users/:id', user, admin, async (req, res) => {
+    const person = await people.updatePerson(db, req.me!, idOf(req), parseOr400(UpdateUser, req.body), clock.now());
+    // Their open sockets take the new roles and places now, not at their next connection.
+    await refreshSocketsOf(io, db, person.id);
+    res.json(person);
+  });
   router.post('/api/people/users/:id/password', user, admin, async (req, res) => {
     if (config.oidc.issuer) throw conflict('Passwords are kept by your identity provider; set it there.');
-    res.json(await people.setPassword(db, req.me!, idOf(req), parseOr400(SetPassword, req.body).password, clock.now()));
+    const person = await people.setPassword(db, req.me!, idOf(req), parseOr400(SetPassword, req.body).password, clock.now());
+    // The reset ended their sessions; whoever held them loses the sockets too.
+    disconnectSocketsOf(io, person.id);
+    res.json(person);
   });
   router.post('/api/people/users/:id/reactivate', user, admin, async (req, res) => res.json(await people.setPersonActive(db, req.me!, idOf(req), true, clock.now())));
   router.post('/api/people/users/:id/deactivate', user, admin, async (req, res) => {
     const person = await people.setPersonActive(db, req.me!, idOf(req), false, clock.now());
     // Sessions are gone with the commit; an open socket would otherwise keep receiving the board.
-    io.in(roomOfUser(person.id)).disconnectSockets(true);
+    disconnectSocketsOf(io, person.id);
     res.json(person);
   });
 

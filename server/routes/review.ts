@@ -5,7 +5,7 @@ import type { AppDeps } from '../deps';
 import { assertHospital, requireRole, requireUser } from '../auth/guards';
 import { parseOr400 } from '../errors';
 import { IdParam } from './params';
-import { verifyAuditChain } from '../services/audit';
+import { auditChainFor } from '../services/audit-scope';
 import { complianceReport } from '../services/compliance';
 import { toCsv, type CsvColumn } from '../services/csv';
 import { allReviewCases, caseTimeline, closeDiscussion, discussionList, listReviewCases, reviewCase, REVIEW_READER_ROLES, REVIEWER_ROLES, scopeHospitals } from '../services/reviews';
@@ -62,7 +62,7 @@ export function reviewRouter({ db, clock }: AppDeps): Router {
   router.get('/api/review/discussion', user, readers, async (req, res) => res.json({ items: await discussionList(db, req.me!, parseOr400(HospitalQuery, req.query).hospitalId) }));
   router.post('/api/review/reviews/:id/close', user, reviewers, async (req, res) => res.json(await closeDiscussion(db, req.me!, idOf(req), parseOr400(CloseDiscussion, req.body ?? {}).outcome, clock.now())));
   router.get('/api/review/compliance', user, readers, async (req, res) => res.json(await complianceReport(db, req.me!, parseOr400(ComplianceQuery, req.query))));
-  router.get('/api/review/audit-chain', user, readers, async (_req, res) => res.json({ ...(await verifyAuditChain(db)), checkedAt: clock.now() }));
+  router.get('/api/review/audit-chain', user, readers, async (req, res) => res.json(await auditChainFor(db, req.me!, clock.now())));
   router.get('/api/review/settings', user, readers, async (req, res) => {
     const [hospitalId] = scopeHospitals(req.me!, parseOr400(HospitalQuery, req.query).hospitalId);
     res.json({ hospitalId, targetMinutes: await getSetting<number>(db, 'response.targetMinutes', hospitalId), compliance: await getSetting<number>(db, 'response.compliance', hospitalId) });

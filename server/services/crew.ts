@@ -1,7 +1,8 @@
 import type { Knex } from 'knex';
 import type { Me } from '../../shared/roles';
 import type { CrewDestinations } from '../../shared/schemas/crew';
-import { agencyIdsOf } from '../auth/guards';
+import type { CaseEventView, CaseSummary } from '../../shared/schemas/cases';
+import { agencyIdsOf, hospitalIdsOf } from '../auth/guards';
 import { forbidden } from '../errors';
 import { policyInForce } from './policies';
 
@@ -39,3 +40,26 @@ export async function crewDestinations(db: Knex, me: Me, at: number): Promise<Cr
     units: units.map((u) => ({ id: u.id, callSign: u.call_sign, agencyId: u.agency_id })),
   };
 }
+
+// ---- What a crew reads of a case
+
+/**
+ * A case as its crew sees it: the clinical content, the acknowledgement, the level decided and the
+ * bay. The nurse's reason for the level stays with the hospital; pages, escalations and reviews
+ * are not in a summary at all.
+ */
+export function crewView(summary: CaseSummary): CaseSummary {
+  return summary.decidedReason === null ? summary : { ...summary, decidedReason: null };
+}
+
+// The steps of a case a crew follows; pages (with their recipients), escalations and reviews
+// (with their comments) are the hospital's.
+const CREW_EVENT_KINDS = new Set(['received', 'revised', 'cancelled', 'redirected', 'acknowledged', 'level-decided', 'bay-assigned', 'arrived', 'team-at-bedside', 'closed']);
+
+/** The crew's timeline of a case: its steps, who took them and when, without what the hospital wrote. */
+export function crewEvents(events: CaseEventView[]): CaseEventView[] {
+  return events.filter((event) => CREW_EVENT_KINDS.has(event.kind)).map((event) => ({ ...event, data: null }));
+}
+
+/** Whether this reader sees the case only as its crew: through their agency, not its hospital. */
+export const readsAsCrew = (me: Me, summary: Pick<CaseSummary, 'hospital'>) => !hospitalIdsOf(me).includes(summary.hospital.id);

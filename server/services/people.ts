@@ -16,13 +16,15 @@ import {
 } from '../../shared/schemas/people';
 import { agencyIdsOf, assertAgency, assertHospital, hospitalIdsOf } from '../auth/guards';
 import { endSessionsOf } from '../auth/session';
+import { endIdentitySessionsOf } from '../idp/store';
 import { hashPassword } from '../auth/passwords';
 import { conflict, forbidden, invalid, notFound } from '../errors';
 import { appendAudit, type Actor } from './audit';
 import { membershipsOf, rolesOf } from './users';
 
-// People & places, scoped to the administrator's own hospitals and agencies: an admin sees and
-// changes only people who share one of their places, and only those places' records.
+// People & places, scoped to the administrator's own hospitals and agencies: an admin sees the
+// people who share one of their places, changes only those whose every place is theirs, and
+// changes only those places' records.
 
 const actorOf = (me: Me): Actor => ({ id: me.user.id, role: 'admin' });
 const isUniqueViolation = (err: unknown) => /UNIQUE constraint failed/.test(String((err as Error)?.message));
@@ -57,15 +59,33 @@ export async function listPeople(db: Knex, me: Me): Promise<PersonRow[]> {
   return Promise.all(rows.map((row) => describePerson(db, row)));
 }
 
-/** The person, if they share a place with the admin; anyone else is none of this admin's business. */
+/**
+ * The person, if every one of their places is one of the admin's own. Sharing one place is not
+ * enough: a hospital's administrator must not reset, rename or deactivate someone who also works
+ * for places they do not manage, such as the county-wide administrator.
+ */
 async function loadPerson(db: Knex, me: Me, userId: number): Promise<PersonRow> {
   const row = await db('users').where({ id: userId }).first('id', 'email', 'name', 'active');
   if (!row) throw notFound('That person');
   const person = await describePerson(db, row);
   const scope = scopeOf(me);
-  const shared = person.memberships.some((m) => (m.kind === 'hospital' ? scope.hospitals : scope.agencies).has(m.id));
-  if (!shared) throw forbidden('That person is not in one of your hospitals or agencies.');
+  const inScope = (m: PlaceRef) => (m.kind === 'hospital' ? scope.hospitals : scope.agencies).has(m.id);
+  if (!person.memberships.some(inScope)) throw forbidden('That person is not in one of your hospitals or agencies.');
+  if (!person.memberships.every(inScope)) throw forbidden('That person also works for a hospital or agency you do not manage; an administrator of all their places must make this change.');
   return person;
+}
+
+const sameSet = <T>(a: T[], b: T[]) => new Set(a).size === new Set(b).size && a.every((x) => b.includes(x));
+
+/** Nobody grants themselves a role or a place: the change needs a second administrator. */
+function assertNotOwnAccess(me: Me, userId: number, before: PersonRow, request: UpdateUser): void {
+  if (userId !== me.user.id) return;
+  if (request.roles && !sameSet(request.roles, before.roles)) {
+    throw forbidden('You cannot change your own roles; ask another administrator.');
+  }
+  if (request.memberships && !sameSet(request.memberships.map(placeKey), before.memberships.map(placeKey))) {
+    throw forbidden('You cannot change your own hospitals or agencies; ask another administrator.');
+  }
 }
 
 const membershipRow = (userId: number, place: PlaceRef) => ({ user_id: userId, hospital_id: place.kind === 'hospital' ? place.id : null, agency_id: place.kind === 'agency' ? place.id : null });
@@ -93,13 +113,19 @@ export async function createPerson(db: Knex, me: Me, request: CreateUser, at: nu
   return describePerson(db, (await db('users').where({ id }).first())!);
 }
 
-/** Sets the person's password for the built-in sign-in; the audit row records that it changed, never the value. */
+/**
+ * Sets the person's password for the built-in sign-in; the audit row records that it changed,
+ * never the value. Every session they hold ends with it, here and at the built-in identity
+ * provider, so whoever knew the old password is signed out; the caller disconnects their sockets.
+ */
 export async function setPassword(db: Knex, me: Me, userId: number, password: string, at: number): Promise<PersonRow> {
   const passwordHash = await hashPassword(password);
   await db.transaction(async (trx) => {
     await loadPerson(trx, me, userId);
     await trx('users').where({ id: userId }).update({ password_hash: passwordHash });
-    await appendAudit(trx, { at, actor: actorOf(me), action: 'user.password-set', entity: 'user', entityId: userId, after: { passwordSet: true } });
+    const sessionsEnded = await endSessionsOf(trx, userId);
+    const identitySessionsEnded = await endIdentitySessionsOf(trx, userId);
+    await appendAudit(trx, { at, actor: actorOf(me), action: 'user.password-set', entity: 'user', entityId: userId, after: { passwordSet: true, sessionsEnded, identitySessionsEnded } });
   });
   return describePerson(db, (await db('users').where({ id: userId }).first('id', 'email', 'name', 'active'))!);
 }
@@ -108,9 +134,7 @@ export async function updatePerson(db: Knex, me: Me, userId: number, request: Up
   if (request.memberships) assertPlaces(me, request.memberships);
   await db.transaction(async (trx) => {
     const before = await loadPerson(trx, me, userId);
-    if (userId === me.user.id && request.roles && !request.roles.includes('admin')) {
-      throw conflict('You cannot take the administrator role from yourself; ask another administrator.');
-    }
+    assertNotOwnAccess(me, userId, before, request);
     if (request.email && (await emailTaken(trx, request.email, userId))) throw conflict(`An account for ${request.email} already exists.`);
     const fields: Record<string, string> = {};
     if (request.email) fields.email = request.email;
@@ -146,9 +170,11 @@ export async function setPersonActive(db: Knex, me: Me, userId: number, active: 
     if (before.active === active) return;
     await trx('users').where({ id: userId }).update({ active });
     const sessionsEnded = active ? 0 : await endSessionsOf(trx, userId);
+    // The built-in provider's own session too: otherwise its next sign-in skips the password page.
+    const identitySessionsEnded = active ? 0 : await endIdentitySessionsOf(trx, userId);
     await appendAudit(trx, {
       at, actor: actorOf(me), action: active ? 'user.reactivated' : 'user.deactivated', entity: 'user', entityId: userId,
-      before: { active: before.active }, after: active ? { active } : { active, sessionsEnded },
+      before: { active: before.active }, after: active ? { active } : { active, sessionsEnded, identitySessionsEnded },
     });
   });
   return loadPerson(db, me, userId);

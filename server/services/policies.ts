@@ -45,6 +45,8 @@ export interface PolicyVersionRow {
   status: PolicyStatus;
   document: string;
   created_by: number | null;
+  /** Who last changed the draft; null on versions from before this was kept (their author then). */
+  changed_by: number | null;
   created_at: number;
   approved_by: number | null;
   approved_by_name: string | null;
@@ -191,7 +193,7 @@ export async function createDraft(db: Knex, me: Me, request: CreateDraft, at: nu
       effectiveFrom: null,
     };
     const [inserted] = await trx('policy_versions')
-      .insert({ hospital_id: request.hospitalId, policy_id: policyId, version, status: 'draft', document: JSON.stringify(document), created_by: me.user.id, created_at: at })
+      .insert({ hospital_id: request.hospitalId, policy_id: policyId, version, status: 'draft', document: JSON.stringify(document), created_by: me.user.id, changed_by: me.user.id, created_at: at })
       .returning('id');
     await appendAudit(trx, {
       at, actor: actorOf(me, 'admin'), action: 'policy.draft-created', entity: 'policy', entityId: inserted.id,
@@ -212,7 +214,7 @@ export async function saveDraft(db: Knex, me: Me, versionId: number, edit: SaveD
     const local = settleDraftCriteria(edit, row.policy_id, row.version, hospital?.name ?? 'this hospital');
     const check = validatePolicy({ ...before, name: edit.name, note: edit.note, levels: edit.levels, rules: local.rules, localCriteria: local.localCriteria });
     if (!check.ok) throw invalid(check.issues);
-    await trx('policy_versions').where({ id: versionId }).update({ document: JSON.stringify(check.policy) });
+    await trx('policy_versions').where({ id: versionId }).update({ document: JSON.stringify(check.policy), changed_by: me.user.id });
     await appendAudit(trx, {
       at, actor: actorOf(me, 'admin'), action: 'policy.draft-saved', entity: 'policy', entityId: versionId,
       before: { name: before.name, levels: before.levels, rules: before.rules, localCriteria: before.localCriteria ?? [] },
@@ -232,12 +234,18 @@ export async function discardDraft(db: Knex, me: Me, versionId: number, at: numb
   });
 }
 
-/** Only a trauma lead of the version's own hospital approves, and the approval names them. */
+/**
+ * Only a trauma lead of the version's own hospital approves, and the approval names them. Two
+ * people stand behind every version in force: its author and its last editor may not approve it.
+ */
 export async function approveVersion(db: Knex, me: Me, versionId: number, request: ApproveVersion, at: number): Promise<PolicyVersionDetail> {
   if (!hasRole(me, 'trauma_lead')) throw forbidden('Only a trauma lead approves a policy version.');
   await db.transaction(async (trx) => {
     const row = await loadVersion(trx, me, versionId);
     if (row.status !== 'draft') throw conflict(`Version ${row.version} is ${row.status}; only a draft can be approved.`);
+    if (row.created_by === me.user.id || (row.changed_by ?? row.created_by) === me.user.id) {
+      throw forbidden('You drafted or last changed this version; another trauma lead must approve it.');
+    }
     // Saved drafts were checked, but the catalog may have changed since: check again before it can go live.
     const check = validatePolicy({ ...JSON.parse(row.document), approvedBy: me.user.name });
     if (!check.ok) throw invalid(check.issues);

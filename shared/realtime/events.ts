@@ -4,7 +4,10 @@ import type { PagingStatus } from '../schemas/paging';
 import type { CaseCancel, CaseRedirect, CaseSummary, PreAlert, PreAlertUpdate } from '../schemas/cases';
 
 export type Ack<T> = (response: AckResponse<T>) => void;
-export type AckResponse<T> = { ok: true; data: T } | { ok: false; error: { code: string; message: string; field?: string; issues?: { field: string; message: string }[] } };
+export type AckResponse<T> =
+  | { ok: true; data: T }
+  /** retryAfterMs: with code rate_limited, when the same command will be taken again. */
+  | { ok: false; error: { code: string; message: string; field?: string; issues?: { field: string; message: string }[]; retryAfterMs?: number } };
 
 export interface SessionReady {
   userId: number;

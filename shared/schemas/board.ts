@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { safeText } from './text';
 import { LEVEL_IDS, type LevelId } from '../triage/policy';
 import type { CaseSummary } from './cases';
 
@@ -13,7 +14,7 @@ const rowVersion = z
 /** A time the nurse records after the fact ("arrived 03:12"); absent means now. */
 const pastTime = z.number({ error: 'must be a time (milliseconds since 1970)' }).int({ error: 'must be whole milliseconds' }).positive({ error: 'must be a time' });
 
-const reason = z.string({ error: 'must be text' }).trim().max(500, { error: 'must be at most 500 characters' });
+const reason = safeText({ max: 500, min: 0 });
 
 export const BoardAcknowledge = z.object({ rowVersion });
 export type BoardAcknowledge = z.infer<typeof BoardAcknowledge>;
@@ -31,7 +32,7 @@ export const REASON_MIN = 3;
 
 export const BoardBay = z.object({
   rowVersion,
-  bay: z.string({ error: 'must be text' }).trim().min(1, { error: 'must name the bay' }).max(40, { error: 'must be at most 40 characters' }),
+  bay: safeText({ max: 40, tooShort: 'must name the bay' }),
 });
 export type BoardBay = z.infer<typeof BoardBay>;
 

@@ -1,5 +1,6 @@
 import { z } from 'zod';
 import { ClinicalInput } from './clinical';
+import { safeText } from './text';
 import type { Evaluation } from '../triage/evaluate';
 import type { LevelId } from '../triage/policy';
 
@@ -9,8 +10,8 @@ export const OPEN_STATES: readonly CaseState[] = ['en-route', 'acknowledged', 'a
 
 const id = (what: string) => z.number({ error: `must be the ${what}'s number` }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' });
 const eta = z.number({ error: 'must be a number of minutes' }).int({ error: 'must be whole minutes' }).min(0, { error: 'must be at least 0' }).max(600, { error: 'must be at most 600 minutes' });
-const notes = z.string({ error: 'must be text' }).max(2000, { error: 'must be at most 2000 characters' });
-const reason = z.string({ error: 'must be text' }).trim().min(3, { error: 'needs a few words' }).max(500, { error: 'must be at most 500 characters' });
+const notes = safeText({ max: 2000, min: 0, lines: true });
+const reason = safeText({ max: 500, min: 3, tooShort: 'needs a few words' });
 
 /**
  * A new pre-alert from the ambulance; clientId is made in the browser so a retry is harmless.

@@ -1,10 +1,11 @@
 import { z } from 'zod';
 import { Role } from '../roles';
+import { safeText } from './text';
 
 // Requests of the People & places screen.
 
 const id = z.number({ error: 'must be a number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' });
-const text = (max: number) => z.string({ error: 'must be text' }).trim().min(1, { error: 'must not be empty' }).max(max, { error: `must be at most ${max} characters` });
+const text = (max: number) => safeText({ max });
 
 /** Names the bad entry itself, so a person finds it in a long list. */
 export const EmailAddress = z

@@ -1,4 +1,6 @@
 import { z } from 'zod';
+import { safeText } from './text';
+import { boundedTime } from './dates';
 import { PolicyLevel, PolicyRule } from '../triage/policy';
 import { LocalCondition, LocalCriterionDraft } from '../triage/local-criteria';
 import type { LooseningWarning } from '../triage/loosening';
@@ -19,8 +21,8 @@ export const CreateDraft = z.object({
 export type CreateDraft = z.infer<typeof CreateDraft>;
 
 export const SaveDraft = z.object({
-  name: z.string({ error: 'must be text' }).trim().min(1, { error: 'must not be empty' }).max(200, { error: 'must be at most 200 characters' }),
-  note: z.string({ error: 'must be text' }).max(2000, { error: 'must be at most 2000 characters' }).optional(),
+  name: safeText({ max: 200 }),
+  note: safeText({ max: 2000, min: 0, lines: true }).optional(),
   levels: z.array(PolicyLevel, { error: 'must be a list' }),
   rules: z.array(PolicyRule, { error: 'must be a list' }),
   /** The hospital's own criteria; rules name a new one by the id the form gave it. */
@@ -57,8 +59,8 @@ export interface LocalPreview {
 export type { LooseningWarning };
 
 export const PublishVersion = z.object({
-  /** Milliseconds since the epoch; now when left out. */
-  effectiveFrom: z.number({ error: 'must be a time' }).int({ error: 'must be a whole number of milliseconds' }).positive().optional(),
+  /** Milliseconds since the epoch, within 2000–2100; now when left out. */
+  effectiveFrom: boundedTime.optional(),
 });
 export type PublishVersion = z.infer<typeof PublishVersion>;
 

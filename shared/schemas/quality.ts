@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { boundedDate, spanIssue, withinMaxSpan } from './dates';
 import type { Interval, OutcomeStandard } from '../quality';
 import { ISS_REGIONS, type IssRegion } from '../quality/iss';
 import type { LevelId } from '../triage/policy';
@@ -157,7 +158,7 @@ export function isTimeZoneName(name: string): boolean {
   }
 }
 
-const isoDate = z.iso.date({ error: 'must be a date (YYYY-MM-DD)' });
+const isoDate = boundedDate;
 const positiveId = (what: string) => z.coerce.number({ error: `must be ${what}` }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' });
 
 const reportShape = {
@@ -172,7 +173,7 @@ const reportShape = {
 const inOrder = (q: { from: string; to: string }) => q.from <= q.to;
 const orderIssue = { error: 'must be on or after the start date', path: ['to'] };
 
-export const ReportQuery = z.object(reportShape).refine(inOrder, orderIssue);
+export const ReportQuery = z.object(reportShape).refine(inOrder, orderIssue).refine(withinMaxSpan, spanIssue);
 export type ReportQuery = z.infer<typeof ReportQuery>;
 export type ReportRequest = z.input<typeof ReportQuery>;
 
@@ -189,7 +190,7 @@ export const DrilldownQuery = z
     band: z.enum(HEIGHT_BAND_IDS, { error: `must be one of: ${HEIGHT_BAND_IDS.join(', ')}` }).optional(),
     criterion: z.string().max(100).optional(),
   })
-  .refine(inOrder, orderIssue);
+  .refine(inOrder, orderIssue).refine(withinMaxSpan, spanIssue);
 export type DrilldownQuery = z.infer<typeof DrilldownQuery>;
 export type DrilldownRequest = z.input<typeof DrilldownQuery>;
 
@@ -303,7 +304,7 @@ export const WhatIfRequest = z
     /** The policy in force now, or a version of the hospital's policy by its id. */
     policy: z.union([z.literal('in-force'), z.number({ error: 'must be a policy version number' }).int().positive()], { error: 'must be in-force or a policy version number' }),
   })
-  .refine(inOrder, orderIssue);
+  .refine(inOrder, orderIssue).refine(withinMaxSpan, spanIssue);
 export type WhatIfRequest = z.input<typeof WhatIfRequest>;
 export type WhatIfQuery = z.infer<typeof WhatIfRequest>;
 

@@ -1,4 +1,6 @@
 import { z } from 'zod';
+import { safeText } from './text';
+import { boundedDate, spanIssue, withinMaxSpan } from './dates';
 import { LEVEL_IDS, type LevelId } from '../triage/policy';
 import type { CaseState, CaseSummary, CaseEventView } from './cases';
 import type { Evaluation } from '../triage/evaluate';
@@ -15,7 +17,7 @@ export type CaseReviewState = (typeof CASE_REVIEW_STATES)[number];
 export const REVIEW_SORT_KEYS = ['createdAt', 'caseNumber', 'hospital', 'recommended', 'decided', 'state', 'ackMinutes', 'teamMinutes', 'review'] as const;
 export type ReviewSortKey = (typeof REVIEW_SORT_KEYS)[number];
 
-const isoDate = z.iso.date({ error: 'must be a date (YYYY-MM-DD)' });
+const isoDate = boundedDate;
 const flag = z.stringbool({ error: 'must be true or false' }).optional().default(false);
 const whole = (min: number, max: number) =>
   z.coerce.number({ error: 'must be a number' }).int({ error: 'must be a whole number' }).min(min, { error: `must be at least ${min}` }).max(max, { error: `must be at most ${max}` });
@@ -51,7 +53,7 @@ const filterShape = {
     slowTeam: flag,
     review: z.enum(CASE_REVIEW_STATES, { error: `must be one of: ${CASE_REVIEW_STATES.join(', ')}` }).optional(),
 };
-export const ReviewFilters = z.object(filterShape).refine(rangeInOrder, rangeIssue);
+export const ReviewFilters = z.object(filterShape).refine(rangeInOrder, rangeIssue).refine(withinMaxSpan, spanIssue);
 export type ReviewFilters = z.infer<typeof ReviewFilters>;
 
 export const ReviewListQuery = z
@@ -62,17 +64,19 @@ export const ReviewListQuery = z
     page: whole(1, 100_000).default(1),
     pageSize: whole(5, 100).default(25),
   })
-  .refine(rangeInOrder, rangeIssue);
+  .refine(rangeInOrder, rangeIssue)
+  .refine(withinMaxSpan, spanIssue);
 export type ReviewListQuery = z.infer<typeof ReviewListQuery>;
 /** What the client asks for: every field may be left out and takes its default. */
 export type ReviewListRequest = Partial<ReviewListQuery>;
 
 export const ComplianceQuery = z
   .object({ ...range, hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }).optional() })
-  .refine(rangeInOrder, rangeIssue);
+  .refine(rangeInOrder, rangeIssue)
+  .refine(withinMaxSpan, spanIssue);
 export type ComplianceQuery = z.infer<typeof ComplianceQuery>;
 
-const comment = z.string({ error: 'must be text' }).trim().max(2000, { error: 'must be at most 2000 characters' });
+const comment = safeText({ max: 2000, min: 0, lines: true });
 export const SignOff = z.object({ comment: comment.optional() });
 export type SignOff = z.infer<typeof SignOff>;
 export const FlagForPeerReview = z.object({ comment: comment.min(3, { error: 'needs a few words on what the peer review should look at' }) });

@@ -1,5 +1,6 @@
 import { z } from 'zod';
 import { describeIssues, type FieldIssue } from '../schemas/issues';
+import { safeText } from '../schemas/text';
 import { findCriterion } from './catalog';
 import { FIELD_2021 } from './field-2021';
 import { LocalCriterion, checkLocalCriterion, registerLocalCriterion } from './local-criteria';
@@ -13,7 +14,7 @@ export const LEVEL_IDS = ['full', 'limited', 'consult', 'none'] as const;
 export type LevelId = (typeof LEVEL_IDS)[number];
 export const LEVEL_RANK: Readonly<Record<LevelId, number>> = { full: 3, limited: 2, consult: 1, none: 0 };
 
-const text = (max: number) => z.string({ error: 'must be text' }).trim().min(1, { error: 'must not be empty' }).max(max, { error: `must be at most ${max} characters` });
+const text = (max: number) => safeText({ max });
 const levelId = z.enum(LEVEL_IDS, { error: `must be one of: ${LEVEL_IDS.join(', ')}` });
 
 export const PolicyLevel = z.object({ id: levelId, name: text(60) });

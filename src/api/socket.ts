@@ -35,7 +35,7 @@ export function getSocket(): PlumblineSocket {
 export const connection = { connected: readonly(connected), refused: readonly(refused), freshConnections: readonly(freshConnections) };
 
 export class SocketCommandError extends Error {
-  constructor(readonly code: string, message: string, readonly field?: string, readonly issues: { field: string; message: string }[] = []) {
+  constructor(readonly code: string, message: string, readonly field?: string, readonly issues: { field: string; message: string }[] = [], readonly retryAfterMs?: number) {
     super(message);
     this.name = 'SocketCommandError';
   }
@@ -50,7 +50,7 @@ export async function sendCommand<E extends keyof ClientToServerEvents, T>(event
   } catch {
     throw new SocketCommandError('timeout', 'No answer from the server in time.');
   }
-  if (!answer.ok) throw new SocketCommandError(answer.error.code, answer.error.message, answer.error.field, answer.error.issues);
+  if (!answer.ok) throw new SocketCommandError(answer.error.code, answer.error.message, answer.error.field, answer.error.issues, answer.error.retryAfterMs);
   return answer.data;
 }
 

@@ -35,6 +35,8 @@ const sendingId = ref<string | null>(null);
 const retryAt = ref<number | null>(null);
 const deliveries = ref<Delivery[]>([]);
 const storageError = ref<string | null>(null);
+/** The server's last "too many, wait" answer, shown to the crew until the next send gets through. */
+const heldBack = ref<string | null>(null);
 
 let userId: number | null = null;
 let failures = 0;
@@ -85,12 +87,19 @@ async function sendPass(): Promise<void> {
       const answer = await submitPreAlert(entry.payload);
       await removeEntry(entry.clientId);
       failures = 0;
+      heldBack.value = null;
       deliveries.value = [{ clientId: entry.clientId, caseId: answer.caseId, caseNumber: answer.caseNumber, hospital: answer.summary.hospital.name, title: entry.title, at: Date.now() }, ...deliveries.value].slice(0, 20);
       for (const listener of onDelivered) listener(answer);
     } catch (err) {
       if (err instanceof SocketCommandError && FINAL_CODES.has(err.code)) {
         entry.rejected = { code: err.code, message: err.message, ...(err.field ? { field: err.field } : {}) };
         await putEntry(entry);
+      } else if (err instanceof SocketCommandError && err.code === 'rate_limited') {
+        // Held back, not refused: the pre-alert stays here and goes when the server will take it.
+        failures += 1;
+        heldBack.value = err.message;
+        scheduleRetry(Math.max(err.retryAfterMs ?? 0, backoffMs(failures)));
+        return;
       } else {
         failures += 1;
         scheduleRetry(backoffMs(failures));
@@ -187,6 +196,7 @@ export function useOutbox() {
     retryAt: computed(() => retryAt.value),
     deliveries: computed(() => deliveries.value),
     storageError: computed(() => storageError.value),
+    heldBack: computed(() => heldBack.value),
     start,
     enqueue,
     retryNow,

@@ -149,7 +149,11 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
   const traffic = trafficOf(random);
   const dataDir = tempDataDir();
   const region = await prepareRegion(dataDir, { hospitals: opts.hospitals, paramedics: opts.crewSessions });
-  const server = await childServer({ dataDir });
+  // The run's ambulances share a few sign-ins (opts.crewSessions), so each sign-in carries the
+  // sends of many ambulances: its per-account limit is raised to what it is asked to carry, with
+  // room to spare. No send names a unit, so the per-unit limit does not apply.
+  const perSession = Math.ceil((opts.sendsPerSecond * 60) / opts.crewSessions) * 4;
+  const server = await childServer({ dataDir, env: { CREW_COMMANDS_PER_MINUTE: String(perSession) } });
   const sockets: ClientSocket[] = [];
   let screens: ReturnType<typeof boardScreens> | undefined;
   const started = now();

@@ -1,8 +1,11 @@
+import { randomUUID } from 'node:crypto';
 import { afterAll, beforeAll, expect, it } from 'vitest';
 import type { Browser, BrowserContext, Page } from 'playwright-core';
 import { announceCase } from '../../server/realtime/broadcast';
 import { caseSummary } from '../../server/services/cases';
 import { startTestServer, type TestServer } from '../support/server';
+import type { SignedInClient } from '../support/sign-in';
+import { command, connectAs } from '../support/socket';
 import { collectPageErrors, describeInBrowser, expectAccessible, launchBrowser, newSignedInPage, PHONE, screenshot } from './support/browser';
 
 // Check values: 2021 field-triage guideline (Newgard CD et al., 2022) [source] for the field
@@ -189,5 +192,28 @@ describeInBrowser('New pre-alert on a phone in Chromium', () => {
     await expectAccessible(page, 'New pre-alert after the outbox emptied');
     await screenshot(page, 'pre-alert-phone-delivered');
     expect(errors.filter((e) => !/ERR_INTERNET_DISCONNECTED|WebSocket|socket\.io|net::/.test(e))).toEqual([]);
+  });
+
+  it('over the account’s limit, the pre-alert stays on the device and the crew reads why and for how long', async () => {
+    // Another device of the same account (a second tablet, say) uses up this minute's pre-alerts.
+    const cookie = (await context.cookies(server.url)).map((c) => `${c.name}=${c.value}`).join('; ');
+    const other = await connectAs(server.url, { cookieHeader: async () => cookie } as unknown as SignedInClient);
+    // A fall from 4 m at 45 [source: Newgard 2022: over 10 ft] → moderate; any valid pre-alert will do.
+    const clinical = { ageYears: 45, sex: 'male', fall: { heightM: 4 } };
+    for (let i = 0; i < 40; i++) await command(other, 'case:submit', { clientId: randomUUID(), hospitalId: (await server.db('hospitals').first('id')).id, clinical });
+    other.close();
+    const before = await countCases();
+
+    await page.getByRole('tab', { name: 'Pre-alert form' }).click();
+    await fill('Age (years)', '67');
+    await choose('Sex', 'Female');
+    await fill('Fall height (ft)', '14');
+    await page.getByRole('button', { name: 'Send pre-alert' }).click();
+    await expect.poll(() => page.getByTestId('outbox-state').allTextContents()).toEqual([expect.stringMatching(/^Held back by the server — next try in \d+ s$/)]);
+    expect(await page.getByTestId('outbox-held-back').textContent()).toMatch(/^Too many pre-alerts and updates from your account \(at most 30 a minute\)\. It is kept on this device and sent again in \d+ s\.$/);
+    expect(await page.getByRole('button', { name: 'Fix in the form' }).count()).toBe(0);
+    expect(await countCases()).toBe(before);
+    await expectAccessible(page, 'New pre-alert held back by the rate limit');
+    await screenshot(page, 'pre-alert-phone-held-back');
   });
 });

@@ -468,6 +468,93 @@ describe('the session cookie', () => {
   });
 });
 
+describe('insiders on Alderwick’s own side', () => {
+  // Alderwick's own people, each acting within their role but beyond what it should give them: a
+  // hospital's administrator on the county's administrator, anyone on their own access, and the
+  // author of a policy on its approval.
+  const PASSWORD = 'a-long-test-password';
+  let community: number;
+  let countyAdminId: number;
+  let narrow: SignedInClient;
+  let narrowId: number;
+
+  const addPerson = async (email: string, roles: Role[], memberships: Array<{ kind: 'hospital' | 'agency'; id: number }>) => {
+    const created = await as.admin!.send('POST', '/api/people/users', { email, name: email.split('@')[0], roles, memberships });
+    expect(created.status).toBe(201);
+    const id = (await created.json()).id as number;
+    expect((await as.admin!.send('POST', `/api/people/users/${id}/password`, { password: PASSWORD })).status).toBe(200);
+    return { id, client: await signIn(server.url, email, PASSWORD) };
+  };
+
+  beforeAll(async () => {
+    community = (await server.db('hospitals').where({ short_name: 'Fenmoor Community' }).first('id')).id;
+    countyAdminId = (await server.db('users').where({ email: DEMO_EMAIL.admin }).first('id')).id;
+    ({ id: narrowId, client: narrow } = await addPerson('fenmoor.admin@plumbline.test', ['admin'], [{ kind: 'hospital', id: community }]));
+  });
+
+  it('a Fenmoor-only administrator cannot reset, re-address, rename or deactivate the county administrator, who works at Fenmoor too', async () => {
+    const before = await server.db('users').where({ id: countyAdminId }).first();
+    const answers = await Promise.all([
+      narrow.send('POST', `/api/people/users/${countyAdminId}/password`, { password: 'taken-over-password' }),
+      narrow.send('PATCH', `/api/people/users/${countyAdminId}`, { email: 'attacker@plumbline.test' }),
+      narrow.send('PATCH', `/api/people/users/${countyAdminId}`, { name: 'Locked Out' }),
+      narrow.send('PATCH', `/api/people/users/${countyAdminId}`, { roles: ['quality'] }),
+      narrow.send('POST', `/api/people/users/${countyAdminId}/deactivate`),
+    ]);
+    expect(answers.map((r) => r.status)).toEqual(Array(5).fill(403));
+    expect((await answers[0].json()).error.message).toBe('That person also works for a hospital or agency you do not manage; an administrator of all their places must make this change.');
+    expect(await server.db('users').where({ id: countyAdminId }).first()).toEqual(before);
+    expect((await (await signIn(server.url, DEMO_EMAIL.admin)).get('/api/me')).status).toBe(200);
+    // Someone wholly inside Fenmoor is theirs to manage.
+    const fenmoorNurse = (await server.db('users').where({ email: 'fenmoor.nurse@plumbline.test' }).first('id')).id;
+    const renamed = await narrow.send('PATCH', `/api/people/users/${fenmoorNurse}`, { name: 'Ilse Brannagh-Ode' });
+    expect(renamed.status).toBe(200);
+  });
+
+  it('nobody changes their own roles or places, while their name is still theirs to change', async () => {
+    const rolesBefore = await server.db('user_roles').where({ user_id: narrowId }).pluck('role');
+    const placesBefore = await server.db('memberships').where({ user_id: narrowId }).select('hospital_id', 'agency_id');
+    const grant = await narrow.send('PATCH', `/api/people/users/${narrowId}`, { roles: ['admin', 'trauma_lead'] });
+    expect(grant.status).toBe(403);
+    expect((await grant.json()).error.message).toBe('You cannot change your own roles; ask another administrator.');
+    // The county administrator may not widen or narrow their own places either.
+    const me = await (await as.admin!.get('/api/me')).json();
+    const fewer = me.memberships.slice(1).map((m: { kind: string; id: number }) => ({ kind: m.kind, id: m.id }));
+    const narrowed = await as.admin!.send('PATCH', `/api/people/users/${countyAdminId}`, { memberships: fewer });
+    expect(narrowed.status).toBe(403);
+    expect((await narrowed.json()).error.message).toBe('You cannot change your own hospitals or agencies; ask another administrator.');
+    expect((await as.admin!.send('PATCH', `/api/people/users/${countyAdminId}`, { roles: ['admin', 'trauma_lead'] })).status).toBe(403);
+    expect(await server.db('user_roles').where({ user_id: narrowId }).pluck('role')).toEqual(rolesBefore);
+    expect(await server.db('memberships').where({ user_id: narrowId }).select('hospital_id', 'agency_id')).toEqual(placesBefore);
+    // The whole form sent back unchanged, with a new name, is not a change of access.
+    const same = await narrow.send('PATCH', `/api/people/users/${narrowId}`, { name: 'Fenmoor Administrator', roles: ['admin'], memberships: [{ kind: 'hospital', id: community }] });
+    expect(same.status).toBe(200);
+  });
+
+  it('the author of a draft, or the last to change it, cannot approve it; another trauma lead can', async () => {
+    const { client: author } = await addPerson('fenmoor.lead.admin@plumbline.test', ['admin', 'trauma_lead'], [{ kind: 'hospital', id: community }]);
+    const drafted = await author.send('POST', '/api/policies', { hospitalId: community, from: 'example' });
+    expect(drafted.status).toBe(201);
+    const draft = await drafted.json();
+    const own = await author.send('POST', `/api/policies/${draft.id}/approve`);
+    expect(own.status).toBe(403);
+    expect((await own.json()).error.message).toBe('You drafted or last changed this version; another trauma lead must approve it.');
+    expect((await server.db('policy_versions').where({ id: draft.id }).first('status')).status).toBe('draft');
+
+    // A second trauma lead who is also an administrator edits it: now they are the last to change it.
+    const { client: editor } = await addPerson('fenmoor.editor@plumbline.test', ['admin', 'trauma_lead'], [{ kind: 'hospital', id: community }]);
+    const { name, note, levels, rules } = draft.document;
+    expect((await editor.send('PUT', `/api/policies/${draft.id}`, { name: `${name} (checked)`, note, levels, rules })).status).toBe(200);
+    expect((await editor.send('POST', `/api/policies/${draft.id}/approve`)).status).toBe(403);
+    expect((await author.send('POST', `/api/policies/${draft.id}/approve`)).status).toBe(403);
+
+    const { client: reviewer } = await addPerson('fenmoor.lead@plumbline.test', ['trauma_lead'], [{ kind: 'hospital', id: community }]);
+    const approved = await reviewer.send('POST', `/api/policies/${draft.id}/approve`);
+    expect(approved.status).toBe(200);
+    expect((await approved.json()).approvedByName).toBe('fenmoor.lead');
+  });
+});
+
 declare module 'express-session' {
   interface SessionData { returnProbe?: boolean }
 }

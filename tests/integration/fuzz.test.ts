@@ -6,6 +6,7 @@ import { BOARD_ACTIONS, BOARD_ACTION_SCHEMAS } from '../../shared/schemas/board'
 import { PreAlert, PreAlertUpdate } from '../../shared/schemas/cases';
 import { ClinicalInput, CONSIDERATIONS, FINDINGS, FIRST_IMPACT_REGIONS, SEXES, SURFACES } from '../../shared/schemas/clinical';
 import { CreateUser, HospitalFields } from '../../shared/schemas/people';
+import { cleanText, hasVisibleText } from '../../shared/schemas/text';
 import { Policy } from '../../shared/triage/policy';
 import { ResponseSettings } from '../../shared/schemas/review';
 import { OUTCOME_FILE_MAX_BYTES, TargetsInput } from '../../shared/schemas/quality';
@@ -30,7 +31,7 @@ let lead: SignedInClient;
 let quality: SignedInClient;
 let admin: SignedInClient;
 let crewSocket: TestSocket;
-let ids: { general: number; community: number; agency: number; unit: number; nurse: number; draft: number; liveCases: number[]; closedCases: number[] };
+let ids: { general: number; community: number; agency: number; unit: number; nurse: number; draft: number; draftDocument: Record<string, unknown>; liveCases: number[]; closedCases: number[] };
 
 // ---- Hostile values ----------------------------------------------------------------------------
 
@@ -42,6 +43,8 @@ const hostile: fc.Arbitrary<unknown> = fc.oneof(
   fc.double(),
   fc.constantFrom(-1, 0, 1e308, -1e308, 2 ** 63, Number.MAX_SAFE_INTEGER + 2, 0.5, 1e-300),
   fc.constantFrom('NaN', 'Infinity', '-0', '1e999', '0x10', '12', '', ' ', 'null', 'true', '2026-02-30', '9999-99-99', '<script>alert(1)</script>', "'; DROP TABLE cases; --"),
+  // Text with nothing visible in it, or with controls and bidirectional overrides hiding in it.
+  fc.constantFrom('\u200B\u200B\u200B', ' \u2060\uFEFF\u00AD ', '\u202E\u2066\u2069', '\u0000\u0007\u001B', 'Ward\u202E3 yaB', 'Nurse\u0000\u0008 Name', '\u3164\u3164\u3164'),
   fc.string(),
   fc.string({ unit: 'grapheme', maxLength: 40 }),
   longText,
@@ -175,7 +178,9 @@ async function newCase(hospitalId: number): Promise<number> {
 }
 
 beforeAll(async () => {
-  server = await startTestServer({}, { clock });
+  // The crew's limits are raised here: these runs send hundreds of commands from one account to
+  // test what each holds, not how many arrive (tests/integration/flood.test.ts does that).
+  server = await startTestServer({ crewCommandLimits: { perAccountPerMinute: 100_000, perUnitPerMinute: 100_000 } }, { clock });
   [paramedic, nurse, lead, quality, admin] = await Promise.all(['paramedic', 'nurse', 'lead', 'quality', 'admin'].map((who) => signIn(server.url, `${who}@plumbline.test`)));
   const db = server.db;
   const general = (await db('hospitals').where({ short_name: 'Alderwick General' }).first('id')).id;
@@ -190,7 +195,7 @@ beforeAll(async () => {
   for (let i = 0; i < 4; i++) liveCases.push(await newCase(general));
   const closedCases = (await db('cases').where({ hospital_id: general, state: 'closed' }).orderBy('id').limit(6).pluck('id')) as number[];
   const draft = await (await admin.send('POST', '/api/policies', { hospitalId: general, from: 'example' })).json();
-  ids = { general, community, agency, unit, nurse: (await db('users').where({ email: 'nurse@plumbline.test' }).first('id')).id, draft: draft.id, liveCases, closedCases };
+  ids = { general, community, agency, unit, nurse: (await db('users').where({ email: 'nurse@plumbline.test' }).first('id')).id, draft: draft.id, draftDocument: draft.document, liveCases, closedCases };
 }, 60_000);
 afterAll(async () => {
   crewSocket?.close();
@@ -321,6 +326,20 @@ describe('REST bodies under random and hostile values', () => {
       expect(Policy.safeParse(JSON.parse(row.document)).success).toBe(true);
     }, 100);
     await fuzz(fc.tuple(fc.constantFrom(999_999, ids.draft), body({ effectiveFrom: fc.integer({ min: clock.t - 1000, max: clock.t + 86_400_000 }) })), ([id, p]) => send(lead, 'POST', `/api/policies/${id}/publish`, p), async () => {}, 40);
+    // Approved (by the lead, who did not write it), publishing reaches the effective date itself:
+    // times past what a date can hold, before 2000 or after 2100 are refused naming the field.
+    const { name, note, levels, rules } = ids.draftDocument as { name: string; note?: string; levels: unknown[]; rules: unknown[] };
+    expect((await admin.send('PUT', `/api/policies/${ids.draft}`, { name, note, levels, rules })).status).toBe(200);
+    expect((await lead.send('POST', `/api/policies/${ids.draft}/approve`)).status).toBe(200);
+    const farFuture = fc.integer({ min: Date.UTC(2099, 0, 1), max: Date.UTC(2100, 11, 31) });
+    const tooFar = fc.constantFrom(8.64e15 + 1, 9e15, Number.MAX_SAFE_INTEGER, 1e300, Date.UTC(2101, 0, 1), Date.UTC(1999, 11, 31), -1, 0);
+    // Always with a date: left out, it would mean now, and put this fuzzed version in force.
+    const publishBody = fc.record({ effectiveFrom: fc.oneof({ weight: 4, arbitrary: tooFar }, { weight: 1, arbitrary: farFuture }, { weight: 1, arbitrary: hostile }) });
+    const published = await fuzz(fc.tuple(fc.constant(ids.draft), publishBody), ([id, p]) => send(lead, 'POST', `/api/policies/${id}/publish`, p), async (_v, answer) => {
+      expect(answer.body.status).toBe('published');
+      expect(answer.body.effectiveFrom).toBeGreaterThanOrEqual(Date.UTC(2099, 0, 1));
+    }, 40);
+    expect(published.refused).toBeGreaterThan(0);
   });
 
   it('people: new and changed users', async () => {
@@ -335,6 +354,9 @@ describe('REST bodies under random and hostile values', () => {
       const stored = { email: user.email, name: user.name, roles: userRoles, memberships: places.map((m) => (m.hospital_id ? { kind: 'hospital', id: m.hospital_id } : { kind: 'agency', id: m.agency_id })) };
       expect(CreateUser.safeParse(stored).success, JSON.stringify(stored)).toBe(true);
       expect(user.name).toBe(user.name.trim());
+      // Stored as shown: no control character or bidirectional override, and something visible.
+      expect(cleanText(user.name)).toBe(user.name);
+      expect(hasVisibleText(user.name)).toBe(true);
     };
     await fuzz(person, (p) => send(admin, 'POST', '/api/people/users', p), async (_p, answer) => readBack(answer.body.id as number), 100);
     const someone = (await (await admin.send('POST', '/api/people/users', { email: 'fuzz.target@plumbline.test', name: 'Fuzz Target', roles: ['quality'], memberships: [{ kind: 'hospital', id: ids.community }] })).json()).id as number;
@@ -387,7 +409,7 @@ describe('REST bodies under random and hostile values', () => {
 // ---- Queries and route ids ---------------------------------------------------------------------
 
 describe('query strings and route ids under random and hostile values', () => {
-  const queryValue = fc.oneof(fc.string({ maxLength: 12 }), fc.constantFrom('1', '-1', '0', '1.5', '1e999', 'NaN', '99999999999999999999', '2026-01-01', '2026-02-30', 'true', 'yes', 'UTC', 'Etc/GMT+99', 'full', 'a', 'all', 'open', '__proto__'), fc.integer({ min: 1, max: 3 }).map(String));
+  const queryValue = fc.oneof(fc.string({ maxLength: 12 }), fc.constantFrom('1', '-1', '0', '1.5', '1e999', 'NaN', '99999999999999999999', '2026-01-01', '2026-02-30', '1000-01-01', '1999-12-31', '2101-01-01', '3026-12-31', '0001-01-01', 'true', 'yes', 'UTC', 'Etc/GMT+99', 'full', 'a', 'all', 'open', '__proto__'), fc.integer({ min: 1, max: 3 }).map(String));
   const query = (keys: string[]) =>
     fc.array(fc.tuple(fc.constantFrom(...keys, '__proto__', 'constructor', 'x[y]'), queryValue), { maxLength: 8 }).map((pairs) => new URLSearchParams(pairs).toString());
 
@@ -540,6 +562,63 @@ describe('formula cells in every CSV export', () => {
     const templateCells = cells(await template.text());
     for (const table of [cells(await (await lead.get(`/api/review/cases.csv?hospitalId=${ids.general}`)).text()), reportCells, templateCells]) {
       for (const row of table) for (const cell of row) expect(FORMULA.test(cell) && !/^-?\d+(\.\d+)?$/.test(cell), `cell ${JSON.stringify(cell)}`).toBe(false);
+    }
+  });
+});
+
+describe('avoidable server errors', () => {
+  it('a state-changing request with any Referer and no Origin: refused as from another site unless it names this site', async () => {
+    const printable = fc.stringMatching(/^[\x20-\x7e]{0,60}$/);
+    const referer = fc.oneof(printable, printable.map((tail) => `http://${tail}`), fc.constantFrom('http://[::1', '::not a url::', 'http://%zz', 'https://', '//', 'javascript:alert(1)', `${server.url}/board`));
+    const before = await fingerprint();
+    await fc.assert(
+      fc.asyncProperty(referer, async (value) => {
+        const res = await nurse.fetch(new URL(`/api/cases/${ids.liveCases[0]}/bay`, server.url), { method: 'POST', headers: { accept: 'application/json', 'content-type': 'application/json', referer: value }, body: '{}' });
+        const answer = { status: res.status, body: await res.json() };
+        expectSafe(answer, `Referer ${JSON.stringify(value)}`);
+        const ours = URL.canParse(value) && new URL(value).origin === new URL(server.url).origin;
+        expect(answer.status, value).toBe(ours ? 400 : 403);
+      }),
+      { numRuns: 60 },
+    );
+    expect(await fingerprint()).toBe(before);
+  });
+
+  it('report and review ranges past the bounds: 400 naming the field, never a long query', async () => {
+    const answers = await Promise.all([
+      quality.get(`/api/quality/report?hospitalId=${ids.general}&from=1026-01-01&to=3026-12-31`),
+      quality.get(`/api/quality/report?hospitalId=${ids.general}&from=2000-01-01&to=2100-12-31`),
+      quality.get(`/api/quality/cases?hospitalId=${ids.general}&from=2010-01-01&to=2026-12-31`),
+      lead.get(`/api/review/cases?hospitalId=${ids.general}&from=1970-01-01`),
+      lead.get(`/api/review/compliance?hospitalId=${ids.general}&from=2001-01-01&to=2099-01-01`),
+      lead.send('POST', '/api/quality/what-if', { hospitalId: ids.general, from: '2000-01-01', to: '2090-12-31', policy: 'in-force' }),
+    ]);
+    const bodies = await Promise.all(answers.map(async (r) => ({ status: r.status, field: (await r.json()).error?.field })));
+    expect(bodies).toEqual([
+      { status: 400, field: 'from' },
+      { status: 400, field: 'to' },
+      { status: 400, field: 'to' },
+      { status: 400, field: 'from' },
+      { status: 400, field: 'to' },
+      { status: 400, field: 'to' },
+    ]);
+    // Ten years to the day is the longest range, and it is answered.
+    expect((await quality.get(`/api/quality/report?hospitalId=${ids.general}&from=2016-12-31&to=2026-12-31`)).status).toBe(200);
+  });
+
+  it('a deactivated person whose identity-provider session is still live gets the sign-in page, never a server error', async () => {
+    const created = await admin.send('POST', '/api/people/users', { email: 'fuzz.leaver@plumbline.test', name: 'Fuzz Leaver', roles: ['quality'], memberships: [{ kind: 'hospital', id: ids.community }] });
+    const id = (await created.json()).id as number;
+    expect((await admin.send('POST', `/api/people/users/${id}/password`, { password: 'a-long-test-password' })).status).toBe(200);
+    for (const how of ['by the administrator', 'behind the application’s back'] as const) {
+      const client = await signIn(server.url, 'fuzz.leaver@plumbline.test', 'a-long-test-password');
+      if (how === 'by the administrator') expect((await admin.send('POST', `/api/people/users/${id}/deactivate`)).status).toBe(200);
+      else await server.db('users').where({ id }).update({ active: false });
+      for (const path of ['/auth/login', '/auth/login?returnTo=%2Fboard', '/api/me', '/api/cases']) {
+        const res = await client.fetch(new URL(path, server.url), { headers: { accept: path.startsWith('/api') ? 'application/json' : 'text/html' } });
+        expect(res.status, `${how}: ${path}`).toBeLessThan(500);
+      }
+      await server.db('users').where({ id }).update({ active: true });
     }
   });
 });
