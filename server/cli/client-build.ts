@@ -23,3 +23,48 @@ export function clientBuildIsStale(root = '.'): boolean {
   const sources = ['src', 'shared', 'index.html', 'vite.config.ts'].map((p) => newestMtime(join(root, p)));
   return Math.max(...sources) > statSync(built).mtimeMs;
 }
+
+/** One chunk of the build's manifest (dist/client/.vite/manifest.json), as Vite writes it. */
+export interface ManifestChunk {
+  file: string;
+  src?: string;
+  isEntry?: boolean;
+  imports?: string[];
+  dynamicImports?: string[];
+  css?: string[];
+  assets?: string[];
+}
+export type BuildManifest = Record<string, ManifestChunk>;
+
+export const BUILD_MANIFEST = 'dist/client/.vite/manifest.json';
+
+/** The crew's screen: what a paramedic's phone opens on and must be able to open offline. */
+export const CREW_VIEW = 'src/views/NewPreAlertView.vue';
+
+/**
+ * The files a first load of a screen fetches: the entry, the screen's chunk, everything they
+ * import statically, their styles and the fonts those name. Dynamic imports (other screens) are
+ * left out, since the browser fetches them only when the person opens those screens; with
+ * `later`, what the screen itself fetches on first use (its dialogs, the overlays) is counted in,
+ * which is what must be kept for the screen to work offline.
+ */
+export function firstLoadFiles(manifest: BuildManifest, view: string, opts: { later?: boolean } = {}): { scripts: string[]; styles: string[]; assets: string[] } {
+  const entry = Object.entries(manifest).find(([, c]) => c.isEntry)?.[0];
+  if (!entry) throw new Error('The build has no entry chunk.');
+  const scripts = new Set<string>();
+  const styles = new Set<string>();
+  const assets = new Set<string>();
+  const visit = (key: string) => {
+    const chunk = manifest[key];
+    if (!chunk) throw new Error(`${key} is not in the build's manifest.`);
+    if (scripts.has(chunk.file)) return;
+    scripts.add(chunk.file);
+    for (const css of chunk.css ?? []) styles.add(css);
+    for (const asset of chunk.assets ?? []) assets.add(asset);
+    for (const imported of chunk.imports ?? []) visit(imported);
+    if (opts.later) for (const imported of chunk.dynamicImports ?? []) if (!imported.startsWith('src/views/')) visit(imported);
+  };
+  visit(entry);
+  visit(view);
+  return { scripts: [...scripts], styles: [...styles], assets: [...assets] };
+}

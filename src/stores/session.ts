@@ -1,6 +1,8 @@
 import { defineStore } from 'pinia';
 import { computed, ref } from 'vue';
+import { ApiError } from '../api/http';
 import { getMe, type MeResponse, type Role } from '../api/me';
+import { keep, kept } from '../offline/device-store';
 
 // When a person holds several roles, the first match decides where "/" takes them: the role
 // with the most time-critical work comes first.
@@ -15,6 +17,8 @@ const HOME_BY_ROLE: ReadonlyArray<readonly [Role, string]> = [
 export const useSessionStore = defineStore('session', () => {
   const me = ref<MeResponse | null>(null);
   const loadError = ref<Error | null>(null);
+  /** Set when the server could not be reached and the account shown is the one this device last saw. */
+  const fromDevice = ref<number | null>(null);
   let pending: Promise<MeResponse> | null = null;
 
   const user = computed(() => me.value?.user ?? null);
@@ -26,14 +30,28 @@ export const useSessionStore = defineStore('session', () => {
     () => HOME_BY_ROLE.find(([role]) => roles.value.includes(role))?.[1] ?? null,
   );
 
-  /** Fetches who is signed in once; concurrent callers share the same request. */
+  /**
+   * Fetches who is signed in once; concurrent callers share the same request. With no signal
+   * the device's last answer stands in, so a crew's screens open in a dead spot; the server
+   * still checks the session on every request and socket once the link is back.
+   */
   function load(): Promise<MeResponse> {
     if (me.value) return Promise.resolve(me.value);
     pending ??= getMe()
       .then((answer) => {
         me.value = answer;
         loadError.value = null;
+        fromDevice.value = null;
+        void keep('me', answer);
         return answer;
+      })
+      .catch(async (error: unknown) => {
+        if (!(error instanceof ApiError) || error.status !== 0) throw error;
+        const last = await kept<MeResponse>('me');
+        if (!last) throw error;
+        me.value = last.value;
+        fromDevice.value = last.savedAt;
+        return last.value;
       })
       .catch((error: unknown) => {
         loadError.value = error instanceof Error ? error : new Error(String(error));
@@ -50,5 +68,5 @@ export const useSessionStore = defineStore('session', () => {
     return wanted.some((role) => roles.value.includes(role));
   }
 
-  return { me, user, roles, memberships, hospitals, homeRoute, loadError, load, hasRole };
+  return { me, user, roles, memberships, hospitals, homeRoute, loadError, fromDevice, load, hasRole };
 });
