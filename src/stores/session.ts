@@ -1,7 +1,7 @@
 import { defineStore } from 'pinia';
 import { computed, ref } from 'vue';
 import { ApiError } from '../api/http';
-import { getMe, type MeResponse, type Role } from '../api/me';
+import { getMe, signInUrl, type MeResponse, type Role } from '../api/me';
 import { keep, kept } from '../offline/device-store';
 
 // When a person holds several roles, the first match decides where "/" takes them: the role
@@ -30,14 +30,9 @@ export const useSessionStore = defineStore('session', () => {
     () => HOME_BY_ROLE.find(([role]) => roles.value.includes(role))?.[1] ?? null,
   );
 
-  /**
-   * Fetches who is signed in once; concurrent callers share the same request. With no signal
-   * the device's last answer stands in, so a crew's screens open in a dead spot; the server
-   * still checks the session on every request and socket once the link is back.
-   */
-  function load(): Promise<MeResponse> {
-    if (me.value) return Promise.resolve(me.value);
-    pending ??= getMe()
+  /** Asks the server who is signed in; with no signal the device's last answer stands in. */
+  function fetchMe(): Promise<MeResponse> {
+    return getMe()
       .then((answer) => {
         me.value = answer;
         loadError.value = null;
@@ -52,7 +47,27 @@ export const useSessionStore = defineStore('session', () => {
         me.value = last.value;
         fromDevice.value = last.savedAt;
         return last.value;
-      })
+      });
+  }
+
+  /**
+   * Who is signed in, fetched once; concurrent callers share the same request. A device that
+   * kept the answer opens at once with it (the installed app on a weak link) and asks the server
+   * behind it: a session the server no longer knows goes to sign-in then. The server checks the
+   * session on every request and socket either way, so the kept copy opens screens, not data.
+   */
+  function load(): Promise<MeResponse> {
+    if (me.value) return Promise.resolve(me.value);
+    pending ??= (async () => {
+      const last = await kept<MeResponse>('me');
+      if (!last) return fetchMe();
+      me.value = last.value;
+      fromDevice.value = last.savedAt;
+      fetchMe().catch((error: unknown) => {
+        if (error instanceof ApiError && error.status === 401) window.location.assign(signInUrl(window.location.pathname + window.location.search));
+      });
+      return last.value;
+    })()
       .catch((error: unknown) => {
         loadError.value = error instanceof Error ? error : new Error(String(error));
         throw error;

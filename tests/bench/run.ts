@@ -7,6 +7,7 @@ import { cpus, loadavg } from 'node:os';
 import { join } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { measureBareEcho } from './bare-echo';
+import { measureFieldApp } from './field-app';
 import { defaultLoadOptions, LOAD_SEED, runLoad } from './load';
 import { measureMemory } from './memory';
 import { repoRoot } from './support/child-server';
@@ -92,6 +93,10 @@ async function main(): Promise<void> {
   const evaluate = await measureEvaluateRateApart();
   log(evaluate ? `evaluate: ${evaluate.perSecond.toLocaleString('en')}/s` : 'evaluate: the measuring process gave no figure; reported as null');
   const memory = await measureMemory({ sockets: 1000, log });
+  const fieldApp = await measureFieldApp(log).catch((err: unknown) => {
+    log(`field app: not measured (${(err as Error).message})`);
+    return null;
+  });
   // Last, in what is left of the time limit: a figure that does not come in time is null.
   const report = await measureReport(LIMIT_MS - (Date.now() - started) - 15_000);
   log(report ? `report: ${report.cases} cases in ${report.ms} ms` : 'report: tests/bench/quality-report.ts gave no figure in time; reported as null');
@@ -145,6 +150,7 @@ async function main(): Promise<void> {
     evaluate,
     report,
     memory,
+    fieldApp,
     targets: {
       lost: load.lost <= TARGETS.lost,
       duplicated: load.duplicated <= TARGETS.duplicated,
@@ -153,6 +159,10 @@ async function main(): Promise<void> {
       evaluate: evaluate ? evaluate.perSecond >= TARGETS.evaluatePerSecond : null,
       report: report ? report.ms <= TARGETS.reportMs : null,
       rss: memory.rssMb <= TARGETS.rssMb,
+      fieldAppScript: fieldApp ? fieldApp.targets.script : null,
+      fieldAppTotal: fieldApp ? fieldApp.targets.total : null,
+      fieldAppEmptyCache: fieldApp ? fieldApp.targets.emptyCache : null,
+      fieldAppInstalled: fieldApp ? fieldApp.targets.installed : null,
     },
     seconds: Math.round((Date.now() - started) / 100) / 10,
     // Other work on the machine moves every timing; the figures are read beside this.
@@ -173,6 +183,7 @@ Realtime  ${r.ambulances} ambulances, ${r.boards} boards at ${r.hospitals} EDs, 
 Evaluate  ${result.evaluate ? `${result.evaluate.perSecond.toLocaleString('en')} evaluations/s on one core` : 'not measured (the measuring process gave no figure)'}
 Report    ${result.report ? `${result.report.cases.toLocaleString('en')} cases in ${result.report.ms} ms` : 'not measured (tests/bench/quality-report.ts gave no figure)'}
 Memory    ${result.memory.sockets} sockets, ${result.memory.rssMb} MB resident
+Field app ${result.fieldApp ? `first load ${result.fieldApp.firstLoad.scriptKb} KB script, ${result.fieldApp.firstLoad.totalKb} KB in all; Send usable after ${result.fieldApp.emptyCacheSendMs} ms from an empty cache, ${result.fieldApp.installedSendMs} ms installed (400 kbit/s, 400 ms)` : 'not measured'}
 Targets   ${Object.entries(result.targets).map(([k, v]) => `${k} ${v === null ? 'n/a' : v ? 'met' : 'MISSED'}`).join(', ')}
 Took      ${result.seconds} s, while other guests of the machine took ${result.machine.stealSeconds ?? 'an unknown'} s of its CPU`);
 }
