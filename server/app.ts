@@ -38,7 +38,6 @@ function serveBuiltClient(clientDir: string): RequestHandler {
     index: false,
     serveStatic: {
       index: false,
-      fallthrough: false,
       setHeaders: (res, path) => {
         if (/[\\/]assets[\\/]/.test(path)) res.setHeader('Cache-Control', 'public, max-age=31536000, immutable');
         else if (/[\\/]icons[\\/]/.test(path)) res.setHeader('Cache-Control', 'public, max-age=86400');
@@ -95,7 +94,7 @@ export function createApp(opts: CreateAppOptions): Express {
       else next();
     });
     // Every other page is the single-page client; its router decides what to show.
-    app.get(/^\/(?!api\/|auth\/|idp\/|idp-assets\/|assets\/).*/, (req, res, next) => {
+    app.get(/^\/(?!api\/|auth\/|idp\/|idp-assets\/|assets\/|icons\/).*/, (req, res, next) => {
       const handler = client();
       if (!handler) {
         res.status(503).type('html').send(messagePage('Client not built', 'Run npm run build (npm start does it for you), then reload.'));
