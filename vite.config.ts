@@ -5,7 +5,7 @@ import { defineConfig, type Plugin } from 'vitest/config';
 import vue from '@vitejs/plugin-vue';
 import { VitePWA } from 'vite-plugin-pwa';
 import { compression } from 'vite-plugin-compression2';
-import { BUILD_MANIFEST, CREW_VIEW, firstLoadFiles, type BuildManifest } from './server/cli/client-build';
+import { BUILD_MANIFEST, CREW_VIEW, firstLoadFiles, type BuildManifest } from './server/cli/client-build.ts';
 
 const require = createRequire(import.meta.url);
 const subsetFont = require('subset-font') as (font: Buffer, text: string, opts: { targetFormat: 'woff2' }) => Promise<Buffer>;
