@@ -1,6 +1,8 @@
 import { existsSync } from 'node:fs';
 import { resolve } from 'node:path';
-import express, { type Express, type Router } from 'express';
+import compression from 'compression';
+import express, { type Express, type RequestHandler, type Router } from 'express';
+import expressStaticGzip from 'express-static-gzip';
 import { pinoHttp } from 'pino-http';
 import type { ViteDevServer } from 'vite';
 import type { AppDeps } from './deps';
@@ -22,6 +24,30 @@ export interface CreateAppOptions extends AppDeps {
 }
 
 export const defaultClientDir = resolve(import.meta.dirname ?? '.', '../dist/client');
+
+/** The client's built files: hashed assets, icons, the service worker and the app manifest. */
+const CLIENT_FILES = /^\/(assets\/|icons\/|sw\.js$|workbox-[\w-]+\.js$|manifest\.webmanifest$|index\.html$)/;
+
+/**
+ * The built client, sent as the brotli or gzip copy made at build when the browser takes one
+ * (with Content-Encoding and Vary: Accept-Encoding). Hashed files are kept for a year; the page,
+ * the service worker and the manifest are checked on every load so a new version is seen.
+ */
+function serveBuiltClient(clientDir: string): RequestHandler {
+  return expressStaticGzip(clientDir, {
+    enableBrotli: true,
+    orderPreference: ['br', 'gzip'],
+    index: false,
+    serveStatic: {
+      index: false,
+      setHeaders: (res, path) => {
+        if (/[\\/]assets[\\/]/.test(path)) res.setHeader('Cache-Control', 'public, max-age=31536000, immutable');
+        else if (/[\\/]icons[\\/]/.test(path)) res.setHeader('Cache-Control', 'public, max-age=86400');
+        else res.setHeader('Cache-Control', 'no-cache');
+      },
+    },
+  });
+}
 
 /** Builds the whole HTTP application without listening, so tests can mount it on port 0. */
 export function createApp(opts: CreateAppOptions): Express {
@@ -51,6 +77,8 @@ export function createApp(opts: CreateAppOptions): Express {
 
   if (opts.idpRouter) app.use(opts.idpRouter);
 
+  // JSON answers are compressed as they go; the client's files were compressed at build (below).
+  app.use('/api', compression());
   // The SMS provider's webhooks: called by the provider, never by our pages, so deliberately the
   // only POSTs outside the same-origin check; each is refused without the provider's signature.
   app.use(webhooksRouter(opts));
@@ -70,16 +98,24 @@ export function createApp(opts: CreateAppOptions): Express {
     app.use(opts.vite.middlewares);
   } else {
     const clientDir = opts.clientDir ?? defaultClientDir;
-    app.use('/assets', express.static(resolve(clientDir, 'assets'), { immutable: true, maxAge: '365d', fallthrough: false }));
-    app.use(express.static(clientDir, { index: false, maxAge: '1h' }));
     const indexFile = resolve(clientDir, 'index.html');
+    // Made at the first request that finds a build, so a server started before the build serves it.
+    let served: RequestHandler | null = null;
+    const client = () => (served ??= existsSync(indexFile) ? serveBuiltClient(clientDir) : null);
+    app.use((req, res, next) => {
+      const handler = CLIENT_FILES.test(req.path) ? client() : null;
+      if (handler) handler(req, res, next);
+      else next();
+    });
     // Every other page is the single-page client; its router decides what to show.
-    app.get(/^\/(?!api\/|auth\/|idp\/|idp-assets\/|webhooks\/).*/, (_req, res) => {
-      if (!existsSync(indexFile)) {
+    app.get(/^\/(?!api\/|auth\/|idp\/|idp-assets\/|assets\/|icons\/|webhooks\/).*/, (req, res, next) => {
+      const handler = client();
+      if (!handler) {
         res.status(503).type('html').send(messagePage('Client not built', 'Run npm run build (npm start does it for you), then reload.'));
         return;
       }
-      res.set('Cache-Control', 'no-cache').sendFile(indexFile);
+      req.url = '/index.html';
+      handler(req, res, next);
     });
   }
 

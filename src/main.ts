@@ -4,10 +4,8 @@ import PrimeVue from 'primevue/config';
 import ToastService from 'primevue/toastservice';
 import ConfirmationService from 'primevue/confirmationservice';
 
-import '@fontsource/atkinson-hyperlegible/400.css';
-import '@fontsource/atkinson-hyperlegible/400-italic.css';
-import '@fontsource/atkinson-hyperlegible/700.css';
-import 'primeicons/primeicons.css';
+import './assets/fonts.css';
+import 'virtual:used-icons.css';
 import './assets/base.css';
 
 import App from './App.vue';

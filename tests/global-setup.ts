@@ -1,12 +1,11 @@
 import { existsSync } from 'node:fs';
-import { clientBuildIsStale } from '../server/cli/client-build';
+import { buildClient, clientBuildIsStale } from '../server/cli/client-build';
 
 // The browser tests serve the built client; build it once per run when the sources are newer.
 export default async function setup(project: { config: { include?: string[] } } | undefined) {
   const wantsBrowser = process.argv.some((arg) => arg.includes('e2e')) || !process.argv.some((arg) => arg.startsWith('tests/'));
   if (!wantsBrowser || !existsSync('index.html') || !existsSync('src/main.ts')) return;
   if (!clientBuildIsStale()) return;
-  const { build } = await import('vite');
-  await build({ logLevel: 'warn' });
+  buildClient();
   void project;
 }

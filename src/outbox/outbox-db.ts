@@ -56,3 +56,8 @@ export async function getEntry(clientId: string): Promise<OutboxEntry | undefine
 export async function removeEntry(clientId: string): Promise<void> {
   await (await database()).delete('outbox', clientId);
 }
+
+/** Empties the outbox of every person on this device (sign-out). */
+export async function wipeOutbox(): Promise<void> {
+  await (await database()).clear('outbox');
+}

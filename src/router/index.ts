@@ -101,6 +101,13 @@ export const router = createRouter({
 });
 
 router.beforeEach(async (to) => {
+  // The screen's code starts loading now, side by side with the session check below, instead
+  // of after it: one round trip less on a weak link.
+  for (const record of to.matched) {
+    for (const component of Object.values(record.components ?? {})) {
+      if (typeof component === 'function') void (component as () => Promise<unknown>)().catch(() => undefined);
+    }
+  }
   if (to.meta.public) return true;
   const session = useSessionStore();
   try {

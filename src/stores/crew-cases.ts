@@ -2,6 +2,7 @@ import { defineStore } from 'pinia';
 import { ref, watch } from 'vue';
 import * as api from '../api/cases';
 import { connection, getSocket } from '../api/socket';
+import { keep, kept } from '../offline/device-store';
 import { OPEN_STATES, type CaseCancel, type CaseRedirect, type CaseSummary, type PreAlertUpdate } from '../../shared/schemas/cases';
 import type { CaseChange } from '../../shared/realtime/events';
 
@@ -10,6 +11,8 @@ export const useCrewCasesStore = defineStore('crew-cases', () => {
   const cases = ref<CaseSummary[]>([]);
   const loaded = ref(false);
   const loadError = ref<string | null>(null);
+  /** When the list shown is the device's copy (no signal), the time the server last gave it. */
+  const keptAt = ref<number | null>(null);
   /** The last change heard per case, for "updated 03:12 by …" and a risen level. */
   const changes = ref<Record<number, CaseChange>>({});
   /** Cases that left the list (cancelled, closed) while this screen was open, newest first. */
@@ -43,9 +46,24 @@ export const useCrewCasesStore = defineStore('crew-cases', () => {
       cases.value = [...fresh.values()].sort((a, b) => b.createdAt - a.createdAt);
       loaded.value = true;
       loadError.value = null;
+      keptAt.value = null;
     } catch (err) {
       loadError.value = (err as Error).message;
+      if (!loaded.value) await showKept();
     }
+  }
+
+  // Every change the server told this screen is the device's copy for the next dead spot.
+  watch(cases, (list) => {
+    if (loaded.value) void keep('crew-cases', list);
+  }, { deep: true });
+
+  /** With no signal, the open cases as this device last saw them, marked with when that was. */
+  async function showKept(): Promise<void> {
+    const last = await kept<CaseSummary[]>('crew-cases');
+    if (!last || loaded.value) return;
+    cases.value = last.value;
+    keptAt.value = last.savedAt;
   }
 
   let started = false;
@@ -82,5 +100,5 @@ export const useCrewCasesStore = defineStore('crew-cases', () => {
     return summary;
   }
 
-  return { cases, loaded, loadError, changes, ended, start, load, upsert, update, cancel, redirect };
+  return { cases, loaded, loadError, keptAt, changes, ended, start, load, upsert, update, cancel, redirect };
 });

@@ -8,6 +8,7 @@ import { withLocalCriteria } from '../../shared/triage/local-criteria';
 import { EXAMPLE_POLICY } from '../../shared/triage/policy';
 import { describePatient, emptyDraft, toClinical, type ClinicalDraft, type HeightUnit } from '../components/pre-alert/clinical-draft';
 import { useOutbox } from '../composables/use-outbox';
+import { keep, kept } from '../offline/device-store';
 
 interface FormState {
   hospitalId: number | null;
@@ -66,9 +67,22 @@ export const usePreAlertStore = defineStore('pre-alert', () => {
     },
   );
 
-  async function load(): Promise<void> {
+  /** The destinations from the server, or with no signal the ones this device last had. */
+  async function fetchDestinations(): Promise<CrewDestinations> {
     try {
       const answer = await getDestinations();
+      void keep('destinations', answer);
+      return answer;
+    } catch (err) {
+      const last = await kept<CrewDestinations>('destinations');
+      if (last) return last.value;
+      throw err;
+    }
+  }
+
+  async function load(): Promise<void> {
+    try {
+      const answer = await fetchDestinations();
       destinations.value = answer;
       loadError.value = null;
       const f = form.value;

@@ -1,6 +1,8 @@
 import { defineStore } from 'pinia';
 import { computed, ref } from 'vue';
-import { getMe, type MeResponse, type Role } from '../api/me';
+import { ApiError } from '../api/http';
+import { getMe, signInUrl, type MeResponse, type Role } from '../api/me';
+import { keep, kept } from '../offline/device-store';
 
 // When a person holds several roles, the first match decides where "/" takes them: the role
 // with the most time-critical work comes first.
@@ -15,6 +17,8 @@ const HOME_BY_ROLE: ReadonlyArray<readonly [Role, string]> = [
 export const useSessionStore = defineStore('session', () => {
   const me = ref<MeResponse | null>(null);
   const loadError = ref<Error | null>(null);
+  /** Set when the server could not be reached and the account shown is the one this device last saw. */
+  const fromDevice = ref<number | null>(null);
   let pending: Promise<MeResponse> | null = null;
 
   const user = computed(() => me.value?.user ?? null);
@@ -26,15 +30,44 @@ export const useSessionStore = defineStore('session', () => {
     () => HOME_BY_ROLE.find(([role]) => roles.value.includes(role))?.[1] ?? null,
   );
 
-  /** Fetches who is signed in once; concurrent callers share the same request. */
-  function load(): Promise<MeResponse> {
-    if (me.value) return Promise.resolve(me.value);
-    pending ??= getMe()
+  /** Asks the server who is signed in; with no signal the device's last answer stands in. */
+  function fetchMe(): Promise<MeResponse> {
+    return getMe()
       .then((answer) => {
         me.value = answer;
         loadError.value = null;
+        fromDevice.value = null;
+        void keep('me', answer);
         return answer;
       })
+      .catch(async (error: unknown) => {
+        if (!(error instanceof ApiError) || error.status !== 0) throw error;
+        const last = await kept<MeResponse>('me');
+        if (!last) throw error;
+        me.value = last.value;
+        fromDevice.value = last.savedAt;
+        return last.value;
+      });
+  }
+
+  /**
+   * Who is signed in, fetched once; concurrent callers share the same request. A device that
+   * kept the answer opens at once with it (the installed app on a weak link) and asks the server
+   * behind it: a session the server no longer knows goes to sign-in then. The server checks the
+   * session on every request and socket either way, so the kept copy opens screens, not data.
+   */
+  function load(): Promise<MeResponse> {
+    if (me.value) return Promise.resolve(me.value);
+    pending ??= (async () => {
+      const last = await kept<MeResponse>('me');
+      if (!last) return fetchMe();
+      me.value = last.value;
+      fromDevice.value = last.savedAt;
+      fetchMe().catch((error: unknown) => {
+        if (error instanceof ApiError && error.status === 401) window.location.assign(signInUrl(window.location.pathname + window.location.search));
+      });
+      return last.value;
+    })()
       .catch((error: unknown) => {
         loadError.value = error instanceof Error ? error : new Error(String(error));
         throw error;
@@ -50,5 +83,5 @@ export const useSessionStore = defineStore('session', () => {
     return wanted.some((role) => roles.value.includes(role));
   }
 
-  return { me, user, roles, memberships, hospitals, homeRoute, loadError, load, hasRole };
+  return { me, user, roles, memberships, hospitals, homeRoute, loadError, fromDevice, load, hasRole };
 });

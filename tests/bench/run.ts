@@ -8,6 +8,7 @@ import { join } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { measureBareEcho } from './bare-echo';
 import { measureImportDuringPreAlerts, type ImportDuringPreAlerts } from './import-during-prealerts';
+import { measureFieldApp } from './field-app';
 import { defaultLoadOptions, LOAD_SEED, runLoad } from './load';
 import { measureMemory } from './memory';
 import { repoRoot } from './support/child-server';
@@ -111,6 +112,10 @@ async function main(): Promise<void> {
   // Pre-alerts while a 20,000-row outcomes import is saved (tests/bench/import-during-prealerts.md).
   const duringImport: ImportDuringPreAlerts | null =
     LIMIT_MS - (Date.now() - started) > 150_000 ? await measureImportDuringPreAlerts({ log }) : (log('import: not enough of the time limit left; reported as null'), null);
+  const fieldApp = await measureFieldApp(log).catch((err: unknown) => {
+    log(`field app: not measured (${(err as Error).message})`);
+    return null;
+  });
   // Last, in what is left of the time limit: a figure that does not come in time is null.
   const report = await measureReport(LIMIT_MS - (Date.now() - started) - 15_000);
   log(report ? `report: ${report.cases} cases in ${report.ms} ms` : 'report: tests/bench/quality-report.ts gave no figure in time; reported as null');
@@ -170,6 +175,7 @@ async function main(): Promise<void> {
     report,
     whatIf,
     memory,
+    fieldApp,
     targets: {
       lost: load.lost <= TARGETS.lost,
       duplicated: load.duplicated <= TARGETS.duplicated,
@@ -180,6 +186,10 @@ async function main(): Promise<void> {
       whatIf: whatIf ? whatIf.ms <= TARGETS.whatIfMs : null,
       rss: memory.rssMb <= TARGETS.rssMb,
       duringImport: duringImport?.p99Ms != null ? duringImport.importStatus === 201 && duringImport.p99Ms <= TARGETS.duringImportP99Ms : null,
+      fieldAppScript: fieldApp ? fieldApp.targets.script : null,
+      fieldAppTotal: fieldApp ? fieldApp.targets.total : null,
+      fieldAppEmptyCache: fieldApp ? fieldApp.targets.emptyCache : null,
+      fieldAppInstalled: fieldApp ? fieldApp.targets.installed : null,
     },
     seconds: Math.round((Date.now() - started) / 100) / 10,
     // Other work on the machine moves every timing; the figures are read beside this.
@@ -202,6 +212,7 @@ Report    ${result.report ? `${result.report.cases.toLocaleString('en')} cases i
 What-if   ${result.whatIf ? `${result.whatIf.cases.toLocaleString('en')} cases in ${result.whatIf.ms} ms (${result.whatIf.cpuMs} ms of CPU)` : 'not measured (tests/bench/what-if.ts gave no figure)'}
 Memory    ${result.memory.sockets} sockets, ${result.memory.rssMb} MB resident
 Import    ${r.duringImport ? `${r.duringImport.rows.toLocaleString('en')} outcome rows saved in ${r.duringImport.importMs} ms (HTTP ${r.duringImport.importStatus}); pre-alerts meanwhile p50 ${r.duringImport.p50Ms} ms, p99 ${r.duringImport.p99Ms} ms over ${r.duringImport.samples} (p99 ${r.duringImport.beforeP99Ms} ms just before)` : 'not measured (not enough of the time limit left)'}
+Field app ${result.fieldApp ? `first load ${result.fieldApp.firstLoad.scriptKb} KB script, ${result.fieldApp.firstLoad.totalKb} KB in all; Send usable after ${result.fieldApp.emptyCacheSendMs} ms from an empty cache, ${result.fieldApp.installedSendMs} ms installed (400 kbit/s, 400 ms)` : 'not measured'}
 Targets   ${Object.entries(result.targets).map(([k, v]) => `${k} ${v === null ? 'n/a' : v ? 'met' : 'MISSED'}`).join(', ')}
 Took      ${result.seconds} s, while other guests of the machine took ${result.machine.stealSeconds ?? 'an unknown'} s of its CPU`);
 }
