@@ -5,7 +5,7 @@ import { PreAlert } from '../shared/schemas/cases';
 import { FhirExportQuery } from '../shared/schemas/exchange';
 import { IssuedMachineClient, MachineClientView, RegisterMachineClient } from '../shared/schemas/machine-clients';
 import { AgencyDestinations, AgencyFields, CreateUser, HospitalFields, SetPassword, UnitFields, UpdateHospital, UpdateUnit, UpdateUser } from '../shared/schemas/people';
-import { CreateDraft, PublishVersion, SaveDraft } from '../shared/schemas/policies';
+import { ApproveVersion, CreateDraft, LocalPreviewQuery, PublishVersion, SaveDraft } from '../shared/schemas/policies';
 import { DrilldownQuery, ImportRequest, ReportQuery, WhatIfRequest } from '../shared/schemas/quality';
 import { CloseDiscussion, ComplianceQuery, FlagForPeerReview, ResponseSettings, ReviewListQuery, SignOff } from '../shared/schemas/review';
 import { Me } from '../shared/roles';
@@ -79,7 +79,8 @@ export const API_OPERATIONS: readonly Operation[] = [
   { method: 'post', path: '/api/policies', summary: 'Start a draft policy', roles: admin, body: CreateDraft },
   { method: 'put', path: '/api/policies/{id}', summary: 'Save a draft policy', roles: admin, params: IdParam, body: SaveDraft },
   { method: 'delete', path: '/api/policies/{id}', summary: 'Discard a draft policy', roles: admin, params: IdParam },
-  { method: 'post', path: '/api/policies/{id}/approve', summary: 'Approve a policy version', roles: ['trauma_lead'], params: IdParam },
+  { method: 'post', path: '/api/policies/{id}/approve', summary: 'Approve a policy version (a trauma lead other than its author), acknowledging any loosening', roles: ['trauma_lead'], params: IdParam, body: ApproveVersion },
+  { method: 'post', path: '/api/policies/local-preview', summary: "A local criterion's read-back sentence and past cases it would catch", roles: policyReaders, body: LocalPreviewQuery },
   { method: 'post', path: '/api/policies/{id}/publish', summary: 'Put an approved policy version in force', roles: policyReaders, params: IdParam, body: PublishVersion },
 
   { method: 'get', path: '/api/people/users', summary: 'People of your hospitals and agencies', roles: admin },

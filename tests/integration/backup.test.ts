@@ -35,7 +35,8 @@ function runCli(command: typeof backupCommand, args: string[], databaseFile: str
 let server: ChildServer;
 let backups: string;
 beforeAll(async () => {
-  server = await childServer();
+  // One crew account sends the whole stream: lift the per-account and per-unit flood limits.
+  server = await childServer({ env: { CREW_COMMANDS_PER_MINUTE: '10000', UNIT_COMMANDS_PER_MINUTE: '10000' } });
   await server.start();
   backups = tempDataDir('plumbline-backups-');
 }, 90_000);

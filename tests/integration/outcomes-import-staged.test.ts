@@ -20,7 +20,8 @@ let crew: TestSocket;
 let general: number;
 
 beforeAll(async () => {
-  server = await startTestServer();
+  // One crew account sends pre-alerts throughout the import: lift the flood limits for it.
+  server = await startTestServer({ crewCommandLimits: { perAccountPerMinute: 10_000, perUnitPerMinute: 10_000 } });
   general = (await server.db('hospitals').where({ short_name: 'Alderwick General' }).first('id')).id;
   quality = await signIn(server.url, 'quality@plumbline.test');
   crew = await connectAs(server.url, await signIn(server.url, 'paramedic@plumbline.test'));
