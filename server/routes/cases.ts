@@ -5,7 +5,7 @@ import type { AppDeps } from '../deps';
 import { agencyIdsOf, hospitalIdsOf, requireRole, requireUser } from '../auth/guards';
 import { parseOr400 } from '../errors';
 import { CaseIdParam } from './params';
-import { caseEvents, caseForReader, caseRevisions, caseSummary, listCaseSummariesJson } from '../services/cases';
+import { caseEvents, caseForReader, caseRevisions, caseSummary, listCaseSummariesPage } from '../services/cases';
 import { sendJsonText } from './json-text';
 
 const CaseListQuery = z.object({ state: z.enum(['open', 'all']).default('open') });
@@ -21,8 +21,10 @@ export function casesRouter({ db, clock, catchUp }: AppDeps): Router {
     const me = req.me!;
     // A crew's screen reloads after every connection that did not recover: in the catch-up lane, behind pre-alerts.
     await catchUp.run(async () => {
-      const cases = await listCaseSummariesJson(db, { hospitalIds: hospitalIdsOf(me), agencyIds: agencyIdsOf(me), states: state === 'open' ? OPEN_STATES : undefined });
-      sendJsonText(res, `{"cases":${cases},"at":${clock.now()}}`);
+      const at = clock.now();
+      const page = await listCaseSummariesPage(db, { hospitalIds: hospitalIdsOf(me), agencyIds: agencyIdsOf(me), states: state === 'open' ? OPEN_STATES : undefined, now: at });
+      // total says how many matched when the list is cut at the cap (the most urgent kept).
+      sendJsonText(res, `{"cases":${page.json},"total":${page.total},"at":${at}}`);
     });
   });
   router.get('/api/cases/:id', requireUser(db), requireRole(...readers), async (req, res) => {

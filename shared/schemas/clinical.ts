@@ -1,5 +1,5 @@
 import { z } from 'zod';
-import { CONSIDERATIONS, FINDINGS, FIRST_IMPACT_REGIONS, SEXES, SURFACES } from './clinical-options';
+import { CONSIDERATIONS, FINDINGS, FIRST_IMPACT_REGIONS, HEIGHT_UNITS, SEXES, SURFACES, TREATMENTS } from './clinical-options';
 import { gcsTotalOf } from './units';
 
 export * from './clinical-options';
@@ -62,10 +62,39 @@ export const Fall = z.object(
     surface: oneOf(SURFACES).nullable().optional(),
     firstImpact: oneOf(FIRST_IMPACT_REGIONS).nullable().optional(),
     headImpact: flag(),
+    // The height as the crew typed it: shown and edited in their figure, never re-rounded
+    // through another unit. heightM beside it is what the criteria read.
+    entered: z
+      .object({ value: measure(0, 4000), unit: oneOf(HEIGHT_UNITS) }, { error: 'must be an object with value and unit' })
+      .nullable()
+      .optional(),
   },
   { error: 'must be an object with heightM' },
 );
 export type Fall = z.infer<typeof Fall>;
+
+const when = z.number({ error: 'must be a time (milliseconds since 1970)' }).int({ error: 'must be whole milliseconds' }).positive({ error: 'must be a time' });
+const shortText = (max: number) => z.string({ error: 'must be text' }).trim().max(max, { error: `must be at most ${max} characters` });
+
+/**
+ * The handover beyond the criteria: what the ED prepares for. Every part is optional and none
+ * is read by the criteria (the anticoagulant flag above is the one they read).
+ */
+export const Handover = z.object(
+  {
+    injuredAt: when.nullable().optional(),
+    anticoagulantName: shortText(80).nullable().optional(),
+    anticoagulantLastDoseAt: when.nullable().optional(),
+    treatments: z
+      .array(oneOf(TREATMENTS), { error: 'must be a list' })
+      .max(TREATMENTS.length, { error: `must hold at most ${TREATMENTS.length} entries` })
+      .refine((list) => new Set(list).size === list.length, { error: 'must not repeat an entry' })
+      .optional(),
+    allergies: shortText(200).nullable().optional(),
+  },
+  { error: 'must be an object' },
+);
+export type Handover = z.infer<typeof Handover>;
 
 export const ClinicalInput = z.object(
   {
@@ -79,6 +108,7 @@ export const ClinicalInput = z.object(
     vitals: Vitals.nullable().optional(),
     findings: z.array(oneOf(FINDINGS), { error: 'must be a list' }).optional(),
     considerations: z.array(oneOf(CONSIDERATIONS), { error: 'must be a list' }).optional(),
+    handover: Handover.nullable().optional(),
   },
   { error: 'must be an object with ageYears and fall' },
 );
