@@ -10,6 +10,7 @@ import { boardRouter } from './board';
 import { reviewRouter } from './review';
 import { crewRouter } from './crew';
 import { qualityRouter } from './quality';
+import { baysRouter } from './bays';
 
 /** Every API router, in mounting order. A new resource adds its router here. */
-export const apiRouters: Array<(deps: AppDeps) => Router> = [healthRouter, meRouter, mailRouter, casesRouter, policiesRouter, peopleRouter, reviewRouter, crewRouter, boardRouter, qualityRouter];
+export const apiRouters: Array<(deps: AppDeps) => Router> = [healthRouter, meRouter, mailRouter, casesRouter, policiesRouter, peopleRouter, reviewRouter, crewRouter, boardRouter, qualityRouter, baysRouter];

@@ -22,6 +22,7 @@ import { AppError, conflict, forbidden, invalid, parseOr400 } from '../errors';
 import type { Mailer } from '../mail';
 import { GENESIS_HASH, newestAuditRow, recordCaseEvent, type Actor } from './audit';
 import { caseSummary, listCaseSummariesJson, listCaseSummariesPage, loadCaseRow, type CaseActor } from './cases';
+import { casesInBay } from './bays';
 import { composePage, hospitalClock, notificationList } from './paging';
 import { policyInForce } from './policies';
 
@@ -195,9 +196,14 @@ const planners: { [A in Exclude<BoardAction, 'page'>]: Planner<A> } = {
     };
   },
 
-  bay(row, body) {
+  async bay(row, body, { db }) {
     needsAcknowledged(row);
-    return { update: { bay: body.bay }, data: { bay: body.bay }, before: { bay: row.bay } };
+    // Two patients in one bay is a mistake unless the nurse means it: warn, and ask again.
+    const others = await casesInBay(db, row.hospital_id, body.bay, row.id);
+    if (others.length && !body.confirmOccupied) {
+      throw new AppError(409, 'bay_occupied', `${body.bay} is already assigned to case ${others.map((o) => o.case_number).join(', ')}. Assign it anyway only if both patients really share it.`);
+    }
+    return { update: { bay: body.bay }, data: { bay: body.bay, sharedWith: others.map((o) => o.id) }, before: { bay: row.bay } };
   },
 
   arrived(row, body, { at }) {

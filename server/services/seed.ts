@@ -3,6 +3,7 @@ import type { Role } from '../../shared/roles';
 import { hashPassword } from '../auth/passwords';
 import type { Clock } from '../deps';
 import { seedNotificationLists } from './people';
+import { seedBays } from './bays';
 import { seedDemoReviews } from './review-demo';
 import { seedBoardDemo } from './board-demo';
 import { seedDemoOutcomes } from './quality-demo';
@@ -72,4 +73,4 @@ export async function seedDemo(db: Knex, clock: Clock): Promise<DemoIds> {
 }
 
 /** Later features add their demo records (past cases, outcomes, policies) through these. */
-export const demoExtensions: Array<(db: Knex, ids: DemoIds, clock: Clock) => Promise<void>> = [seedNotificationLists, seedBoardDemo, seedDemoReviews, seedDemoOutcomes];
+export const demoExtensions: Array<(db: Knex, ids: DemoIds, clock: Clock) => Promise<void>> = [seedNotificationLists, seedBays, seedBoardDemo, seedDemoReviews, seedDemoOutcomes];

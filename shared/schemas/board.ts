@@ -1,7 +1,7 @@
 import { z } from 'zod';
 import { LEVEL_IDS, type LevelId } from '../triage/policy';
 import type { CaseSummary } from './cases';
-import { treatmentOptions, type ClinicalInput } from './clinical';
+import { surfaceOptions, treatmentOptions, type ClinicalInput } from './clinical';
 
 // The charge nurse's actions on a case. Each body carries the rowVersion the nurse's board
 // showed, so of two nurses acting on the same case at once the first wins and the second is told.
@@ -33,6 +33,8 @@ export const REASON_MIN = 3;
 export const BoardBay = z.object({
   rowVersion,
   bay: z.string({ error: 'must be text' }).trim().min(1, { error: 'must name the bay' }).max(40, { error: 'must be at most 40 characters' }),
+  /** The nurse saw that another open case has this bay and assigns it anyway. */
+  confirmOccupied: z.boolean({ error: 'must be true or false' }).optional(),
 });
 export type BoardBay = z.infer<typeof BoardBay>;
 
@@ -159,7 +161,7 @@ export interface HandoverLine { label: string; text: string }
  * The crew's handover beyond the criteria, in the order a pre-alert is spoken; only what the
  * crew gave. `clock` shows a time the way the reader's screen or e-mail shows times.
  */
-export function handoverLines(input: ClinicalInput, clock: (at: number) => string): HandoverLine[] {
+export function handoverLines(input: Pick<ClinicalInput, 'handover'>, clock: (at: number) => string): HandoverLine[] {
   const h = input.handover;
   const lines: HandoverLine[] = [];
   if (h?.injuredAt != null) lines.push({ label: 'Time of injury', text: clock(h.injuredAt) });
@@ -182,4 +184,14 @@ export function formatFallHeightAsEntered(fall: ClinicalInput['fall'], unit: 'm'
   if (!entered || entered.unit === unit || fall.heightM === 0) return shown;
   const word = entered.unit === 'storeys' ? (entered.value === 1 ? 'storey' : 'storeys') : entered.unit;
   return `${shown} (entered as ${entered.value} ${word})`;
+}
+
+/** Where the patient landed, as a phrase after the height: "onto concrete", "down stairs"; empty when not known. */
+export function landingPhrase(surface: string | null | undefined): string {
+  if (!surface || surface === 'unknown') return '';
+  if (surface === 'stairs') return 'down stairs';
+  if (surface === 'vehicle') return 'onto a vehicle';
+  if (surface === 'other') return 'onto something else';
+  const label = surfaceOptions.find((o) => o.id === surface)?.label ?? surface;
+  return `onto ${label.toLowerCase()}`;
 }

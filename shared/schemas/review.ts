@@ -1,3 +1,4 @@
+import type { Handover } from './clinical';
 import { z } from 'zod';
 import { LEVEL_IDS, type LevelId } from '../triage/policy';
 import type { CaseState, CaseSummary, CaseEventView } from './cases';
@@ -156,6 +157,8 @@ export interface TimelineRevision {
   missing: Evaluation['missing'];
   policy: Evaluation['policy'];
   vitals: Record<string, unknown> | null;
+  /** The crew's handover at this revision (time of injury, anticoagulant, treatment, allergies). */
+  handover: Handover | null;
 }
 
 export interface CaseTimeline {
