@@ -110,6 +110,7 @@ describeInBrowser('handover, urgency order, wall and bays in Chromium', () => {
 
   it('the crew gives the handover and notes on a phone; the stored height is the figure they typed', async () => {
     const page = medic.page;
+    await page.getByLabel('ETA (minutes from now)', { exact: true }).fill('25');
     await page.getByLabel('Heart rate (HR) (/min)', { exact: true }).fill('96');
     await page.getByLabel('Systolic BP (SBP) (mmHg)', { exact: true }).fill('132');
     await page.getByRole('group', { name: 'Anticoagulants', exact: true }).getByText('Yes', { exact: true }).click();
@@ -180,6 +181,8 @@ describeInBrowser('handover, urgency order, wall and bays in Chromium', () => {
     nurse = await newSignedInPage(browser, server.url, 'nurse@plumbline.test', { path: '/board', device: DESK_800 });
     errors.push(...collectPageErrors(nurse.page));
     const page = nurse.page;
+    // A step that cannot happen fails on its own line, not at the test's time limit.
+    page.setDefaultTimeout(8000);
     await page.locator('article.case-card').first().waitFor();
     await shot(page, 'i17-board-desk-1280');
     const order = await page.locator('article[data-case-number]').evaluateAll((cards) => cards.map((c) => c.getAttribute('data-case-number')));
@@ -252,24 +255,24 @@ describeInBrowser('handover, urgency order, wall and bays in Chromium', () => {
     await expect.poll(() => card.locator('.mark').count()).toBe(0);
     await act(card, 'Assign bay');
     const dialog = page.getByRole('dialog', { name: 'Assign a resus bay' });
-    await dialog.getByRole('button', { name: 'Resus 1', exact: true }).click();
-    await expect.poll(() => card.locator('.bay').textContent()).toBe('Resus 1');
+    await dialog.getByRole('button', { name: 'Majors 2', exact: true }).click();
+    await expect.poll(() => card.locator('.bay').textContent()).toBe('Majors 2');
 
     const other = (await server.db('cases').where({ hospital_id: general }).whereNotNull('acknowledged_at').whereNull('bay').whereIn('state', ['acknowledged']).first('id', 'case_number', 'row_version'))!;
-    const refused = await nurseApi.send('POST', `/api/cases/${other.id}/bay`, { rowVersion: other.row_version, bay: 'Resus 1' });
+    const refused = await nurseApi.send('POST', `/api/cases/${other.id}/bay`, { rowVersion: other.row_version, bay: 'Majors 2' });
     expect(refused.status).toBe(409);
     expect((await refused.json()).error.code).toBe('bay_occupied');
 
     const otherCard = page.locator(`article[data-case-number="${other.case_number}"]`);
     await act(otherCard, 'Assign bay');
-    await dialog.getByRole('button', { name: `Resus 1 (taken: ${sentNumber})` }).click();
+    await dialog.getByRole('button', { name: `Majors 2 (taken: ${sentNumber})` }).click();
     const warning = dialog.getByRole('alert').filter({ hasText: 'already has case' });
-    await expect.poll(() => warning.textContent()).toContain(`Resus 1 already has case ${sentNumber}.`);
+    await expect.poll(() => warning.textContent()).toContain(`Majors 2 already has case ${sentNumber}.`);
     expect((await server.db('cases').where({ id: other.id }).first('bay')).bay).toBeNull();
     await expectAccessible(page, 'Bay dialog with the double-booking warning');
     await shot(page, 'i17-bay-warning-1280');
-    await dialog.getByRole('button', { name: 'Assign Resus 1 anyway' }).click();
-    await expect.poll(() => otherCard.locator('.bay').textContent()).toBe('Resus 1');
+    await dialog.getByRole('button', { name: 'Assign Majors 2 anyway' }).click();
+    await expect.poll(() => otherCard.locator('.bay').textContent()).toBe('Majors 2');
   });
 
   it('the page e-mail carries the notes and handover, with the ETA in words and times in the hospital’s zone', async () => {
@@ -284,7 +287,7 @@ describeInBrowser('handover, urgency order, wall and bays in Chromium', () => {
     await page.getByRole('button', { name: 'Page Trauma consult' }).click();
     await expect.poll(async () => (await server.db('mail_messages').where('subject', 'like', `%case ${sentNumber})`).count({ n: '*' }).first())!.n).toBe(1);
     const mail = await server.db('mail_messages').where('subject', 'like', `%case ${sentNumber})`).first('subject', 'text');
-    expect(mail.subject).toMatch(/ETA \d\d:\d\d UTC \(in \d+ min\), Resus 1/);
+    expect(mail.subject).toMatch(/ETA \d\d:\d\d UTC \(in \d+ min\), Majors 2/);
     expect(mail.text).toContain("Crew's notes: Fell from a loft ladder onto a tiled floor; wife on scene.");
     expect(mail.text).toMatch(/Time of injury: \d\d:\d\d UTC/);
     expect(mail.text).toMatch(/Anticoagulant: apixaban, last dose \d\d:\d\d UTC/);
