@@ -84,8 +84,10 @@ describeInBrowser('the Inbound board in Chromium', () => {
     expect(text).toContain('New: not yet acknowledged');
     expect(text).toContain('Fall 18 ft onto concrete');
     expect(text).toMatch(/SBP\s*82/);
-    // The soonest ETA is first on the board.
-    expect(await page.locator('section[aria-labelledby="on-the-way"] article').first().getAttribute('data-case-number')).toBe(sent.caseNumber);
+    // Urgent first: a new full-team case sits above every acknowledged case on the board.
+    const order = await page.locator('section[aria-labelledby="on-the-way"] article').evaluateAll((cards) => cards.map((c) => [c.getAttribute('data-case-number'), c.classList.contains('waiting')] as const));
+    const at = order.findIndex(([n]) => n === sent.caseNumber);
+    expect(order.slice(0, at).every(([, waiting]) => waiting)).toBe(true);
     await expect.poll(() => page.locator('[aria-live="assertive"]').textContent()).toBe(`New pre-alert, case ${sent.caseNumber}: Full trauma team recommended.`);
   });
 
