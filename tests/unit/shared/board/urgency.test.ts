@@ -1,6 +1,5 @@
 import { describe, expect, it } from 'vitest';
 import { byUrgency, STALE_AFTER_MS, urgencyGroup, type UrgencyFacts } from '../../../../shared/board/urgency';
-import { onlyChanged } from '../../../../src/components/pre-alert/clinical-draft';
 
 // The order is the product's own rule (common practice on ED boards, no source): what needs a
 // person now comes first.
@@ -32,23 +31,5 @@ describe('one urgency order for every board and list', () => {
   it('a case becomes stale exactly 30 minutes past its ETA, not a minute before', () => {
     expect(urgencyGroup(base(1, { etaAt: NOW - STALE_AFTER_MS + MIN }), NOW)).toBe('waiting');
     expect(urgencyGroup(base(1, { etaAt: NOW - STALE_AFTER_MS }), NOW)).toBe('stale');
-  });
-});
-
-describe('an update carries only what the crew changed', () => {
-  it('a changed heart rate leaves 3.05 m exactly, though the form showed it as 10 ft', () => {
-    // 3.05 m / 0.3048 = 10.007 ft (international foot, by definition) shows as "10" in feet;
-    // 10 ft is 3.048 m, which would fall below the > 3.048 m criterion [source: Newgard 2022].
-    const stored = { ageYears: 50, fall: { heightM: 3.05, surface: 'grass' }, vitals: { sbp: 130, hr: 80 } };
-    const before = { ageYears: 50, fall: { heightM: 3.048, surface: 'grass', entered: { value: 10, unit: 'ft' } }, vitals: { sbp: 130, hr: 80 } };
-    const after = { ageYears: 50, fall: { heightM: 3.048, surface: 'grass', entered: { value: 10, unit: 'ft' } }, vitals: { sbp: 130, hr: 104 } };
-    expect(onlyChanged(stored, before, after)).toEqual({ ageYears: 50, fall: { heightM: 3.05, surface: 'grass' }, vitals: { sbp: 130, hr: 104 } });
-  });
-
-  it('a changed height takes the new figure and its metres together', () => {
-    const stored = { ageYears: 50, fall: { heightM: 3.05, entered: { value: 3.05, unit: 'm' } } };
-    const before = { ageYears: 50, fall: { heightM: 3.05, entered: { value: 3.05, unit: 'm' } } };
-    const after = { ageYears: 50, fall: { heightM: 6.096, entered: { value: 20, unit: 'ft' } } };
-    expect(onlyChanged(stored, before, after)).toEqual({ ageYears: 50, fall: { heightM: 6.096, entered: { value: 20, unit: 'ft' } } });
   });
 });
