@@ -1,6 +1,8 @@
 // The built-in identity provider's own pages: plain HTML in Plumbline's look, no scripts inline
 // (the Content-Security-Policy allows none) and nothing from another origin.
 
+import { demoAccounts } from '../services/demo-accounts';
+
 const escape = (value: string) =>
   value.replace(/[&<>"']/g, (ch) => ({ '&': '&amp;', '<': '&lt;', '>': '&gt;', '"': '&quot;', "'": '&#39;' })[ch]!);
 
@@ -28,9 +30,7 @@ export function signInPage(opts: { action: string; email?: string; error?: strin
   const described = opts.error ? ' aria-describedby="signin-error"' : '';
   const demo = opts.demo
     ? `<details class="demo"><summary>Demo sign-ins</summary><p>Every demo account uses the password <code>demo</code>:</p><ul>
-<li><code>paramedic@plumbline.test</code> (paramedic)</li><li><code>nurse@plumbline.test</code> (charge nurse)</li>
-<li><code>lead@plumbline.test</code> (trauma lead)</li><li><code>quality@plumbline.test</code> (quality team)</li>
-<li><code>admin@plumbline.test</code> (administrator)</li></ul></details>`
+${demoAccounts.map((a) => `<li><code>${escape(a.email)}</code> (${escape(a.label)})</li>`).join('\n')}</ul></details>`
     : '';
   return page(
     'Sign in',

@@ -5,7 +5,7 @@ import type { AppDeps } from '../deps';
 import { agencyIdsOf, hospitalIdsOf, requireRole, requireUser } from '../auth/guards';
 import { parseOr400 } from '../errors';
 import { CaseIdParam } from './params';
-import { caseEvents, caseForReader, caseRevisions, caseSummary, listCaseSummariesJson } from '../services/cases';
+import { caseEvents, caseForReader, caseRevisions, caseSummary, listCaseSummariesPage } from '../services/cases';
 import { sendJsonText } from './json-text';
 import { crewEvents, crewView, readsAsCrew } from '../services/crew';
 import type { CaseSummary } from '../../shared/schemas/cases';
@@ -23,15 +23,17 @@ export function casesRouter({ db, clock, catchUp }: AppDeps): Router {
     const me = req.me!;
     // A crew's screen reloads after every connection that did not recover: in the catch-up lane, behind pre-alerts.
     await catchUp.run(async () => {
-      const filter = { hospitalIds: hospitalIdsOf(me), agencyIds: agencyIdsOf(me), states: state === 'open' ? OPEN_STATES : undefined };
+      const at = clock.now();
+      const filter = { hospitalIds: hospitalIdsOf(me), agencyIds: agencyIdsOf(me), states: state === 'open' ? OPEN_STATES : undefined, now: at };
+      // total says how many matched when the list is cut at the cap (the most urgent kept).
+      const page = await listCaseSummariesPage(db, filter);
       if (!me.memberships.some((m) => m.kind === 'agency')) {
-        const cases = await listCaseSummariesJson(db, filter);
-        sendJsonText(res, `{"cases":${cases},"at":${clock.now()}}`);
+        sendJsonText(res, `{"cases":${page.json},"total":${page.total},"at":${at}}`);
         return;
       }
       // A crew member reads their agency's cases as the crew sees them.
-      const cases = (JSON.parse(await listCaseSummariesJson(db, filter)) as CaseSummary[]).map((summary) => (readsAsCrew(me, summary) ? crewView(summary) : summary));
-      res.json({ cases, at: clock.now() });
+      const cases = (JSON.parse(page.json) as CaseSummary[]).map((summary) => (readsAsCrew(me, summary) ? crewView(summary) : summary));
+      res.json({ cases, total: page.total, at });
     });
   });
   router.get('/api/cases/:id', requireUser(db), requireRole(...readers), async (req, res) => {

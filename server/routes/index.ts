@@ -15,6 +15,7 @@ import { auditRouter } from './audit';
 import { exchangeRouter } from './exchange';
 import { machineClientsRouter } from './machine-clients';
 import { openApiRouter } from './openapi';
+import { baysRouter } from './bays';
 
 /** Every API router, in mounting order. A new resource adds its router here. */
-export const apiRouters: Array<(deps: AppDeps) => Router> = [healthRouter, meRouter, mailRouter, casesRouter, policiesRouter, peopleRouter, reviewRouter, crewRouter, boardRouter, qualityRouter, pagingRouter, auditRouter, exchangeRouter, machineClientsRouter, openApiRouter];
+export const apiRouters: Array<(deps: AppDeps) => Router> = [healthRouter, meRouter, mailRouter, casesRouter, policiesRouter, peopleRouter, reviewRouter, crewRouter, boardRouter, qualityRouter, pagingRouter, auditRouter, exchangeRouter, machineClientsRouter, baysRouter, openApiRouter];

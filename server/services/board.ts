@@ -21,8 +21,9 @@ import type { Clock } from '../deps';
 import { AppError, conflict, forbidden, invalid, parseOr400 } from '../errors';
 import type { Mailer } from '../mail';
 import { GENESIS_HASH, newestAuditRow, recordCaseEvent, type Actor } from './audit';
-import { caseSummary, listCaseSummariesJson, loadCaseRow, type CaseActor } from './cases';
-import { composePage, notificationList } from './paging';
+import { caseSummary, listCaseSummariesJson, listCaseSummariesPage, loadCaseRow, type CaseActor } from './cases';
+import { casesInBay } from './bays';
+import { composePage, hospitalClock, notificationList } from './paging';
 import { policyInForce } from './policies';
 import { hasTierOneEntries } from './sms-paging';
 import { getSetting } from './settings';
@@ -96,14 +97,16 @@ export async function boardSnapshotJson(db: Knex, clock: Clock, me: Me, hospital
   if (after !== null) {
     // The open ids before the changes: a case made in between is then among the changes (and
     // shown) rather than only among the ids, which would send the board back for the whole list.
-    const openIds = (await db('cases').where({ hospital_id: id }).whereIn('state', OPEN_STATES).orderBy('id').limit(MOST_CHANGES).pluck('id')) as number[];
+    const openIds = (await db('cases').where({ hospital_id: id }).whereIn('state', OPEN_STATES).orderBy('id').limit(MOST_CHANGES + 1).pluck('id')) as number[];
     const changed = await casesChangedAfter(db, after);
-    if (changed) {
-      const cases = changed.length ? await listCaseSummariesJson(db, { ids: changed, hospitalIds: [id], states: OPEN_STATES }) : '[]';
-      return `${start},"changesSince":"${changesSince}","openIds":${JSON.stringify(openIds)},"cases":${cases}}`;
+    // More open than one list carries: the whole list, cut by urgency and saying what it left out.
+    if (changed && openIds.length <= MOST_CHANGES) {
+      const cases = changed.length ? await listCaseSummariesJson(db, { ids: changed, hospitalIds: [id], states: OPEN_STATES, now: at }) : '[]';
+      return `${start},"changesSince":"${changesSince}","openIds":${JSON.stringify(openIds)},"openTotal":${openIds.length},"cases":${cases}}`;
     }
   }
-  return `${start},"cases":${await listCaseSummariesJson(db, { hospitalIds: [id], states: OPEN_STATES })}}`;
+  const page = await listCaseSummariesPage(db, { hospitalIds: [id], states: OPEN_STATES, now: at });
+  return `${start},"openTotal":${page.total},"cases":${page.json}}`;
 }
 
 /** The level names of the policy version that evaluated a case (its names may differ from today's). */
@@ -196,9 +199,14 @@ const planners: { [A in Exclude<BoardAction, 'page'>]: Planner<A> } = {
     };
   },
 
-  bay(row, body) {
+  async bay(row, body, { db }) {
     needsAcknowledged(row);
-    return { update: { bay: body.bay }, data: { bay: body.bay }, before: { bay: row.bay } };
+    // Two patients in one bay is a mistake unless the nurse means it: warn, and ask again.
+    const others = await casesInBay(db, row.hospital_id, body.bay, row.id);
+    if (others.length && !body.confirmOccupied) {
+      throw new AppError(409, 'bay_occupied', `${body.bay} is already assigned to case ${others.map((o) => o.case_number).join(', ')}. Assign it anyway only if both patients really share it.`);
+    }
+    return { update: { bay: body.bay }, data: { bay: body.bay, sharedWith: others.map((o) => o.id) }, before: { bay: row.bay } };
   },
 
   arrived(row, body, { at }) {
@@ -291,7 +299,7 @@ async function pageTeam(deps: BoardDeps, actor: CaseActor, row: CaseRow, at: num
   if (!recipients.length && !(await hasTierOneEntries(db, row.hospital_id, level!))) await refuse(db, row.id, 409, 'no_recipients', `The ${levelName(levels, level)} list has no addresses. An administrator adds them in People & places.`);
 
   const before = await caseSummary(db, row.id);
-  const mail = composePage(before, level!, levels, at);
+  const mail = composePage(before, level!, levels, at, await hospitalClock(db, row.hospital_id));
   await commit(db, actor, row, 'page', at, {
     update: { paged_at: at },
     data: { level, list: level, recipients, subject: mail.subject, bay: row.bay, etaAt: row.eta_at == null ? null : Number(row.eta_at) },

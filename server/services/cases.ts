@@ -4,6 +4,7 @@ import { OPEN_STATES, type CaseCancel, type CaseEventView, type CaseRedirect, ty
 import type { ClinicalInput } from '../../shared/schemas/clinical';
 import { evaluate, type Evaluation, type FieldRisk } from '../../shared/triage/evaluate';
 import { LEVEL_RANK, type LevelId } from '../../shared/triage/policy';
+import { compareUrgency, type UrgencyFacts } from '../../shared/board/urgency';
 import { agencyIdsOf, hospitalIdsOf } from '../auth/guards';
 import type { Clock } from '../deps';
 import { conflict, forbidden, invalid, notFound } from '../errors';
@@ -238,7 +239,7 @@ export async function redirectCase(db: Knex, clock: Clock, actor: CaseActor, pay
       recommended_level: result.activation,
       level_rose: false,
       decided_level: null, decided_reason: null, decided_by: null, decided_at: null,
-      acknowledged_by: null, acknowledged_at: null, bay: null, paged_at: null, overdue_at: null,
+      acknowledged_by: null, acknowledged_at: null, bay: null, paged_at: null, overdue_at: null, escalation_step: 0,
       policy_id: result.policy.id,
       policy_version: result.policy.version,
       updated_at: at,
@@ -266,7 +267,40 @@ export interface CaseFilter {
   agencyIds?: number[];
   states?: readonly CaseState[];
   ids?: number[];
+  /** At most this many, the most urgent first (open lists) or the newest first (history). */
   limit?: number;
+  /** The time the urgency order is read at (a case long past its ETA sinks); now when absent. */
+  now?: number;
+}
+
+/** The longest list one answer carries; past it the answer says how many it leaves out [ours]. */
+export const LIST_CAP = 500;
+
+const URGENCY_COLUMNS = ['c.id', 'c.state', 'c.acknowledged_at', 'c.level_rose', 'c.overdue_at', 'c.decided_level', 'c.recommended_level', 'c.eta_at', 'c.created_at', 'c.arrived_at'];
+type UrgencyRow = Pick<CaseRow, 'id' | 'state' | 'acknowledged_at' | 'level_rose' | 'overdue_at' | 'decided_level' | 'recommended_level' | 'eta_at' | 'created_at' | 'arrived_at'>;
+const urgencyOfRow = (r: UrgencyRow): UrgencyFacts => ({
+  id: r.id, state: r.state, acknowledgedAt: num(r.acknowledged_at), levelRose: Boolean(r.level_rose), overdueAt: num(r.overdue_at),
+  decidedLevel: r.decided_level, recommendedLevel: r.recommended_level, etaAt: num(r.eta_at), createdAt: Number(r.created_at), arrivedAt: num(r.arrived_at),
+});
+const openOnly = (filter: CaseFilter) => !!filter.states && filter.states.every((s) => OPEN_STATES.includes(s));
+
+/**
+ * The rows a filter selects, in the shared urgency order for open lists (all of them read, so a
+ * flood never pushes an urgent case past the cap) or newest first for history, cut at the cap;
+ * with how many matched in all, so nothing is left out without saying so.
+ */
+async function orderedRows<T extends UrgencyRow>(db: Knex, filter: CaseFilter, select: (q: Knex.QueryBuilder) => Knex.QueryBuilder): Promise<{ rows: T[]; total: number }> {
+  const cap = filter.limit ?? LIST_CAP;
+  if (openOnly(filter) || filter.ids) {
+    const rows = (await select(filteredCases(db, filter))) as T[];
+    const now = filter.now ?? Date.now();
+    const facts = new Map(rows.map((r) => [r.id, urgencyOfRow(r)]));
+    rows.sort((a, b) => compareUrgency(facts.get(a.id)!, facts.get(b.id)!, now));
+    return { rows: rows.slice(0, cap), total: rows.length };
+  }
+  const rows = (await select(filteredCases(db, filter)).orderBy([{ column: 'c.created_at', order: 'desc' }, { column: 'c.id', order: 'desc' }]).limit(cap)) as T[];
+  const total = rows.length < cap ? rows.length : Number((await filteredCases(db, filter).count({ n: '*' }).first())?.n ?? rows.length);
+  return { rows, total };
 }
 
 interface ParsedRevision { input: ClinicalInput; result: Evaluation }
@@ -318,7 +352,7 @@ async function parsedRevisions(db: Knex, wanted: Array<[caseId: number, revision
   return found;
 }
 
-/** The cases a filter selects, with the names a summary shows joined in, in arrival order (no ETA last). */
+/** The cases a filter selects, with the names a summary shows joined in; orderedRows orders and cuts. */
 function filteredCases(db: Knex, filter: CaseFilter): Knex.QueryBuilder {
   const query = db('cases as c')
     .join('hospitals as h', 'h.id', 'c.hospital_id')
@@ -334,7 +368,7 @@ function filteredCases(db: Knex, filter: CaseFilter): Knex.QueryBuilder {
       if (filter.agencyIds) w.orWhereIn('c.agency_id', filter.agencyIds);
     });
   }
-  return query.orderByRaw('c.eta_at IS NULL, c.eta_at, c.created_at').limit(filter.limit ?? 500);
+  return query;
 }
 
 type ListedRow = CaseRow & {
@@ -344,10 +378,9 @@ type ListedRow = CaseRow & {
   acknowledged_by_name: string | null; decided_by_name: string | null;
 };
 
-/** Case summaries in arrival order (no ETA last), in three queries whatever the count (two once the revisions are cached). */
+/** Case summaries in the urgency order (history: newest first), in three queries whatever the count (two once the revisions are cached). */
 export async function listCaseSummaries(db: Knex, filter: CaseFilter): Promise<CaseSummary[]> {
-  const query = filteredCases(db, filter).select('c.*', 'h.name as hospital_name', 'h.height_unit', 'a.name as agency_name', 'u.call_sign', 'ack.name as acknowledged_by_name', 'dec.name as decided_by_name');
-  const rows = (await query) as ListedRow[];
+  const { rows } = await orderedRows<ListedRow>(db, filter, (q) => q.select('c.*', 'h.name as hospital_name', 'h.height_unit', 'a.name as agency_name', 'u.call_sign', 'ack.name as acknowledged_by_name', 'dec.name as decided_by_name'));
   if (!rows.length) return [];
   const ids = rows.map((r) => r.id as number);
   const revisions = await db('case_revisions as r')
@@ -427,7 +460,7 @@ export async function caseSummary(db: Knex, caseId: number): Promise<CaseSummary
 const SUMMARY_TEXT_CACHE_SIZE = 2000;
 const summaryTexts = new WeakMap<Knex, Map<number, { key: string; text: string }>>();
 
-interface SummaryKeyRow {
+interface SummaryKeyRow extends UrgencyRow {
   id: number; row_version: number; hospital_name: string; height_unit: string; agency_name: string;
   call_sign: string | null; ack_name: string | null; dec_name: string | null; by_name: string | null;
 }
@@ -435,20 +468,32 @@ const summaryKeyOf = (r: SummaryKeyRow) => [r.row_version, r.hospital_name, r.he
 
 /** The same cases as `listCaseSummaries`, in the same order, as one JSON array's text. */
 export async function listCaseSummariesJson(db: Knex, filter: CaseFilter): Promise<string> {
-  return `[${(await caseSummaryTexts(db, filter)).join(',')}]`;
+  return `[${(await caseSummaryTexts(db, filter)).texts.join(',')}]`;
+}
+
+/** As listCaseSummariesJson, with how many cases matched in all (more than listed when the cap cut the list). */
+export async function listCaseSummariesPage(db: Knex, filter: CaseFilter): Promise<{ json: string; total: number; listed: number }> {
+  const { texts, total } = await caseSummaryTexts(db, filter);
+  return { json: `[${texts.join(',')}]`, total, listed: texts.length };
 }
 
 /** The same cases as `listCaseSummaries`, in the same order, each as its JSON text. */
-async function caseSummaryTexts(db: Knex, filter: CaseFilter): Promise<string[]> {
-  if (db.isTransaction) return (await listCaseSummaries(db, filter)).map((summary) => JSON.stringify(summary));
+async function caseSummaryTexts(db: Knex, filter: CaseFilter): Promise<{ texts: string[]; total: number }> {
+  if (db.isTransaction) {
+    const all = await listCaseSummaries(db, { ...filter, limit: undefined });
+    const cap = filter.limit ?? LIST_CAP;
+    return { texts: all.slice(0, cap).map((summary) => JSON.stringify(summary)), total: all.length };
+  }
   let cache = summaryTexts.get(db);
   if (!cache) summaryTexts.set(db, (cache = new Map()));
-  const keyRows = (await filteredCases(db, filter)
-    .leftJoin('case_revisions as r', function () {
-      this.on('r.case_id', '=', 'c.id').andOn('r.revision', '=', 'c.current_revision');
-    })
-    .leftJoin('users as by', 'by.id', 'r.created_by')
-    .select('c.id', 'c.row_version', 'h.name as hospital_name', 'h.height_unit', 'a.name as agency_name', 'u.call_sign', 'ack.name as ack_name', 'dec.name as dec_name', 'by.name as by_name')) as SummaryKeyRow[];
+  const { rows: keyRows, total } = await orderedRows<SummaryKeyRow>(db, filter, (q) =>
+    q
+      .leftJoin('case_revisions as r', function () {
+        this.on('r.case_id', '=', 'c.id').andOn('r.revision', '=', 'c.current_revision');
+      })
+      .leftJoin('users as by', 'by.id', 'r.created_by')
+      .select(...URGENCY_COLUMNS, 'c.row_version', 'h.name as hospital_name', 'h.height_unit', 'a.name as agency_name', 'u.call_sign', 'ack.name as ack_name', 'dec.name as dec_name', 'by.name as by_name'),
+  );
   const keys = keyRows.map(summaryKeyOf);
   const texts = keyRows.map((row, i) => {
     const kept = cache.get(row.id);
@@ -467,7 +512,7 @@ async function caseSummaryTexts(db: Knex, filter: CaseFilter): Promise<string[]>
       if (cache.size > SUMMARY_TEXT_CACHE_SIZE) cache.delete(cache.keys().next().value!);
     }
   }
-  return texts.filter((text) => text !== undefined);
+  return { texts: texts.filter((text) => text !== undefined), total };
 }
 
 /**
@@ -478,7 +523,7 @@ async function caseSummaryTexts(db: Knex, filter: CaseFilter): Promise<string[]>
 export async function primeCaseLists(db: Knex): Promise<number> {
   const hospitals = (await db('cases').whereIn('state', OPEN_STATES).distinct('hospital_id')) as Array<{ hospital_id: number }>;
   let cases = 0;
-  for (const { hospital_id } of hospitals) cases += (await caseSummaryTexts(db, { hospitalIds: [hospital_id], states: OPEN_STATES })).length;
+  for (const { hospital_id } of hospitals) cases += (await caseSummaryTexts(db, { hospitalIds: [hospital_id], states: OPEN_STATES })).texts.length;
   return cases;
 }
 

@@ -366,10 +366,12 @@ export async function seedNotificationLists(db: Knex, ids: { hospitals: { genera
     [ids.hospitals.general, 'limited', ['trauma-limited@alderwick-general.plumbline.test']],
     [ids.hospitals.general, 'consult', ['trauma-consult@alderwick-general.plumbline.test']],
     [ids.hospitals.general, 'escalation', ['ed-nurse-in-charge@alderwick-general.plumbline.test']],
+    [ids.hospitals.general, 'senior', ['ed-consultant-on-call@alderwick-general.plumbline.test']],
     [ids.hospitals.community, 'full', ['resus-team@fenmoor-community.plumbline.test']],
     [ids.hospitals.community, 'limited', ['resus-team@fenmoor-community.plumbline.test']],
     [ids.hospitals.community, 'consult', ['ed-senior@fenmoor-community.plumbline.test']],
     [ids.hospitals.community, 'escalation', ['ed-senior@fenmoor-community.plumbline.test']],
+    [ids.hospitals.community, 'senior', ['ed-consultant-on-call@fenmoor-community.plumbline.test']],
   ];
   await db('notification_lists').insert(lists.flatMap(([hospital_id, list, emails]) => emails.map((email) => ({ hospital_id, list, email }))));
 }

@@ -256,6 +256,7 @@ export async function caseTimeline(db: Knex, me: Me, caseId: number, at: number)
     missing: r.result.missing,
     policy: r.result.policy,
     vitals: (r.input.vitals ?? null) as Record<string, unknown> | null,
+    handover: r.input.handover ?? null,
   }));
   const reviews = await caseReviews(db, caseId);
   return {

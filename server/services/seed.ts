@@ -1,25 +1,19 @@
 import type { Knex } from 'knex';
-import type { Role } from '../../shared/roles';
 import { hashPassword } from '../auth/passwords';
 import type { Clock } from '../deps';
 import { seedNotificationLists } from './people';
+import { seedBays } from './bays';
 import { seedDemoReviews } from './review-demo';
 import { seedBoardDemo } from './board-demo';
 import { seedDemoOutcomes } from './quality-demo';
 import { seedProgrammeAddress } from './audit-checkpoints';
+import { demoAccounts } from './demo-accounts';
 
 // The invented demo scenario: Alderwick County, one Level I trauma centre, one community
 // hospital, one county ambulance service. Every name here is made up.
 export const DEMO_PASSWORD = 'demo';
 
-export const demoAccounts: Array<{ email: string; name: string; roles: Role[]; label: string }> = [
-  { email: 'paramedic@plumbline.test', name: 'Robin Vasquez-Hale', roles: ['paramedic'], label: 'paramedic, Alderwick County Ambulance' },
-  { email: 'nurse@plumbline.test', name: 'Morgan Achterberg', roles: ['charge_nurse'], label: 'charge nurse, Alderwick General' },
-  { email: 'fenmoor.nurse@plumbline.test', name: 'Ilse Brannagh', roles: ['charge_nurse'], label: 'charge nurse, Fenmoor Community' },
-  { email: 'lead@plumbline.test', name: 'Dr. Sasha Imbert', roles: ['trauma_lead'], label: 'trauma lead, Alderwick General' },
-  { email: 'quality@plumbline.test', name: 'Jules Oyelaran', roles: ['quality'], label: 'quality team, Alderwick General' },
-  { email: 'admin@plumbline.test', name: 'Kit Marchetti', roles: ['admin'], label: 'administrator, all of Alderwick County' },
-];
+export { demoAccounts };
 
 export async function isEmpty(db: Knex): Promise<boolean> {
   const row = await db('users').count({ n: '*' }).first();
@@ -73,4 +67,4 @@ export async function seedDemo(db: Knex, clock: Clock): Promise<DemoIds> {
 }
 
 /** Later features add their demo records (past cases, outcomes, policies) through these. */
-export const demoExtensions: Array<(db: Knex, ids: DemoIds, clock: Clock) => Promise<void>> = [seedNotificationLists, seedBoardDemo, seedDemoReviews, seedDemoOutcomes, seedProgrammeAddress];
+export const demoExtensions: Array<(db: Knex, ids: DemoIds, clock: Clock) => Promise<void>> = [seedNotificationLists, seedBays, seedBoardDemo, seedDemoReviews, seedDemoOutcomes, seedProgrammeAddress];

@@ -11,6 +11,11 @@ export const SETTING_DEFAULTS: Record<string, unknown> = {
   'response.targetMinutes': 15,
   // Share of highest-level activations that should meet it [memory: trauma-centre standard, SOURCES.md §5].
   'response.compliance': 0.8,
+  // The zone a hospital's pages and notices give their times in; the server's own until set.
+  'hospital.timeZone': Intl.DateTimeFormat().resolvedOptions().timeZone || 'UTC',
+  // Escalation steps after the first (which is the hospital's escalation minutes, to its
+  // escalation list): each a multiple of those minutes and a list [ours].
+  'escalation.laterSteps': [{ times: 2, list: 'senior' }],
 };
 
 /** The hospital's own value, else the product-wide one, else the code's default (or `fallback`). */

@@ -2,6 +2,7 @@ import { z } from 'zod';
 import { safeText } from './text';
 import { LEVEL_IDS, type LevelId } from '../triage/policy';
 import type { CaseSummary } from './cases';
+import { surfaceOptions, treatmentOptions, type ClinicalInput } from './clinical';
 
 // The charge nurse's actions on a case. Each body carries the rowVersion the nurse's board
 // showed, so of two nurses acting on the same case at once the first wins and the second is told.
@@ -33,6 +34,8 @@ export const REASON_MIN = 3;
 export const BoardBay = z.object({
   rowVersion,
   bay: safeText({ max: 40, tooShort: 'must name the bay' }),
+  /** The nurse saw that another open case has this bay and assigns it anyway. */
+  confirmOccupied: z.boolean({ error: 'must be true or false' }).optional(),
 });
 export type BoardBay = z.infer<typeof BoardBay>;
 
@@ -105,6 +108,11 @@ export interface BoardSnapshot {
    */
   changesSince?: string;
   openIds?: number[];
+  /**
+   * How many cases are open at this hospital in all. A whole list holds at most the server's cap
+   * (the most urgent first); when this is larger the board says how many it does not show.
+   */
+  openTotal?: number;
 }
 
 /** A change cursor as the server writes it: the audit row's id, and the start of its hash. */
@@ -146,4 +154,46 @@ export function formatAgeSex(ageYears: number, sex: string | null | undefined): 
 export function levelName(levels: readonly BoardLevel[], id: LevelId | null | undefined): string {
   if (!id) return 'not decided';
   return levels.find((l) => l.id === id)?.name ?? id;
+}
+
+/** One line of the handover as the card, the page and the printed sheet show it. */
+export interface HandoverLine { label: string; text: string }
+
+/**
+ * The crew's handover beyond the criteria, in the order a pre-alert is spoken; only what the
+ * crew gave. `clock` shows a time the way the reader's screen or e-mail shows times.
+ */
+export function handoverLines(input: Pick<ClinicalInput, 'handover'>, clock: (at: number) => string): HandoverLine[] {
+  const h = input.handover;
+  const lines: HandoverLine[] = [];
+  if (h?.injuredAt != null) lines.push({ label: 'Time of injury', text: clock(h.injuredAt) });
+  if (h?.anticoagulantName || h?.anticoagulantLastDoseAt != null) {
+    const dose = h.anticoagulantLastDoseAt != null ? `last dose ${clock(h.anticoagulantLastDoseAt)}` : 'last dose not known';
+    lines.push({ label: 'Anticoagulant', text: `${h.anticoagulantName || 'name not given'}, ${dose}` });
+  }
+  if (h?.treatments?.length) lines.push({ label: 'Treatment given', text: h.treatments.map((t) => treatmentOptions.find((o) => o.id === t)?.label ?? t).join(', ') });
+  if (h?.allergies) lines.push({ label: 'Allergies', text: h.allergies });
+  return lines;
+}
+
+/**
+ * The fall height in the hospital's unit to one decimal, with the crew's own figure beside it
+ * when they gave another unit: "10.0 ft (entered as 3.05 m)".
+ */
+export function formatFallHeightAsEntered(fall: ClinicalInput['fall'], unit: 'm' | 'ft' | 'storeys'): string {
+  const shown = formatFallHeight(fall.heightM, unit);
+  const entered = fall.entered;
+  if (!entered || entered.unit === unit || fall.heightM === 0) return shown;
+  const word = entered.unit === 'storeys' ? (entered.value === 1 ? 'storey' : 'storeys') : entered.unit;
+  return `${shown} (entered as ${entered.value} ${word})`;
+}
+
+/** Where the patient landed, as a phrase after the height: "onto concrete", "down stairs"; empty when not known. */
+export function landingPhrase(surface: string | null | undefined): string {
+  if (!surface || surface === 'unknown') return '';
+  if (surface === 'stairs') return 'down stairs';
+  if (surface === 'vehicle') return 'onto a vehicle';
+  if (surface === 'other') return 'onto something else';
+  const label = surfaceOptions.find((o) => o.id === surface)?.label ?? surface;
+  return `onto ${label.toLowerCase()}`;
 }

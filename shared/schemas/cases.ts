@@ -8,6 +8,15 @@ export const CASE_STATES = ['en-route', 'acknowledged', 'arrived', 'closed', 'ca
 export type CaseState = (typeof CASE_STATES)[number];
 export const OPEN_STATES: readonly CaseState[] = ['en-route', 'acknowledged', 'arrived'];
 
+/** One word for each state, the same on every screen and in every message. */
+export const STATE_WORDS: Readonly<Record<CaseState, string>> = {
+  'en-route': 'On the way',
+  acknowledged: 'Acknowledged',
+  arrived: 'Arrived',
+  closed: 'Closed',
+  cancelled: 'Cancelled',
+};
+
 const id = (what: string) => z.number({ error: `must be the ${what}'s number` }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' });
 const eta = z.number({ error: 'must be a number of minutes' }).int({ error: 'must be whole minutes' }).min(0, { error: 'must be at least 0' }).max(600, { error: 'must be at most 600 minutes' });
 const notes = safeText({ max: 2000, min: 0, lines: true });

@@ -5,6 +5,9 @@ export interface Option<Id extends string> {
   readonly label: string;
 }
 
+export const HEIGHT_UNITS = ['m', 'ft', 'storeys'] as const;
+export type HeightUnit = (typeof HEIGHT_UNITS)[number];
+
 export const SEXES = ['female', 'male', 'other', 'unknown'] as const;
 export type Sex = (typeof SEXES)[number];
 
@@ -87,4 +90,19 @@ export const considerationOptions: readonly Option<Consideration>[] = [
   { id: 'burns', label: 'Burns as well as the injury' },
   { id: 'receiving-blood', label: 'Receiving blood to keep vital signs up' },
   { id: 'ems-concern', label: 'Crew is worried' },
+];
+
+// What the crew has already done, in the order a pre-alert usually says it (mechanism,
+// injuries, signs, treatment: common practice in ambulance pre-alerts, no source).
+export const TREATMENTS = ['tourniquet', 'pelvic-binder', 'splint', 'airway', 'oxygen', 'fluids-blood', 'analgesia'] as const;
+export type Treatment = (typeof TREATMENTS)[number];
+
+export const treatmentOptions: readonly Option<Treatment>[] = [
+  { id: 'tourniquet', label: 'Tourniquet' },
+  { id: 'pelvic-binder', label: 'Pelvic binder' },
+  { id: 'splint', label: 'Splint' },
+  { id: 'airway', label: 'Airway management' },
+  { id: 'oxygen', label: 'Oxygen' },
+  { id: 'fluids-blood', label: 'Fluids or blood' },
+  { id: 'analgesia', label: 'Pain relief' },
 ];

@@ -1,6 +1,7 @@
 import { z } from 'zod';
-import { CONSIDERATIONS, FINDINGS, FIRST_IMPACT_REGIONS, SEXES, SURFACES } from './clinical-options';
+import { CONSIDERATIONS, FINDINGS, FIRST_IMPACT_REGIONS, HEIGHT_UNITS, SEXES, SURFACES, TREATMENTS } from './clinical-options';
 import { gcsTotalOf } from './units';
+import { cleanText } from './text';
 
 export * from './clinical-options';
 export { describeIssues, formatIssue, fieldPath, type FieldIssue } from './issues';
@@ -28,10 +29,13 @@ function oneOf<const T extends readonly [string, ...string[]]>(values: T) {
 export const CLINICAL_FIELDS = [
   'ageYears', 'sex', 'pregnancyWeeks', 'anticoagulant', 'weightKg', 'bodyHeightCm',
   'fall', 'fall.heightM', 'fall.surface', 'fall.firstImpact', 'fall.headImpact',
+  'fall.entered', 'fall.entered.value', 'fall.entered.unit',
   'vitals', 'vitals.sbp', 'vitals.hr', 'vitals.rr', 'vitals.spo2', 'vitals.spo2RoomAir',
   'vitals.gcs', 'vitals.gcs.eye', 'vitals.gcs.verbal', 'vitals.gcs.motor', 'vitals.gcsTotal',
   'vitals.intubated', 'vitals.respiratorySupport', 'vitals.respiratoryDistress',
   'findings', 'considerations',
+  'handover', 'handover.injuredAt', 'handover.anticoagulantName', 'handover.anticoagulantLastDoseAt',
+  'handover.treatments', 'handover.allergies',
 ] as const;
 
 function editDistance(a: string, b: string): number {
@@ -134,6 +138,11 @@ export const Fall = strict(
     surface: oneOf(SURFACES).nullable().optional(),
     firstImpact: oneOf(FIRST_IMPACT_REGIONS).nullable().optional(),
     headImpact: flag(),
+    // The height as the crew typed it: shown and edited in their figure, never re-rounded
+    // through another unit. heightM beside it is what the criteria read.
+    entered: strict({ value: measure(0, 4000), unit: oneOf(HEIGHT_UNITS) }, 'must be an object with value and unit')
+      .nullable()
+      .optional(),
   },
   'must be an object with heightM',
 );
@@ -147,6 +156,27 @@ function idList<const T extends readonly [string, ...string[]]>(values: T) {
     .refine((list) => new Set(list).size === list.length, { error: 'must list each id at most once' })
     .optional();
 }
+
+const when = z.number({ error: 'must be a time (milliseconds since 1970)' }).int({ error: 'must be whole milliseconds' }).positive({ error: 'must be a time' });
+// Free text of the handover: control characters and direction overrides removed (text.ts), then bounded.
+const shortText = (max: number) =>
+  z.string({ error: 'must be text' }).transform((value) => cleanText(value)).pipe(z.string().max(max, { error: `must be at most ${max} characters` }));
+
+/**
+ * The handover beyond the criteria: what the ED prepares for. Every part is optional and none
+ * is read by the criteria (the anticoagulant flag above is the one they read).
+ */
+export const Handover = strict(
+  {
+    injuredAt: when.nullable().optional(),
+    anticoagulantName: shortText(80).nullable().optional(),
+    anticoagulantLastDoseAt: when.nullable().optional(),
+    treatments: idList(TREATMENTS),
+    allergies: shortText(200).nullable().optional(),
+  },
+  'must be an object',
+);
+export type Handover = z.infer<typeof Handover>;
 
 export const ClinicalInput = strict(
   {
@@ -163,6 +193,7 @@ export const ClinicalInput = strict(
     vitals: Vitals.nullable().optional(),
     findings: idList(FINDINGS),
     considerations: idList(CONSIDERATIONS),
+    handover: Handover.nullable().optional(),
   },
   'must be an object with ageYears and fall',
 ).superRefine((input, ctx) => {

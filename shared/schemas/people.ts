@@ -34,15 +34,19 @@ export const SetPassword = z.object({
 });
 export type SetPassword = z.infer<typeof SetPassword>;
 
-export const NOTIFICATION_LISTS = ['full', 'limited', 'consult', 'escalation'] as const;
+// 'senior' is the second escalation step's list (the ED consultant on call, say); it came later,
+// so a hospital saved without it simply has it empty.
+export const NOTIFICATION_LISTS = ['full', 'limited', 'consult', 'escalation', 'senior'] as const;
 export type NotificationListId = (typeof NOTIFICATION_LISTS)[number];
 
-export const NotificationLists = z.object(
-  Object.fromEntries(NOTIFICATION_LISTS.map((list) => [list, z.array(EmailAddress, { error: 'must be a list of addresses' }).max(50, { error: 'must hold at most 50 addresses' })])) as Record<
-    NotificationListId,
-    z.ZodArray<typeof EmailAddress>
-  >,
-);
+const addressList = () => z.array(EmailAddress, { error: 'must be a list of addresses' }).max(50, { error: 'must hold at most 50 addresses' });
+export const NotificationLists = z.object({
+  full: addressList(),
+  limited: addressList(),
+  consult: addressList(),
+  escalation: addressList(),
+  senior: addressList().default([]),
+});
 export type NotificationLists = z.infer<typeof NotificationLists>;
 
 export const TraumaLevel = z.enum(['I', 'II', 'III', 'IV', 'none'], { error: 'must be I, II, III, IV or none' });

@@ -1,3 +1,4 @@
+import type { Handover } from './clinical';
 import { z } from 'zod';
 import { safeText } from './text';
 import { boundedDate, spanIssue, withinMaxSpan } from './dates';
@@ -160,6 +161,8 @@ export interface TimelineRevision {
   missing: Evaluation['missing'];
   policy: Evaluation['policy'];
   vitals: Record<string, unknown> | null;
+  /** The crew's handover at this revision (time of injury, anticoagulant, treatment, allergies). */
+  handover: Handover | null;
 }
 
 export interface CaseTimeline {

@@ -32,6 +32,12 @@ export const screenRoutes: RouteRecordRaw[] = [
     meta: { title: 'Inbound board', roles: ['charge_nurse', 'trauma_lead', 'admin'], nav: true },
   },
   {
+    path: '/cases/:id(\\d+)/handover',
+    name: 'case-handover',
+    component: () => import('../views/HandoverPrintView.vue'),
+    meta: { title: 'Handover', roles: ['charge_nurse', 'trauma_lead', 'admin'] },
+  },
+  {
     path: '/review',
     name: 'activation-review',
     component: () => import('../views/ActivationReviewView.vue'),

@@ -7,6 +7,7 @@ import type { BoardAction, BoardActionBody, BoardLevel, BoardSnapshot } from '..
 import type { CaseSummary } from '../../shared/schemas/cases';
 import type { CaseChange } from '../../shared/realtime/events';
 import type { LevelId } from '../../shared/triage/policy';
+import { byUrgency, urgencyGroup } from '../../shared/board/urgency';
 
 // The board trusts the server, never its own memory: a snapshot over REST first, live events
 // after, and the snapshot again every minute. After a connection that did not recover its state,
@@ -41,13 +42,16 @@ export const useBoardStore = defineStore('board', () => {
   const alert = ref<BoardAlert | null>(null);
   const notices = ref<BoardNotice[]>([]);
 
+  /** How many cases the server holds open; more than the board has when its list was cut at the cap. */
+  const openTotal = ref(0);
   const cases = computed(() => Object.values(byId.value));
-  const onTheWay = computed(() =>
-    cases.value
-      .filter((c) => c.state !== 'arrived')
-      .sort((a, b) => (a.etaAt ?? Infinity) - (b.etaAt ?? Infinity) || a.createdAt - b.createdAt),
-  );
-  const inDepartment = computed(() => cases.value.filter((c) => c.state === 'arrived').sort((a, b) => (a.arrivedAt ?? 0) - (b.arrivedAt ?? 0)));
+  // The shared urgency order, as the server's lists use it: waiting first (overdue on top), then
+  // by level, then by ETA; cases long past their ETA apart, arrived patients last.
+  const ordered = computed(() => byUrgency(cases.value, now.value));
+  const onTheWay = computed(() => ordered.value.filter((c) => ['waiting', 'open'].includes(urgencyGroup(c, now.value))));
+  const pastEta = computed(() => ordered.value.filter((c) => urgencyGroup(c, now.value) === 'stale'));
+  const inDepartment = computed(() => ordered.value.filter((c) => urgencyGroup(c, now.value) === 'arrived'));
+  const notShown = computed(() => Math.max(0, openTotal.value - cases.value.length));
   const waiting = computed(() => cases.value.filter(needsAcknowledgement));
 
   let generation = 0;
@@ -122,6 +126,7 @@ export const useBoardStore = defineStore('board', () => {
       }
       hospital.value = snapshot.hospital;
       levels.value = snapshot.levels;
+      openTotal.value = snapshot.openTotal ?? snapshot.cases.length;
       clockOffset.value = snapshot.at - Date.now();
       cursor = snapshot.cursor;
       // A case announced while the snapshot was on its way is newer than the snapshot.
@@ -215,7 +220,7 @@ export const useBoardStore = defineStore('board', () => {
   }
 
   return {
-    hospital, levels, byId, cases, onTheWay, inDepartment, waiting, loading, loadError, syncedAt, clockOffset, now, busy, alert, notices,
+    hospital, levels, byId, cases, ordered, onTheWay, pastEta, inDepartment, notShown, openTotal, waiting, loading, loadError, syncedAt, clockOffset, now, busy, alert, notices,
     nameOf, load, start, stop, act, upsert, dismissNotice,
   };
 });

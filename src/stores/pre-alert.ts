@@ -6,7 +6,7 @@ import { describeIssues, type FieldIssue } from '../../shared/schemas/issues';
 import { evaluate, type Evaluation } from '../../shared/triage/evaluate';
 import { withLocalCriteria } from '../../shared/triage/local-criteria';
 import { EXAMPLE_POLICY } from '../../shared/triage/policy';
-import { describePatient, emptyDraft, toClinical, type ClinicalDraft, type HeightUnit } from '../components/pre-alert/clinical-draft';
+import { describePatient, emptyDraft, emptyHandover, toClinical, type ClinicalDraft, type HeightUnit } from '../components/pre-alert/clinical-draft';
 import { useOutbox } from '../composables/use-outbox';
 import { keep, kept } from '../offline/device-store';
 
@@ -49,6 +49,8 @@ export const usePreAlertStore = defineStore('pre-alert', () => {
   const loadError = ref<string | null>(null);
   const remembered = ref<Remembered>({ hospitalId: null, unitId: null, heightUnit: null, ...readJson<Remembered>(localStorage, REMEMBER_KEY) });
   const form = ref<FormState>(readJson<FormState>(sessionStorage, DRAFT_KEY) ?? blankForm());
+  // A draft kept by an older version of the form has no handover part yet.
+  form.value.clinical.handover ??= emptyHandover();
   /** Set once the paramedic pressed Send: from then on every problem shows, not just typed ones. */
   const attempted = ref(false);
   const sendIssues = ref<FieldIssue[]>([]);

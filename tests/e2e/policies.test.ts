@@ -74,9 +74,18 @@ describeInBrowser('Policies in Chromium', () => {
     await leadPage.getByRole('heading', { name: 'Version 1: Draft' }).waitFor();
     expect(await leadPage.getByRole('button', { name: 'Save draft' }).count()).toBe(0);
     await leadPage.getByRole('button', { name: 'Approve this version' }).click();
+    // Each step says what changes and from when before it happens.
+    const approveAsk = leadPage.getByRole('alertdialog', { name: 'Approve version 1?' });
+    await expect.poll(() => approveAsk.textContent()).toContain('takes effect only once it is published');
+    await expectAccessible(leadPage, 'Policies, approve confirmation');
+    await approveAsk.getByRole('button', { name: 'Approve version 1' }).click();
     await leadPage.getByRole('heading', { name: 'Version 1: Approved, not yet published' }).waitFor();
     expect(await leadPage.getByText('Approved by Dr. Sasha Imbert').count()).toBe(1);
     await leadPage.getByRole('button', { name: 'Publish' }).click();
+    const publishAsk = leadPage.getByRole('alertdialog', { name: 'Publish version 1?' });
+    await expect.poll(() => publishAsk.textContent()).toMatch(/From now, every new pre-alert to Alderwick General Hospital is evaluated under version 1/);
+    await expectAccessible(leadPage, 'Policies, publish confirmation');
+    await publishAsk.getByRole('button', { name: 'Publish version 1' }).click();
     await leadPage.getByRole('heading', { name: 'Version 1: In force' }).waitFor();
     await expect.poll(() => leadPage.getByRole('status').filter({ hasText: 'In force now' }).textContent()).toContain('version 1 (alderwick-general-activation)');
     expect(await leadPage.getByText('Example — needs local review and approval.').count()).toBe(0);

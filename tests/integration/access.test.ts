@@ -93,6 +93,8 @@ const TABLE: Record<string, RouteEntry> = {
 
   'GET /api/crew/destinations': { access: ['paramedic'], request: () => ({ path: '/api/crew/destinations' }), allowed: 200 },
 
+  'GET /api/hospitals/:id/bays': { access: ['charge_nurse', 'trauma_lead', 'admin'], request: (ids) => ({ path: `/api/hospitals/${ids.general}/bays` }), allowed: 200 },
+  'PUT /api/hospitals/:id/bays': { access: ['admin'], request: (ids) => ({ path: `/api/hospitals/${ids.general}/bays`, body: { bays: ['Resus 1', 'resus 1'] } }), allowed: 400 },
   'GET /api/board': { access: ['charge_nurse', 'trauma_lead', 'admin'], request: (ids) => ({ path: `/api/board?hospitalId=${ids.general}` }), allowed: 200 },
   ...Object.fromEntries(
     ['acknowledge', 'decide', 'bay', 'page', 'arrived', 'team-at-bedside', 'close'].map((action) => [

@@ -1,3 +1,4 @@
+import { byUrgency } from '../../shared/board/urgency';
 import { randomUUID } from 'node:crypto';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { CaseSummary } from '../../shared/schemas/cases';
@@ -81,7 +82,7 @@ describe('the board snapshot', () => {
     }
   });
 
-  it('gives a charge nurse her own hospital, its open cases in arrival order and the level names', async () => {
+  it('gives a charge nurse her own hospital, its open cases most urgent first and the level names', async () => {
     const mine = await submit(hypotensiveRoofer);
     const res = await nurse.get('/api/board');
     expect(res.status).toBe(200);
@@ -91,8 +92,11 @@ describe('the board snapshot', () => {
     expect(board.levels.map((l) => l.name)).toEqual(['Full trauma team', 'Limited trauma team', 'Trauma consult', 'No activation']);
     expect(board.cases.find((c) => c.id === mine.id)?.recommendedLevel).toBe('full');
     expect(board.cases.every((c) => c.hospital.id === general && ['en-route', 'acknowledged', 'arrived'].includes(c.state))).toBe(true);
-    const etas = board.cases.filter((c) => c.etaAt != null).map((c) => c.etaAt!);
-    expect(etas).toEqual([...etas].sort((a, b) => a - b));
+    // The shared urgency order: waiting first, then by level, then by ETA; arrived last.
+    expect(board.cases.map((c) => c.id)).toEqual(byUrgency(board.cases, board.at).map((c) => c.id));
+    const mineAt = board.cases.findIndex((c) => c.id === mine.id);
+    expect(board.cases.slice(0, mineAt).every((c) => c.acknowledgedAt == null || c.levelRose)).toBe(true);
+    expect(board.openTotal).toBe(board.cases.length);
   });
 
   it('refuses another hospital (403), a paramedic (403) and nobody signed in (401)', async () => {
@@ -374,8 +378,8 @@ describe('the rest of a case: bay, page, arrival, the team leader at the bedside
     await step('decide', { level: 'full' });
     // The crews' copy of a change leaves after the boards' (realtime/broadcast.ts), so the decision's copy may come first.
     const crewHearsBay = nextEvent<[CaseSummary]>(crew, 'case:updated', 1000, (s) => s.id === summary.id && s.bay !== null);
-    expect((await step('bay', { bay: 'Resus 2' })).bay).toBe('Resus 2');
-    expect((await crewHearsBay)[0].bay).toBe('Resus 2');
+    expect((await step('bay', { bay: 'Resus 4' })).bay).toBe('Resus 4');
+    expect((await crewHearsBay)[0].bay).toBe('Resus 4');
     expect((await step('page')).pagedAt).toBeGreaterThan(0);
 
     const mails = await server.db('mail_messages').where('subject', 'like', `%case ${summary.caseNumber})`).select('recipients', 'subject', 'text', 'sender');
@@ -384,15 +388,15 @@ describe('the rest of a case: bay, page, arrival, the team leader at the bedside
     // The demo's full-activation list for Alderwick General, as the SMTP envelope carried it.
     expect(JSON.parse(mail.recipients).sort()).toEqual(['theatre-coordinator@alderwick-general.plumbline.test', 'trauma-full@alderwick-general.plumbline.test']);
     expect(mail.sender).toBe('plumbline@plumbline.test');
-    expect(mail.subject).toMatch(new RegExp(`^Full trauma team: ETA \\d\\d:\\d\\d \\(in 9 min\\), Resus 2 \\(Alderwick General Hospital, case ${summary.caseNumber}\\)$`));
+    expect(mail.subject).toMatch(new RegExp(`^Full trauma team: ETA \\d\\d:\\d\\d [A-Z][\\w+:-]* \\(in 9 min\\), Resus 4 \\(Alderwick General Hospital, case ${summary.caseNumber}\\)$`));
     expect(mail.text).toContain('Level: Full trauma team');
-    expect(mail.text).toContain('Bay: Resus 2');
+    expect(mail.text).toContain('Bay: Resus 4');
     expect(mail.text).toContain('Patient: 34-year-old male');
-    expect(mail.text).toContain('Fall: 13.1 ft, onto concrete, first impact back');
+    expect(mail.text).toContain('Fall: 13.1 ft onto concrete, first impact back');
     expect(mail.text).toContain('Latest vitals: SBP 84, HR 120');
     expect(mail.text).toMatch(/Criteria met:\n- .*SBP 84/);
-    expect(mail.text).not.toContain('Ada Example');
-    expect(mail.text).not.toContain('Example Row');
+    // The crew's notes reach the team as written (the form tells the crew they go to the page).
+    expect(mail.text).toContain(`Crew's notes: ${notes}`);
 
     const admin = await signIn(server.url, 'admin@plumbline.test');
     const inbox = await (await admin.get('/api/mail')).json();

@@ -10,7 +10,8 @@ import { command, connectAs, nextEvent, type TestSocket } from '../support/socke
 // whichever of the job and the test looks first, the result in the database is the same.
 const clock = { t: Date.UTC(2026, 11, 14, 3, 0, 0), now() { return this.t; } };
 const MIN = 60_000;
-const hhmm = (at: number) => `${String(new Date(at).getHours()).padStart(2, '0')}:${String(new Date(at).getMinutes()).padStart(2, '0')}`;
+// The test server's hospitals keep their times in UTC (the setting below), shown as "03:15 UTC".
+const hhmm = (at: number) => `${String(new Date(at).getUTCHours()).padStart(2, '0')}:${String(new Date(at).getUTCMinutes()).padStart(2, '0')} UTC`;
 
 let server: TestServer;
 let nurse: SignedInClient;
@@ -33,6 +34,7 @@ const escalationMails = (caseNumber: string) => server.db('mail_messages').where
 
 beforeAll(async () => {
   server = await startTestServer({}, { clock });
+  await server.db('settings').insert({ hospital_id: 0, key: 'hospital.timeZone', value: JSON.stringify('UTC') });
   const hospitals = await server.db('hospitals').select('id', 'name');
   general = hospitals.find((h) => h.name === 'Alderwick General Hospital')!.id;
   fenmoor = hospitals.find((h) => h.name === 'Fenmoor Community Hospital')!.id;
@@ -70,8 +72,8 @@ describe('escalation of a pre-alert nobody acknowledges', () => {
     expect(mails[0].text).toContain('has not been acknowledged on the Inbound board for 2 minutes');
     expect(mails[0].text).toContain('Patient: 50-year-old female');
 
-    // Looking again later sends nothing more: one case, one notice.
-    clock.t += 5 * MIN;
+    // Looking again before the next step sends nothing more: one step, one notice.
+    clock.t += 1 * MIN;
     await runEscalation(server.deps);
     expect(await escalationMails(summary.caseNumber)).toHaveLength(1);
     const event = await server.db('case_events').where({ case_id: summary.id, kind: 'overdue' }).select('actor_role');
@@ -123,5 +125,51 @@ describe('escalation of a pre-alert nobody acknowledges', () => {
     const res = await nurse.send('POST', `/api/cases/${summary.id}/acknowledge`, { rowVersion: overdue.rowVersion });
     expect(res.status).toBe(200);
     expect((await onBoard()).acknowledgedAt).toBe(clock.t);
+  });
+});
+
+describe('escalation in steps, and digests when many wait at once', () => {
+  const seniorMails = () => server.db('mail_messages').where('recipients', 'like', '%ed-consultant-on-call@alderwick-general%').select('subject', 'text', 'recipients');
+
+  it('a case still unacknowledged at twice the minutes goes to the senior list, the ETA reads as passed, and each step is audited', async () => {
+    const before = (await seniorMails()).length;
+    const summary = await submit(general);
+    clock.t += 2 * MIN;
+    await runEscalation(server.deps);
+    expect((await seniorMails()).length).toBe(before);
+    clock.t += 2 * MIN;
+    await runEscalation(server.deps);
+    const senior = (await seniorMails()).filter((m) => m.subject.includes(summary.caseNumber));
+    expect(senior).toHaveLength(1);
+    expect(senior[0].subject).toBe(`Not acknowledged after 4 min: Trauma consult recommended, ETA ${hhmm(summary.etaAt!)} (in 11 min) (Alderwick General Hospital, case ${summary.caseNumber})`);
+    expect(senior[0].text).toContain('Escalation step 2.');
+    const steps = await server.db('case_events').where({ case_id: summary.id }).whereIn('kind', ['overdue', 'escalated']).orderBy('id').select('kind', 'data', 'actor_role');
+    expect(steps.map((e) => [e.kind, JSON.parse(e.data).step, JSON.parse(e.data).list, e.actor_role])).toEqual([
+      ['overdue', 1, 'escalation', 'system'],
+      ['escalated', 2, 'senior', 'system'],
+    ]);
+    expect(await server.db('audit_log').where({ case_id: summary.id, action: 'case.escalated' }).count({ n: '*' }).first()).toEqual({ n: 1 });
+
+    // Past the ETA the notice says so in words, not "in 0 min".
+    clock.t += 30 * MIN;
+    const late = (await import('../../server/services/paging')).etaLine({ arrivedAt: null, etaAt: summary.etaAt }, clock.t, (at) => hhmm(at));
+    expect(late).toBe(`ETA passed 19 min ago (${hhmm(summary.etaAt!)})`);
+    await nurse.send('POST', `/api/cases/${summary.id}/acknowledge`, { rowVersion: (await server.db('cases').where({ id: summary.id }).first('row_version')).row_version });
+  });
+
+  it('twelve cases overdue at once at one hospital make one digest to the escalation list, most urgent first, not twelve e-mails', async () => {
+    const countMails = async () => Number((await server.db('mail_messages').count({ n: '*' }).first())!.n);
+    const cases: CaseSummary[] = [];
+    for (let i = 0; i < 12; i++) cases.push(await submit(general));
+    const before = await countMails();
+    clock.t += 2 * MIN;
+    await runEscalation(server.deps);
+    expect(await countMails()).toBe(before + 1);
+    const digest = await server.db('mail_messages').orderBy('id', 'desc').first('subject', 'text', 'recipients');
+    expect(digest.subject).toBe('Not acknowledged: 12 pre-alerts waiting (Alderwick General Hospital, escalation step 1)');
+    for (const c of cases) expect(digest.text).toContain(`Case ${c.caseNumber}:`);
+    expect(JSON.parse(digest.recipients)).toEqual(['ed-nurse-in-charge@alderwick-general.plumbline.test']);
+    // Every case's own step is still audited on the case.
+    for (const c of cases) expect(await server.db('case_events').where({ case_id: c.id, kind: 'overdue' }).count({ n: '*' }).first()).toEqual({ n: 1 });
   });
 });

@@ -1,12 +1,23 @@
 // The form's own shape: numbers as typed text (empty means not known), yes/no/not-known as
 // true/false/null. It becomes the shared ClinicalInput only through toClinical, which the same
 // schema as the server's then checks.
-import { ClinicalInput, type Consideration, type Finding, type FirstImpactRegion, type Sex, type Surface } from '../../../shared/schemas/clinical';
+import { ClinicalInput, type Consideration, type Finding, type FirstImpactRegion, type Handover, type Sex, type Surface, type Treatment } from '../../../shared/schemas/clinical';
 import { describeIssues, type FieldIssue } from '../../../shared/schemas/issues';
 import { feetToMetres, gcsTotalOf, metresToFeet, storeysToMetres, FEET_PER_STOREY } from '../../../shared/schemas/units';
 
 export type Tri = boolean | null;
 export type HeightUnit = 'm' | 'ft' | 'storeys';
+
+/** The handover part as typed: clock times as "HH:MM", text as typed; empty means not known. */
+export interface HandoverDraft {
+  injuredAt: string;
+  anticoagulantName: string;
+  lastDoseAt: string;
+  treatments: Treatment[];
+  allergies: string;
+}
+
+export const emptyHandover = (): HandoverDraft => ({ injuredAt: '', anticoagulantName: '', lastDoseAt: '', treatments: [], allergies: '' });
 
 export interface ClinicalDraft {
   age: string;
@@ -38,6 +49,7 @@ export interface ClinicalDraft {
   respiratoryDistress: Tri;
   findings: Finding[];
   considerations: Consideration[];
+  handover: HandoverDraft;
 }
 
 export function emptyDraft(heightUnit: HeightUnit = 'm'): ClinicalDraft {
@@ -47,7 +59,7 @@ export function emptyDraft(heightUnit: HeightUnit = 'm'): ClinicalDraft {
     sbp: '', hr: '', rr: '', spo2: '', spo2RoomAir: null,
     gcsMode: 'parts', gcsEye: null, gcsVerbal: null, gcsMotor: null, gcsTotal: '',
     intubated: null, respiratorySupport: null, respiratoryDistress: null,
-    findings: [], considerations: [],
+    findings: [], considerations: [], handover: emptyHandover(),
   };
 }
 
@@ -77,6 +89,11 @@ export const FIELD_LABELS: Record<string, string> = {
   'vitals.respiratoryDistress': 'Respiratory distress',
   findings: 'Injuries found',
   considerations: 'Special considerations',
+  'handover.injuredAt': 'Time of injury',
+  'handover.anticoagulantName': 'Anticoagulant name',
+  'handover.anticoagulantLastDoseAt': 'Last dose',
+  'handover.treatments': 'Treatment given',
+  'handover.allergies': 'Allergies',
 };
 
 /** Which input shows a schema path's message. */
@@ -98,6 +115,47 @@ export interface BuiltClinical {
 }
 
 const NOT_A_NUMBER = Symbol('not a number');
+
+/**
+ * "HH:MM" as the most recent such moment (a few minutes ahead allowed for a device's drift): an
+ * injury at 23:50 reported at 00:10 was yesterday's. Null when empty, NaN when not a time.
+ */
+export function clockToMs(text: string, now: number = Date.now()): number | null {
+  const match = /^(\d{1,2}):(\d{2})$/.exec(text.trim());
+  if (text.trim() === '') return null;
+  if (!match || Number(match[1]) > 23 || Number(match[2]) > 59) return Number.NaN;
+  const at = new Date(now);
+  at.setHours(Number(match[1]), Number(match[2]), 0, 0);
+  if (at.getTime() > now + 10 * 60_000) at.setDate(at.getDate() - 1);
+  return at.getTime();
+}
+
+export function msToClock(at: number | null | undefined): string {
+  if (at == null) return '';
+  const d = new Date(at);
+  return `${String(d.getHours()).padStart(2, '0')}:${String(d.getMinutes()).padStart(2, '0')}`;
+}
+
+function handoverOf(draft: HandoverDraft, fail: (path: string, message: string) => void): Handover | null {
+  const time = (path: string, text: string) => {
+    const at = clockToMs(text);
+    if (at !== null && Number.isNaN(at)) {
+      fail(path, 'must be a time such as 14:05');
+      return null;
+    }
+    return at;
+  };
+  const text = (value: string) => (value.trim() === '' ? null : value.trim());
+  const handover = {
+    injuredAt: time('handover.injuredAt', draft.injuredAt),
+    anticoagulantName: text(draft.anticoagulantName),
+    anticoagulantLastDoseAt: time('handover.anticoagulantLastDoseAt', draft.lastDoseAt),
+    treatments: [...draft.treatments],
+    allergies: text(draft.allergies),
+  };
+  const empty = handover.injuredAt === null && handover.anticoagulantName === null && handover.anticoagulantLastDoseAt === null && !handover.treatments.length && handover.allergies === null;
+  return empty ? null : handover;
+}
 
 // Commas are decimal points on many keypads; anything else that is not a number is reported.
 function parseNumber(text: string): number | null | typeof NOT_A_NUMBER {
@@ -167,6 +225,10 @@ export function toClinical(draft: ClinicalDraft): BuiltClinical {
     if (!errors.height) fail('fall.heightM', 'is required (0 for a fall from standing)');
   } else heightM = heightInMetres(heightValue, draft.heightUnit);
 
+  // Kept exactly as typed, beside the metres: an update shows this figure, not a conversion back.
+  const entered = heightValue === null ? null : { value: heightValue, unit: draft.heightUnit };
+  const handover = handoverOf(draft.handover ?? emptyHandover(), fail);
+
   const weeks = draft.pregnant === true ? read('pregnancyWeeks', draft.pregnancyWeeks) : null;
   const gcs = draft.gcsMode === 'parts' ? { eye: draft.gcsEye, verbal: draft.gcsVerbal, motor: draft.gcsMotor } : null;
   const anyGcsPart = gcs !== null && (gcs.eye !== null || gcs.verbal !== null || gcs.motor !== null);
@@ -179,7 +241,7 @@ export function toClinical(draft: ClinicalDraft): BuiltClinical {
     anticoagulant: draft.anticoagulant,
     weightKg: read('weightKg', draft.weightKg),
     bodyHeightCm: childHeightAsked(draft) ? read('bodyHeightCm', draft.bodyHeightCm) : null,
-    fall: { heightM, surface: draft.surface, firstImpact: draft.firstImpact, headImpact: draft.headImpact },
+    fall: { heightM, surface: draft.surface, firstImpact: draft.firstImpact, headImpact: draft.headImpact, entered },
     vitals: {
       sbp: read('vitals.sbp', draft.sbp),
       hr: read('vitals.hr', draft.hr),
@@ -194,6 +256,7 @@ export function toClinical(draft: ClinicalDraft): BuiltClinical {
     },
     findings: [...draft.findings],
     considerations: [...draft.considerations],
+    ...(handover ? { handover } : {}),
   };
 
   const parsed = ClinicalInput.safeParse(candidate);
@@ -224,8 +287,8 @@ export function draftFromInput(input: ClinicalInput, heightUnit: HeightUnit): Cl
     anticoagulant: input.anticoagulant ?? null,
     weightKg: text(input.weightKg),
     bodyHeightCm: text(input.bodyHeightCm),
-    height: String(heightFromMetres(input.fall.heightM, heightUnit)),
-    heightUnit,
+    height: input.fall.entered ? String(input.fall.entered.value) : String(heightFromMetres(input.fall.heightM, heightUnit)),
+    heightUnit: input.fall.entered?.unit ?? heightUnit,
     surface: input.fall.surface ?? 'unknown',
     firstImpact: input.fall.firstImpact ?? 'unknown',
     headImpact: input.fall.headImpact ?? null,
@@ -239,7 +302,42 @@ export function draftFromInput(input: ClinicalInput, heightUnit: HeightUnit): Cl
     respiratoryDistress: vitals.respiratoryDistress ?? null,
     findings: [...(input.findings ?? [])],
     considerations: [...(input.considerations ?? [])],
+    handover: {
+      injuredAt: msToClock(input.handover?.injuredAt),
+      anticoagulantName: input.handover?.anticoagulantName ?? '',
+      lastDoseAt: msToClock(input.handover?.anticoagulantLastDoseAt),
+      treatments: [...(input.handover?.treatments ?? [])],
+      allergies: input.handover?.allergies ?? '',
+    },
   };
+}
+
+type Json = unknown;
+const same = (a: Json, b: Json) => JSON.stringify(a ?? null) === JSON.stringify(b ?? null);
+const isPlainObject = (v: Json): v is Record<string, Json> => typeof v === 'object' && v !== null && !Array.isArray(v);
+
+/**
+ * The stored report with only what the crew changed in the form: every part the form shows as it
+ * was loaded keeps its stored value exactly (a height never comes back through a display unit,
+ * a field the form does not show is never dropped). `before` is the form as it opened, `after`
+ * as it is sent, both built by toClinical.
+ */
+export function onlyChanged(stored: Json, before: Json, after: Json): Json {
+  if (isPlainObject(stored) && isPlainObject(after)) {
+    const b = isPlainObject(before) ? before : {};
+    const out: Record<string, Json> = { ...stored };
+    for (const key of new Set([...Object.keys(after), ...Object.keys(b)])) {
+      if (same(b[key], after[key])) continue;
+      if (key === 'fall' && isPlainObject(after.fall) && isPlainObject(b.fall) && !same(b.fall.entered, after.fall.entered)) {
+        // A new height: its metres and its typed figure go together.
+        out.fall = { ...(isPlainObject(stored.fall) ? stored.fall : {}), ...onlyChanged(stored.fall, b.fall, after.fall) as object, heightM: after.fall.heightM, entered: after.fall.entered };
+        continue;
+      }
+      out[key] = isPlainObject(after[key]) && isPlainObject(stored[key]) ? onlyChanged(stored[key], b[key], after[key]) : after[key];
+    }
+    return out;
+  }
+  return same(before, after) ? stored : after;
 }
 
 export function gcsSum(draft: ClinicalDraft): number | null {

@@ -12,13 +12,10 @@ export const REVIEW_WORDS: Record<CaseReviewState, string> = {
   discussed: 'Discussed',
 };
 
-export const STATE_WORDS: Record<string, string> = {
-  'en-route': 'En route',
-  acknowledged: 'Acknowledged',
-  arrived: 'Arrived',
-  closed: 'Closed',
-  cancelled: 'Cancelled',
-};
+import { STATE_WORDS as CASE_STATE_WORDS } from '../../../shared/schemas/cases';
+
+/** The shared state words, readable by any state text a listing carries. */
+export const STATE_WORDS: Readonly<Record<string, string>> = CASE_STATE_WORDS;
 
 export const ROLE_WORDS: Record<string, string> = {
   paramedic: 'paramedic',
