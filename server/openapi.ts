@@ -22,6 +22,7 @@ import { HospitalQuery as PagingHospitalQuery, IntervalQuery as PagingIntervalQu
 import { HospitalQuery as AuditHospitalQuery } from './routes/audit';
 import { PagingContact, PagingPlan } from '../shared/schemas/paging';
 import { ProgrammeEmail } from '../shared/schemas/audit';
+import { HospitalBays } from '../shared/schemas/bays';
 import { REVIEW_READER_ROLES, REVIEWER_ROLES } from './services/reviews';
 
 type Method = 'get' | 'post' | 'put' | 'patch' | 'delete';
@@ -129,6 +130,8 @@ export const API_OPERATIONS: readonly Operation[] = [
     response: { type: 'application/fhir+ndjson', description: 'One resource per line (with `type`); without it, application/zip with Patient.ndjson, Encounter.ndjson, Observation.ndjson and Provenance.ndjson' },
   },
 
+  { method: 'get', path: '/api/hospitals/{id}/bays', summary: "A hospital's bays and the open cases in each", roles: ['charge_nurse', 'trauma_lead', 'admin'], params: IdParam },
+  { method: 'put', path: '/api/hospitals/{id}/bays', summary: "Set a hospital's list of bays", roles: admin, params: IdParam, body: HospitalBays },
   { method: 'get', path: '/api/paging/hospitals/{id}', summary: "A hospital's paging plan, its people and the SMS sender", roles: admin, params: IdParam },
   { method: 'put', path: '/api/paging/hospitals/{id}/plan', summary: "Change a hospital's paging plan (tiers, minutes, lists)", roles: admin, params: IdParam, body: PagingPlan },
   { method: 'put', path: '/api/paging/contacts/{id}', summary: "A person's paging contacts (e-mail, mobile in E.164)", roles: admin, params: IdParam, body: PagingContact },

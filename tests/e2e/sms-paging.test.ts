@@ -75,7 +75,7 @@ describeInBrowser('SMS paging in Chromium', () => {
     if (!answer.ok) throw new Error(answer.error.message);
     const nurseApi = await signIn(server.url, 'nurse@plumbline.test');
     let s = answer.data.summary;
-    for (const [action, body] of [['acknowledge', {}], ['decide', { level: 'full' }], ['bay', { bay: 'Resus 1' }]] as const) {
+    for (const [action, body] of [['acknowledge', {}], ['decide', { level: 'full' }], ['bay', { bay: 'Majors 1' }]] as const) {
       const res = await nurseApi.send('POST', `/api/cases/${s.id}/${action}`, { rowVersion: s.rowVersion, ...body });
       expect(res.status).toBe(200);
       s = (await res.json()).case;
@@ -101,7 +101,7 @@ describeInBrowser('SMS paging in Chromium', () => {
     const row = sms.locator('tr', { hasText: `Case ${summary.caseNumber}.` });
     await row.waitFor();
     expect(await row.innerText()).toContain(LEAD_MOBILE);
-    expect(await row.innerText()).toMatch(/FULL TRAUMA TEAM Alderwick General Hospital: 41-year-old female, fall 19\.7 ft onto concrete, ETA \d\d:\d\d \(\d+ min\), Resus 1/);
+    expect(await row.innerText()).toMatch(/FULL TRAUMA TEAM Alderwick General Hospital: 41-year-old female, fall 19\.7 ft onto concrete, ETA \d\d:\d\d \(\d+ min\), Majors 1/);
     await expectAccessible(sms, 'local SMS service');
     await screenshot(sms, 'sms-fake-page');
   });

@@ -66,7 +66,7 @@ describe('every step on a case is exactly one audit row', () => {
     const steps: Array<[string, Record<string, unknown>, string]> = [
       ['acknowledge', {}, 'case.acknowledged'],
       ['decide', { level: 'limited', reason: 'Vitals improved on the second set' }, 'case.level-decided'],
-      ['bay', { bay: 'Resus 2' }, 'case.bay-assigned'],
+      ['bay', { bay: 'Resus 4' }, 'case.bay-assigned'],
       ['page', {}, 'case.paged'],
       ['arrived', {}, 'case.arrived'],
       ['team-at-bedside', {}, 'case.team-at-bedside'],

@@ -50,7 +50,7 @@ describe('a crew’s read of its case', () => {
     await act('acknowledge', {});
     const crewHears = nextEvent<[CaseSummary]>(crewSocket, 'case:updated', 3000, (s) => s.id === caseId && s.decidedLevel === 'limited');
     await act('decide', { level: 'limited', reason: NURSE_REASON });
-    await act('bay', { bay: 'Resus 2' });
+    await act('bay', { bay: 'Resus 4' });
     await act('page', {});
     const lead = await signIn(server.url, 'lead@plumbline.test');
     await act('arrived', {});
@@ -63,7 +63,7 @@ describe('a crew’s read of its case', () => {
     expect(full.events.map((e: CaseEventView) => e.kind)).toEqual(expect.arrayContaining(['paged', 'level-decided']));
 
     const read = await (await crew.get(`/api/cases/${caseId}`)).json();
-    expect(read.case).toMatchObject({ id: caseId, acknowledgedAt: expect.any(Number), decidedLevel: 'limited', bay: 'Resus 2', decidedReason: null });
+    expect(read.case).toMatchObject({ id: caseId, acknowledgedAt: expect.any(Number), decidedLevel: 'limited', bay: 'Resus 4', decidedReason: null });
     expect(read.case.latest.input).toMatchObject({ ageYears: 34, vitals: { sbp: 80 } });
     expect(read.case.latest.notes).toBe('Fell from scaffolding');
     expect(read.revisions).toHaveLength(1);

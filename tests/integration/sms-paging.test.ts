@@ -50,7 +50,8 @@ async function pagedCase(notes?: string): Promise<CaseSummary> {
   if (!answer.ok) throw new Error(answer.error.message);
   let summary = await act(answer.data.summary, 'acknowledge');
   summary = await act(summary, 'decide', { level: 'full' });
-  summary = await act(summary, 'bay', { bay: 'Resus 2' });
+  // Every case of this file goes to the same bay: the nurse confirms the double booking.
+  summary = await act(summary, 'bay', { bay: 'Resus 4', confirmOccupied: true });
   return act(summary, 'page');
 }
 
@@ -129,7 +130,7 @@ describe('paging by SMS through the SDK and the fake, and what comes back', () =
   it('sends a short SMS with level, age and sex, mechanism, ETA, bay and case number, and no name', async () => {
     summary = await pagedCase('Patient name Ada Example');
     const [body] = await until(async () => sentBodies(LEAD_MOBILE), (b) => b.length > 0);
-    expect(body).toMatch(new RegExp(`^FULL TRAUMA TEAM Alderwick General Hospital: 34-year-old male, fall 13\\.1 ft onto concrete, ETA \\d\\d:\\d\\d \\(12 min\\), Resus 2\\. Case ${summary.caseNumber}\\. Reply 1 on my way, 2 can't come\\.$`));
+    expect(body).toMatch(new RegExp(`^FULL TRAUMA TEAM Alderwick General Hospital: 34-year-old male, fall 13\\.1 ft onto concrete, ETA \\d\\d:\\d\\d \\(12 min\\), Resus 4\\. Case ${summary.caseNumber}\\. Reply 1 on my way, 2 can't come\\.$`));
     expect(body).not.toContain('Ada');
     const [row] = await until(() => smsTo(summary.id, LEAD_MOBILE), (rows) => rows[0]?.provider_id != null);
     expect(row.provider_id).toMatch(/^SM[0-9a-f]{32}$/);
@@ -154,7 +155,7 @@ describe('paging by SMS through the SDK and the fake, and what comes back', () =
     expect(status.failures).toEqual([expect.objectContaining({ recipient: QUALITY_MOBILE, name: 'Jules Oyelaran', fellBackTo: QUALITY_EMAIL })]);
     const mail = await server.db('mail_messages').where('subject', 'like', `SMS not delivered%case ${summary.caseNumber})`).first('recipients', 'text');
     expect(JSON.parse(mail.recipients)).toEqual([QUALITY_EMAIL]);
-    expect(mail.text).toContain('Bay: Resus 2');
+    expect(mail.text).toContain('Bay: Resus 4');
     const listed = await (await admin.get('/api/messages')).json();
     expect(listed.messages.find((m: { fallbackOf: number | null }) => m.fallbackOf === failed.id)).toMatchObject({ channel: 'email', recipient: QUALITY_EMAIL, state: 'sent' });
   });
