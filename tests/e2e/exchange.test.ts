@@ -61,7 +61,7 @@ describeInBrowser('Exchange in Chromium', () => {
     await context.close();
 
     const card = nurse.page.locator(`article[data-case-number="${caseNumber}"]`);
-    await card.getByText('by its record system “Alderwick care-record system”').waitFor({ timeout: 15_000 });
+    await card.getByText('Sent by its record system “Alderwick care-record system”').waitFor({ timeout: 15_000 });
     expect(await card.innerText()).toContain('81-year-old female');
     await expectAccessible(nurse.page, 'Inbound board with a machine client pre-alert');
     await screenshot(nurse.page, 'board-machine-source');

@@ -116,15 +116,20 @@ describeInBrowser('Local criteria in Chromium', () => {
     await expectAccessible(lead, 'Policies, approval with a warning');
     await screenshot(lead, 'local-criterion-approval');
     await approve.click();
+    await lead.getByRole('alertdialog', { name: 'Approve version 1?' }).getByRole('button', { name: 'Approve version 1' }).click();
     await lead.getByRole('heading', { name: 'Version 1: Approved, not yet published' }).waitFor();
     await lead.getByText('Dr. Sasha Imbert ticked that they read these warnings when approving.').waitFor();
     await lead.getByRole('button', { name: 'Publish' }).click();
+    await lead.getByRole('alertdialog', { name: 'Publish version 1?' }).getByRole('button', { name: 'Publish version 1' }).click();
     await lead.getByRole('heading', { name: 'Version 1: In force' }).waitFor();
     await leadContext.close();
 
     // The next pre-alert's card cites the local rule.
-    await preAlert();
+    const cited1 = await preAlert();
+    const { case_number: citedNumber } = await server.db('cases').where({ id: cited1 }).first('case_number');
     const { context: nurseContext, page: board } = await newSignedInPage(browser, server.url, 'nurse@plumbline.test', { path: '/board', device: DESK });
+    // The criteria behind a card's level are one tap away, under More.
+    await board.getByRole('button', { name: `More actions and details for case ${citedNumber}` }).click();
     const cited = board.getByText('Local policy of Alderwick General Hospital, version 1. Reason: Trauma committee minutes, 2 November 2026');
     await expect.poll(() => cited.count()).toBeGreaterThan(0);
     await expectAccessible(board, 'Board with a local criterion');

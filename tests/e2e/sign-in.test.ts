@@ -27,7 +27,8 @@ describeInBrowser('signing in as each role in Chromium', () => {
     const context = await browser.newContext();
     const page = await context.newPage();
     await page.goto(`${server.url}/board`);
-    await expect.poll(() => new URL(page.url()).pathname).toMatch(/^\/idp\/interaction\//);
+    // The client loads, finds no session and sends the browser to sign in: wait for that, however busy the machine.
+    await expect.poll(() => new URL(page.url()).pathname, { timeout: 15_000 }).toMatch(/^\/idp\/interaction\//);
     expect(await page.locator('h1').textContent()).toBe('Sign in');
     expect(await page.getByLabel('Email').count()).toBe(1);
     expect(await page.getByLabel('Password').count()).toBe(1);
