@@ -56,6 +56,48 @@ function usedIcons(): Plugin {
   };
 }
 
+/**
+ * The crew's screen is fetched with the entry, not after it: the page names its code and styles
+ * for the browser to fetch at once (modulepreload, preload), which saves a round trip and keeps
+ * a weak link busy from the start. Nothing is loaded twice: every device's service worker keeps
+ * these same files at install (see manifestTransforms below).
+ */
+function preloadCrewScreen(): Plugin {
+  return {
+    name: 'plumbline-preload-crew-screen',
+    apply: 'build',
+    transformIndexHtml: {
+      order: 'post',
+      handler(_html, ctx) {
+        const bundle = ctx.bundle;
+        if (!bundle) return [];
+        const chunks = Object.values(bundle).filter((c) => c.type === 'chunk');
+        const crew = chunks.find((c) => c.facadeModuleId?.endsWith(CREW_VIEW));
+        if (!crew) throw new Error(`The build has no chunk for ${CREW_VIEW}.`);
+        const entry = chunks.find((c) => c.isEntry);
+        const inEntry = new Set([entry?.fileName, ...(entry?.imports ?? [])]);
+        const scripts = new Set<string>();
+        const styles = new Set<string>();
+        const visit = (fileName: string) => {
+          if (scripts.has(fileName) || inEntry.has(fileName)) return;
+          const chunk = bundle[fileName];
+          if (chunk?.type !== 'chunk') return;
+          scripts.add(fileName);
+          for (const css of chunk.viteMetadata?.importedCss ?? []) styles.add(css);
+          chunk.imports.forEach(visit);
+        };
+        visit(crew.fileName);
+        return [
+          // Who is signed in: asked for beside the code rather than after it has run.
+          { tag: 'link', attrs: { rel: 'preload', as: 'fetch', crossorigin: true, href: '/api/me' }, injectTo: 'head' as const },
+          ...[...scripts].map((file) => ({ tag: 'link', attrs: { rel: 'modulepreload', crossorigin: true, href: `/${file}` }, injectTo: 'head' as const })),
+          ...[...styles].map((file) => ({ tag: 'link', attrs: { rel: 'preload', as: 'style', crossorigin: true, href: `/${file}` }, injectTo: 'head' as const })),
+        ];
+      },
+    },
+  };
+}
+
 /** The colour of the app bar and of the installed app's title bar and splash screen. */
 const THEME_COLOR = '#1c2a3f';
 
@@ -65,6 +107,7 @@ export default defineConfig({
   plugins: [
     vue(),
     usedIcons(),
+    preloadCrewScreen(),
     VitePWA({
       // The page decides when a new version takes over (see src/composables/use-app-update.ts):
       // never while a form is half typed or a pre-alert waits in the outbox.

@@ -58,6 +58,8 @@ export interface StartOptions {
   backgroundJobs?: boolean;
   /** Where rate limits count; this process's memory unless a shared store is given. */
   limiterStore?: LimiterStore;
+  /** Where the built client is served from; the build in dist/client unless given. */
+  clientDir?: string;
 }
 
 /** Starts the whole product in this process: database, identity provider, mail, HTTP and sockets. */
@@ -127,7 +129,7 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
     vite = await createVite({ server: { middlewareMode: true, hmr: { server: http } }, appType: 'spa' });
   }
 
-  const app = createApp({ ...deps, issuer, idpRouter: idp?.router, vite });
+  const app = createApp({ ...deps, issuer, idpRouter: idp?.router, vite, clientDir: opts.clientDir });
   http.on('request', app);
   const jobs = opts.backgroundJobs === false ? { stop: async () => {} } : backgroundJobs(deps);
 
