@@ -1,0 +1,109 @@
+import type { Knex } from 'knex';
+import type { ClinicalInput } from '../../shared/schemas/clinical';
+import type { CriteriaSetId } from '../../shared/triage/criteria';
+import type { LevelId } from '../../shared/triage/policy';
+
+// The past cases a what-if evaluates again, read for speed. A what-if over a year of a busy
+// hospital reads 100,000 cases; reading each one's latest pre-alert from case_revisions and
+// parsing its JSON cost more than evaluating it. So:
+// - one prepared statement reads only the few columns of `cases` and `outcomes` the figures
+//   need, as arrays, through the connection Knex holds (statements are kept per connection,
+//   see keepStatements in server/db.ts);
+// - the evaluation input of each case's latest revision is kept here, parsed, under the case id
+//   and the revision number. A revision never changes once written, so a kept input is true for
+//   as long as the case's current_revision is the one it was kept under; a case revised since is
+//   read again. Only the parts the engine reads are kept (not the handover's free text).
+// The first what-if over a period reads and parses every input; the following ones (a draft
+// tried, edited, tried again) read only the cases revised or added since.
+
+/** One past case: its ids, its levels then, its outcome, and the input to evaluate again. */
+export interface PastCase {
+  id: number;
+  createdAt: number;
+  recommended: LevelId;
+  decided: LevelId | null;
+  hasOutcome: boolean;
+  iss: number | null;
+  nftiPositive: boolean | null;
+  set: CriteriaSetId;
+  input: ClinicalInput;
+}
+
+interface Kept { revision: number; set: CriteriaSetId; input: ClinicalInput }
+
+/** About 0.4 kB each: 250,000 inputs, two or three large hospitals' year, take about 100 MB at most. */
+export const KEPT_INPUTS_MAX = 250_000;
+const keptInputs = new WeakMap<Knex, Map<number, Kept>>();
+/** Ids per look-up of inputs not kept (well under SQLite's limit of bound parameters). */
+const LOOKUP_CHUNK = 500;
+
+interface Statement {
+  raw(on: boolean): Statement;
+  all(...params: unknown[]): unknown[][];
+}
+interface Connection { prepare(sql: string): Statement }
+
+const SCAN = `SELECT c.id, c.current_revision, c.created_at, c.recommended_level, c.decided_level, o.case_id IS NOT NULL, o.iss, o.nfti_positive
+  FROM cases c LEFT JOIN outcomes o ON o.case_id = c.id
+  WHERE c.hospital_id = ? AND c.created_at >= ? AND c.created_at < ? AND c.state <> 'cancelled'
+  ORDER BY c.created_at DESC, c.id DESC`;
+const LOOKUP = `SELECT r.case_id, r.revision, r.criteria_set, r.input
+  FROM cases c JOIN case_revisions r ON r.case_id = c.id AND r.revision = c.current_revision
+  WHERE c.id IN (${Array.from({ length: LOOKUP_CHUNK }, () => '?').join(', ')})`;
+
+/** What the engine reads of a stored input: the handover (free text, times) is left out. */
+function evaluationInput(stored: ClinicalInput): ClinicalInput {
+  const { handover: _handover, ...input } = stored;
+  return input;
+}
+
+/** The cases of a hospital created in [start, end), not cancelled, newest first, each with the input of its latest revision. */
+export async function readPastCases(db: Knex, hospitalId: number, start: number, end: number): Promise<PastCase[]> {
+  let kept = keptInputs.get(db);
+  if (!kept) keptInputs.set(db, (kept = new Map()));
+  const conn = (await db.client.acquireConnection()) as Connection;
+  try {
+    // better-sqlite3 runs synchronously: nothing else uses the connection between these statements.
+    const rows = conn.prepare(SCAN).raw(true).all(hospitalId, start, end);
+    const missing: number[] = [];
+    for (const row of rows) {
+      if (kept.get(row[0] as number)?.revision !== row[1]) missing.push(row[0] as number);
+    }
+    if (missing.length) {
+      const lookup = conn.prepare(LOOKUP).raw(true);
+      for (let from = 0; from < missing.length; from += LOOKUP_CHUNK) {
+        const ids = missing.slice(from, from + LOOKUP_CHUNK);
+        while (ids.length < LOOKUP_CHUNK) ids.push(-1);
+        for (const [caseId, revision, set, text] of lookup.all(...ids)) {
+          kept.delete(caseId as number);
+          kept.set(caseId as number, { revision: revision as number, set: set as CriteriaSetId, input: evaluationInput(JSON.parse(text as string)) });
+        }
+      }
+    }
+    const cases: PastCase[] = [];
+    for (const row of rows) {
+      const one = kept.get(row[0] as number);
+      // Deleted between the two reads (by another process).
+      if (!one) continue;
+      cases.push({
+        id: row[0] as number,
+        createdAt: Number(row[2]),
+        recommended: row[3] as LevelId,
+        decided: (row[4] as LevelId | null) ?? null,
+        hasOutcome: row[5] === 1,
+        iss: row[6] == null ? null : Number(row[6]),
+        nftiPositive: row[7] == null ? null : Boolean(row[7]),
+        set: one.set,
+        input: one.input,
+      });
+    }
+    // The first kept first out, once this what-if has what it needs.
+    for (const id of kept.keys()) {
+      if (kept.size <= KEPT_INPUTS_MAX) break;
+      kept.delete(id);
+    }
+    return cases;
+  } finally {
+    await db.client.releaseConnection(conn);
+  }
+}
