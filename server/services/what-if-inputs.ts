@@ -31,8 +31,12 @@ export interface PastCase {
 
 interface Kept { revision: number; set: CriteriaSetId; input: ClinicalInput }
 
-/** About 0.4 kB each: 250,000 inputs, two or three large hospitals' year, take about 100 MB at most. */
-export const KEPT_INPUTS_MAX = 250_000;
+/**
+ * About 0.7 kB of heap each (68 MB measured for 100,000): at most a busy hospital's year is kept,
+ * about 85 MB. Two such hospitals tried in turn push each other's inputs out, and each what-if
+ * then reads and parses again.
+ */
+export const KEPT_INPUTS_MAX = 120_000;
 const keptInputs = new WeakMap<Knex, Map<number, Kept>>();
 /** Ids per look-up of inputs not kept (well under SQLite's limit of bound parameters). */
 const LOOKUP_CHUNK = 500;
