@@ -16,18 +16,28 @@ import type { LevelId } from '../../shared/triage/policy';
 // The first what-if over a period reads and parses every input; the following ones (a draft
 // tried, edited, tried again) read only the cases revised or added since.
 
-/** One past case: its ids, its levels then, its outcome, and the input to evaluate again. */
-export interface PastCase {
-  id: number;
-  createdAt: number;
-  recommended: LevelId;
-  decided: LevelId | null;
-  hasOutcome: boolean;
-  iss: number | null;
-  nftiPositive: boolean | null;
-  set: CriteriaSetId;
-  input: ClinicalInput;
+/**
+ * The past cases, newest first, column by column (one typed array per figure rather than an
+ * object per case: 100,000 objects kept through a run cost more in garbage collection than in
+ * reading). Levels are codes into LEVELS; NOT_DECIDED and NOT_KNOWN stand for null.
+ */
+export interface PastCases {
+  n: number;
+  id: Int32Array;
+  createdAt: Float64Array;
+  recommended: Uint8Array;
+  decided: Uint8Array;
+  hasOutcome: Uint8Array;
+  /** −1 when not known. */
+  iss: Int16Array;
+  /** −1 not known, 0 no, 1 yes. */
+  nfti: Int8Array;
+  set: CriteriaSetId[];
+  input: ClinicalInput[];
 }
+export const LEVELS: readonly LevelId[] = ['full', 'limited', 'consult', 'none'];
+const LEVEL_CODE: Record<string, number> = { full: 0, limited: 1, consult: 2, none: 3 };
+export const NOT_DECIDED = 255;
 
 interface Kept { revision: number; set: CriteriaSetId; input: ClinicalInput }
 
@@ -62,7 +72,7 @@ function evaluationInput(stored: ClinicalInput): ClinicalInput {
 }
 
 /** The cases of a hospital created in [start, end), not cancelled, newest first, each with the input of its latest revision. */
-export async function readPastCases(db: Knex, hospitalId: number, start: number, end: number): Promise<PastCase[]> {
+export async function readPastCases(db: Knex, hospitalId: number, start: number, end: number): Promise<PastCases> {
   let kept = keptInputs.get(db);
   if (!kept) keptInputs.set(db, (kept = new Map()));
   const conn = (await db.client.acquireConnection()) as Connection;
@@ -84,22 +94,25 @@ export async function readPastCases(db: Knex, hospitalId: number, start: number,
         }
       }
     }
-    const cases: PastCase[] = [];
+    const n = rows.length;
+    const cases: PastCases = {
+      n: 0, id: new Int32Array(n), createdAt: new Float64Array(n), recommended: new Uint8Array(n), decided: new Uint8Array(n),
+      hasOutcome: new Uint8Array(n), iss: new Int16Array(n), nfti: new Int8Array(n), set: [], input: [],
+    };
     for (const row of rows) {
       const one = kept.get(row[0] as number);
       // Deleted between the two reads (by another process).
       if (!one) continue;
-      cases.push({
-        id: row[0] as number,
-        createdAt: Number(row[2]),
-        recommended: row[3] as LevelId,
-        decided: (row[4] as LevelId | null) ?? null,
-        hasOutcome: row[5] === 1,
-        iss: row[6] == null ? null : Number(row[6]),
-        nftiPositive: row[7] == null ? null : Boolean(row[7]),
-        set: one.set,
-        input: one.input,
-      });
+      const i = cases.n++;
+      cases.id[i] = row[0] as number;
+      cases.createdAt[i] = Number(row[2]);
+      cases.recommended[i] = LEVEL_CODE[row[3] as string] ?? 3;
+      cases.decided[i] = row[4] == null ? NOT_DECIDED : LEVEL_CODE[row[4] as string] ?? NOT_DECIDED;
+      cases.hasOutcome[i] = row[5] === 1 ? 1 : 0;
+      cases.iss[i] = row[6] == null ? -1 : Number(row[6]);
+      cases.nfti[i] = row[7] == null ? -1 : row[7] ? 1 : 0;
+      cases.set.push(one.set);
+      cases.input.push(one.input);
     }
     // The first kept first out, once this what-if has what it needs.
     for (const id of kept.keys()) {

@@ -7,7 +7,7 @@ import { LEVEL_RANK, validatePolicy, type LevelId, type Policy } from '../../sha
 import { forbidden, invalid, notFound } from '../errors';
 import { policyInForce } from './policies';
 import { assertQualityReader, periodOf } from './quality-report';
-import { readPastCases } from './what-if-inputs';
+import { LEVELS, NOT_DECIDED, readPastCases } from './what-if-inputs';
 import { localCriteriaRead } from './what-if-local';
 
 // A draft policy tried on the past: the latest revision of every case in the period evaluated
@@ -68,17 +68,22 @@ export async function runWhatIf(db: Knex, me: Me, query: WhatIfQuery, at: number
   const changes: Array<Omit<WhatIfChange, 'caseNumber'>> = [];
   let withOutcome = 0, changed = 0, raised = 0, lowered = 0;
 
-  for (const past of cases) {
-    const result = evaluate(past.input, { set: past.set, policy });
-    const recommended = past.recommended;
-    const decided = past.decided ?? recommended;
+  for (let i = 0; i < cases.n; i++) {
+    const input = cases.input[i];
+    const set = cases.set[i];
+    const result = evaluate(input, { set, policy });
+    const recommended = LEVELS[cases.recommended[i]];
+    const decidedLevel = cases.decided[i] === NOT_DECIDED ? null : LEVELS[cases.decided[i]];
+    const decided = decidedLevel ?? recommended;
     const whatIf = result.activation;
-    const now = live === null ? null : liveIsTried ? whatIf : evaluate(past.input, { set: past.set, policy: live }).activation;
+    const now = live === null ? null : liveIsTried ? whatIf : evaluate(input, { set, policy: live }).activation;
     levels.decided[decided]++;
     levels.recommended[recommended]++;
     levels.whatIf[whatIf]++;
     if (now !== null) liveLevels[now]++;
-    const major = past.hasOutcome ? majorTraumaCode(past.iss, past.nftiPositive, query.standard) : null;
+    const iss = cases.iss[i] < 0 ? null : cases.iss[i];
+    const nfti = cases.nfti[i] < 0 ? null : cases.nfti[i] === 1;
+    const major = cases.hasOutcome[i] ? majorTraumaCode(iss, nfti, query.standard) : null;
     if (major !== null) {
       withOutcome++;
       cells.decided.add(decided === 'full', major);
@@ -92,8 +97,8 @@ export async function runWhatIf(db: Knex, me: Me, query: WhatIfQuery, at: number
     else lowered++;
     if (changes.length < CHANGE_LIMIT) {
       changes.push({
-        id: past.id, createdAt: past.createdAt, from: recommended, to: whatIf, inForce: now,
-        decidedLevel: past.decided, iss: past.iss, nftiPositive: past.nftiPositive, major: major === null || major < 0 ? null : major === 1,
+        id: cases.id[i], createdAt: cases.createdAt[i], from: recommended, to: whatIf, inForce: now,
+        decidedLevel, iss, nftiPositive: nfti, major: major === null || major < 0 ? null : major === 1,
         criteria: result.criteria.filter((c) => c.calls === whatIf).map((c) => c.label),
       });
     }
@@ -106,7 +111,7 @@ export async function runWhatIf(db: Knex, me: Me, query: WhatIfQuery, at: number
 
   return {
     policy: { id: policy.id, version: policy.version, name: policy.name, example: policy.example, status },
-    cases: cases.length,
+    cases: cases.n,
     withOutcome,
     levels,
     matrix: { decided: cells.decided.matrix(), recommended: cells.recommended.matrix(), whatIf: cells.whatIf.matrix() },
