@@ -122,7 +122,7 @@ export const API_OPERATIONS: readonly Operation[] = [
   { method: 'get', path: '/api/quality/report.csv', summary: 'The quality report as CSV', roles: qualityReaders, query: ReportQuery, response: csv },
   { method: 'get', path: '/api/quality/cases', summary: 'The cases behind one number of the report', roles: qualityReaders, query: DrilldownQuery },
   { method: 'get', path: '/api/quality/policies', summary: 'Policies a what-if may run', roles: qualityReaders, query: QualityHospitalQuery },
-  { method: 'post', path: '/api/quality/what-if', summary: 'Run a policy over past cases', roles: qualityReaders, body: WhatIfRequest },
+  { method: 'post', path: '/api/quality/what-if', summary: 'Run a policy over past cases, beside the policy in force now', roles: qualityReaders, body: WhatIfRequest },
   { method: 'get', path: '/api/quality/targets', summary: 'Quality targets of a hospital', roles: qualityReaders, query: QualityHospitalQuery },
   { method: 'put', path: '/api/quality/targets', summary: 'Change quality targets', roles: qualityImporters, body: TargetsRequest },
   {

@@ -2,17 +2,17 @@ import type { Knex } from 'knex';
 import type { Me } from '../../shared/roles';
 import { cribariCellIndex, majorTraumaCode, triageRates } from '../../shared/quality';
 import type { LevelCounts, Matrix, WhatIfChange, WhatIfPolicyChoice, WhatIfQuery, WhatIfResult } from '../../shared/schemas/quality';
-import type { ClinicalInput } from '../../shared/schemas/clinical';
-import type { CriteriaSetId } from '../../shared/triage/criteria';
 import { evaluate } from '../../shared/triage/evaluate';
 import { LEVEL_RANK, validatePolicy, type LevelId, type Policy } from '../../shared/triage/policy';
 import { forbidden, invalid, notFound } from '../errors';
 import { policyInForce } from './policies';
 import { assertQualityReader, periodOf } from './quality-report';
+import { LEVELS, NOT_DECIDED, readPastCases } from './what-if-inputs';
 import { localCriteriaRead } from './what-if-local';
 
 // A draft policy tried on the past: the latest revision of every case in the period evaluated
-// again under it, beside what the ED decided and what Plumbline recommended at the time.
+// again under it, beside what the ED decided, what Plumbline recommended at the time and what the
+// policy in force now recommends, all over the same cases in one pass.
 
 const STATUS_WORDS: Record<string, string> = { draft: 'draft', approved: 'approved, not yet published', published: 'published', retired: 'retired' };
 
@@ -55,41 +55,41 @@ export async function runWhatIf(db: Knex, me: Me, query: WhatIfQuery, at: number
   assertQualityReader(me, query.hospitalId);
   const started = performance.now();
   const { policy, status } = await policyFor(db, query.hospitalId, query.policy, at);
+  // The policy in force now, over the same cases in the same pass; none when it is the one tried.
+  const live = query.policy === 'in-force' ? null : await policyInForce(db, query.hospitalId, at);
+  const liveIsTried = live !== null && live.id === policy.id && live.version === policy.version;
   const period = periodOf(query.from, query.to, query.timeZone);
-  const rows = await db('cases as c')
-    .join('case_revisions as r', function () {
-      this.on('r.case_id', '=', 'c.id').andOn('r.revision', '=', 'c.current_revision');
-    })
-    .leftJoin('outcomes as o', 'o.case_id', 'c.id')
-    .where('c.hospital_id', query.hospitalId)
-    .andWhere('c.created_at', '>=', period.start)
-    .andWhere('c.created_at', '<', period.end)
-    .andWhereNot('c.state', 'cancelled')
-    .orderBy('c.created_at', 'desc')
-    .select('c.id', 'c.case_number', 'c.created_at', 'c.recommended_level', 'c.decided_level', 'r.input', 'r.criteria_set', 'o.case_id as outcome', 'o.iss', 'o.nfti_positive');
+  const cases = await readPastCases(db, query.hospitalId, period.start, period.end);
 
   const levels = { decided: emptyLevels(), recommended: emptyLevels(), whatIf: emptyLevels() };
   const cells = { decided: new Cells(), recommended: new Cells(), whatIf: new Cells() };
-  const changes: WhatIfChange[] = [];
+  const liveLevels = emptyLevels();
+  const liveCells = new Cells();
+  const changes: Array<Omit<WhatIfChange, 'caseNumber'>> = [];
   let withOutcome = 0, changed = 0, raised = 0, lowered = 0;
 
-  for (const row of rows) {
-    const input = JSON.parse(row.input) as ClinicalInput;
-    const result = evaluate(input, { set: row.criteria_set as CriteriaSetId, policy });
-    const recommended = row.recommended_level as LevelId;
-    const decided = (row.decided_level as LevelId | null) ?? recommended;
+  for (let i = 0; i < cases.n; i++) {
+    const input = cases.input[i];
+    const set = cases.set[i];
+    const result = evaluate(input, { set, policy });
+    const recommended = LEVELS[cases.recommended[i]];
+    const decidedLevel = cases.decided[i] === NOT_DECIDED ? null : LEVELS[cases.decided[i]];
+    const decided = decidedLevel ?? recommended;
     const whatIf = result.activation;
+    const now = live === null ? null : liveIsTried ? whatIf : evaluate(input, { set, policy: live }).activation;
     levels.decided[decided]++;
     levels.recommended[recommended]++;
     levels.whatIf[whatIf]++;
-    const iss = row.iss == null ? null : Number(row.iss);
-    const nfti = row.nfti_positive == null ? null : Boolean(row.nfti_positive);
-    const major = row.outcome == null ? null : majorTraumaCode(iss, nfti, query.standard);
+    if (now !== null) liveLevels[now]++;
+    const iss = cases.iss[i] < 0 ? null : cases.iss[i];
+    const nfti = cases.nfti[i] < 0 ? null : cases.nfti[i] === 1;
+    const major = cases.hasOutcome[i] ? majorTraumaCode(iss, nfti, query.standard) : null;
     if (major !== null) {
       withOutcome++;
       cells.decided.add(decided === 'full', major);
       cells.recommended.add(recommended === 'full', major);
       cells.whatIf.add(whatIf === 'full', major);
+      if (now !== null) liveCells.add(now === 'full', major);
     }
     if (whatIf === recommended) continue;
     changed++;
@@ -97,21 +97,31 @@ export async function runWhatIf(db: Knex, me: Me, query: WhatIfQuery, at: number
     else lowered++;
     if (changes.length < CHANGE_LIMIT) {
       changes.push({
-        id: row.id, caseNumber: row.case_number, createdAt: Number(row.created_at), from: recommended, to: whatIf,
-        decidedLevel: row.decided_level ?? null, iss, nftiPositive: nfti, major: major === null || major < 0 ? null : major === 1,
+        id: cases.id[i], createdAt: cases.createdAt[i], from: recommended, to: whatIf, inForce: now,
+        decidedLevel, iss, nftiPositive: nfti, major: major === null || major < 0 ? null : major === 1,
         criteria: result.criteria.filter((c) => c.calls === whatIf).map((c) => c.label),
       });
     }
   }
+  // Case numbers only for the cases listed.
+  const numbers = new Map<number, string>();
+  if (changes.length) {
+    for (const row of await db('cases').whereIn('id', changes.map((c) => c.id)).select('id', 'case_number')) numbers.set(row.id, row.case_number);
+  }
 
   return {
     policy: { id: policy.id, version: policy.version, name: policy.name, example: policy.example, status },
-    cases: rows.length,
+    cases: cases.n,
     withOutcome,
     levels,
     matrix: { decided: cells.decided.matrix(), recommended: cells.recommended.matrix(), whatIf: cells.whatIf.matrix() },
+    inForce: live === null ? null : {
+      policy: { id: live.id, version: live.version, name: live.name, example: live.example, status: 'in-force' },
+      levels: liveLevels,
+      matrix: liveCells.matrix(),
+    },
     changed, raised, lowered,
-    changes,
+    changes: changes.map((c) => ({ ...c, caseNumber: numbers.get(c.id) ?? '' })),
     limited: changed > changes.length,
     ms: Math.round(performance.now() - started),
     localCriteria: localCriteriaRead(policy),

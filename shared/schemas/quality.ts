@@ -322,6 +322,8 @@ export interface WhatIfChange {
   createdAt: number;
   from: LevelId;
   to: LevelId;
+  /** The level under the policy in force now; null when that is the policy tried. */
+  inForce: LevelId | null;
   decidedLevel: LevelId | null;
   iss: number | null;
   nftiPositive: boolean | null;
@@ -336,6 +338,8 @@ export interface WhatIfResult {
   withOutcome: number;
   levels: { decided: LevelCounts; recommended: LevelCounts; whatIf: LevelCounts };
   matrix: { decided: Matrix; recommended: Matrix; whatIf: Matrix };
+  /** The same cases under the policy in force now, beside the one tried; null when that is the policy tried. */
+  inForce: { policy: WhatIfResult['policy']; levels: LevelCounts; matrix: Matrix } | null;
   changed: number;
   raised: number;
   lowered: number;

@@ -109,9 +109,8 @@ export const useQualityStore = defineStore('quality', () => {
   // ---- What-if
   const policies = ref<WhatIfPolicyChoice[]>([]);
   const policyChoice = ref<WhatIfPolicyChoice['value'] | null>(null);
+  /** The tried policy's answer; it carries the policy in force now over the same cases beside it. */
   const whatIf = ref<WhatIfResult | null>(null);
-  /** The same cases under the policy in force now, shown beside a tried draft. */
-  const whatIfInForce = ref<WhatIfResult | null>(null);
   const whatIfBusy = ref(false);
   const whatIfFailure = ref<string | null>(null);
   async function loadPolicies(): Promise<void> {
@@ -125,13 +124,8 @@ export const useQualityStore = defineStore('quality', () => {
     if (!request.value || policyChoice.value === null) return;
     whatIfBusy.value = true;
     whatIfFailure.value = null;
-    const tried = policyChoice.value;
-    const [answer, inForce] = await Promise.all([
-      guard(() => api.runWhatIf({ ...request.value!, policy: tried }), (m) => (whatIfFailure.value = m)),
-      tried === 'in-force' ? Promise.resolve(null) : guard(() => api.runWhatIf({ ...request.value!, policy: 'in-force' }), (m) => (whatIfFailure.value = m)),
-    ]);
+    const answer = await guard(() => api.runWhatIf({ ...request.value!, policy: policyChoice.value! }), (m) => (whatIfFailure.value = m));
     whatIf.value = answer ?? null;
-    whatIfInForce.value = inForce ?? null;
     whatIfBusy.value = false;
   }
 
@@ -141,7 +135,6 @@ export const useQualityStore = defineStore('quality', () => {
     preview.value = null;
     imported.value = null;
     whatIf.value = null;
-    whatIfInForce.value = null;
     drill.value = null;
   }
 
@@ -153,7 +146,7 @@ export const useQualityStore = defineStore('quality', () => {
     report, loading, failure, loadReport, levelName,
     drill, drillFailure, openDrill, closeDrill,
     preview, imported, importing, importFailure, checkFile, confirmImport, discardPreview,
-    policies, policyChoice, whatIf, whatIfInForce, whatIfBusy, whatIfFailure, loadPolicies, runWhatIf,
+    policies, policyChoice, whatIf, whatIfBusy, whatIfFailure, loadPolicies, runWhatIf,
     selectHospital,
   };
 });

@@ -2,7 +2,8 @@
 // at most a second. Builds a temporary SQLite database through the migrations, fills it with
 // invented cases (revisions evaluated by the engine), stores a draft policy version that adds
 // "age 55 or older and fall above 15 ft → full team" to the shipped example, then times the
-// what-if service as the Triage quality screen calls it. Method and figures: tests/bench/what-if.md.
+// what-if service as the Triage quality screen calls it (the draft beside the policy in force).
+// Method and figures: tests/bench/what-if.md.
 // Run alone: npx tsx tests/bench/what-if.ts [cases]   (prints one JSON line)
 import { mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -121,6 +122,7 @@ export async function benchWhatIf(count = 100_000): Promise<WhatIfBench> {
       changed = result.changed;
       if (result.cases !== count) throw new Error(`expected ${count} cases, the what-if counted ${result.cases}`);
       if (!result.changes.some((c) => c.criteria.includes('Older adult, fall above 15 ft'))) throw new Error('the local criterion changed no case');
+      if (result.inForce?.levels.full !== result.levels.recommended.full) throw new Error('the policy in force (the example that recommended every case) is not beside the draft');
     }
     const ms = Math.max(...runs.slice(1));
     return { cases: count, ms, firstRunMs: runs[0], runsMs: runs, cpuMs, fillMs, changed, atMostASecond: ms <= 1000 };

@@ -98,6 +98,10 @@ describeInBrowser('Local criteria in Chromium', () => {
     const changed = quality.locator('table.changes').getByRole('row').filter({ hasText: pastNumber });
     await expect.poll(() => changed.innerText()).toContain('Fall above 15 ft');
     expect(await changed.innerText()).toContain('Full trauma team');
+    // Beside it, the policy in force now (the shipped example) over the same cases, from the same answer.
+    await quality.getByRole('columnheader', { name: 'Recommended by the policy in force now' }).waitFor();
+    // The 16 ft fall: a consult at the time and under the example in force now, the full team under the draft.
+    expect((await changed.locator('td').allInnerTexts()).filter((t) => t === 'Trauma consult')).toHaveLength(2);
     await expectAccessible(quality, 'What-if with a local criterion');
     await screenshot(quality, 'local-criterion-what-if');
     // The changed case opens.
@@ -116,6 +120,7 @@ describeInBrowser('Local criteria in Chromium', () => {
     await expectAccessible(lead, 'Policies, approval with a warning');
     await screenshot(lead, 'local-criterion-approval');
     await approve.click();
+    // Each step says what it changes and from when before it is taken.
     await lead.getByRole('alertdialog', { name: 'Approve version 1?' }).getByRole('button', { name: 'Approve version 1' }).click();
     await lead.getByRole('heading', { name: 'Version 1: Approved, not yet published' }).waitFor();
     await lead.getByText('Dr. Sasha Imbert ticked that they read these warnings when approving.').waitFor();
@@ -124,12 +129,11 @@ describeInBrowser('Local criteria in Chromium', () => {
     await lead.getByRole('heading', { name: 'Version 1: In force' }).waitFor();
     await leadContext.close();
 
-    // The next pre-alert's card cites the local rule.
-    const cited1 = await preAlert();
-    const { case_number: citedNumber } = await server.db('cases').where({ id: cited1 }).first('case_number');
+    // The next pre-alert's card cites the local rule, among its criteria under "More".
+    const next = await preAlert();
+    const nextNumber = (await server.db('cases').where({ id: next }).first('case_number')).case_number;
     const { context: nurseContext, page: board } = await newSignedInPage(browser, server.url, 'nurse@plumbline.test', { path: '/board', device: DESK });
-    // The criteria behind a card's level are one tap away, under More.
-    await board.getByRole('button', { name: `More actions and details for case ${citedNumber}` }).click();
+    await board.getByRole('button', { name: `More actions and details for case ${nextNumber}` }).click();
     const cited = board.getByText('Local policy of Alderwick General Hospital, version 1. Reason: Trauma committee minutes, 2 November 2026');
     await expect.poll(() => cited.count()).toBeGreaterThan(0);
     await expectAccessible(board, 'Board with a local criterion');

@@ -277,18 +277,45 @@ describe('what-if', () => {
     // #1 (ISS 25) joins c; #2 and #9 (ISS 9, 10) join d: c 4, d 5, under-triage 4/9.
     expect(r.matrix.whatIf).toMatchObject({ a: 0, b: 0, c: 4, d: 5, underTriage: 4 / 9, overTriage: null });
     expect(r).toMatchObject({ changed: 3, raised: 0, lowered: 3, limited: false });
-    expect(r.changes.map((c) => [c.caseNumber, c.from, c.to, c.iss, c.major])).toEqual([
-      [numbers[8], 'full', 'limited', 10, false],
-      [numbers[1], 'full', 'limited', 9, false],
-      [numbers[0], 'full', 'limited', 25, true],
+    expect(r.changes.map((c) => [c.caseNumber, c.from, c.inForce, c.to, c.iss, c.major])).toEqual([
+      [numbers[8], 'full', 'full', 'limited', 10, false],
+      [numbers[1], 'full', 'full', 'limited', 9, false],
+      [numbers[0], 'full', 'full', 'limited', 25, true],
     ]);
   });
 
-  it('the policy in force changes nothing', async () => {
+  it('carries the policy in force now beside the draft, over the same cases', async () => {
+    const res = await quality.send('POST', '/api/quality/what-if', { hospitalId: general, from: '2031-01-01', to: '2031-02-28', timeZone: 'UTC', standard: 'iss', policy: draftId });
+    const r: WhatIfResult = await res.json();
+    // Nothing is published at General, so the shipped example is in force; it recommended every
+    // one of these cases, so its column is the "recommended at the time" column.
+    expect(r.inForce?.policy).toMatchObject({ id: 'example-tiered', example: true, status: 'in-force' });
+    expect(r.inForce?.levels).toEqual({ full: 3, limited: 1, consult: 4, none: 3 });
+    expect(r.inForce?.matrix).toEqual(r.matrix.recommended);
+    expect(r.inForce?.matrix).toMatchObject({ a: 1, b: 2, c: 3, d: 3, excluded: 1 });
+  });
+
+  it('the policy in force changes nothing, and is not repeated beside itself', async () => {
     const res = await lead.send('POST', '/api/quality/what-if', { hospitalId: general, from: '2031-01-01', to: '2031-02-28', policy: 'in-force' });
     const r: WhatIfResult = await res.json();
-    expect(r).toMatchObject({ changed: 0, changes: [] });
+    expect(r).toMatchObject({ changed: 0, changes: [], inForce: null });
     expect(r.matrix.whatIf).toEqual(r.matrix.recommended);
+  });
+
+  it('evaluates the latest revision of a case revised since the last what-if', async () => {
+    const ask = async () => (await (await quality.send('POST', '/api/quality/what-if', { hospitalId: general, from: '2031-01-01', to: '2031-02-28', policy: draftId })).json()) as WhatIfResult;
+    expect((await ask()).levels.whatIf.none).toBe(3);
+    // Case #11 (consult, no outcome) gets a second pre-alert: a 1 m fall with normal vitals,
+    // which calls no team (the NONE patient above). Written directly, as the crew's update writes it.
+    const first = await server.db('case_revisions').where({ case_id: ids[10], revision: 1 }).first();
+    await server.db.transaction(async (trx) => {
+      await trx('case_revisions').insert({ ...first, id: undefined, revision: 2, input: JSON.stringify(NONE), activation: 'none' });
+      await trx('cases').where({ id: ids[10] }).update({ current_revision: 2, recommended_level: 'none' });
+    });
+    const r = await ask();
+    expect(r.levels.whatIf).toEqual({ full: 0, limited: 4, consult: 3, none: 4 });
+    expect(r.inForce?.levels).toEqual(r.levels.recommended);
+    expect(r.changed).toBe(3);
   });
 
   it("refuses a version of another hospital's policy", async () => {
