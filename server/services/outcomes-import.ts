@@ -52,6 +52,14 @@ const NO = new Set(['no', 'n', 'false', '0']);
 const NOT_HAPPENED = new Set(['none', 'no', 'never', '-']);
 
 const nextTurn = () => new Promise<void>((resolve) => setImmediate(resolve));
+/**
+ * The pause between two writes of an import. A turn alone (setImmediate) lets one socket read
+ * through, but a pre-alert takes several turns (read, checks, queries, fan-out, answer), and each
+ * would wait for another chunk of the import; a busy process also waits longer for a core on a
+ * loaded machine. A short sleep lets the server answer what is waiting before the import goes on.
+ */
+const IMPORT_PAUSE_MS = 2;
+const breathe = () => new Promise<void>((resolve) => setTimeout(resolve, IMPORT_PAUSE_MS));
 
 const normaliseHeader = (h: string) => h.trim().toLowerCase().replace(/[\s-]+/g, '_');
 
@@ -463,7 +471,7 @@ async function saveStaged(db: Knex, actor: Actor, rows: Array<{ caseId: number; 
           else created++;
         }
       });
-      await nextTurn();
+      await breathe();
     }
     await db.transaction(async (trx) => {
       await trx.raw(MOVE_STAGED, [batch]);
@@ -484,7 +492,7 @@ async function clearStaged(db: Knex, batch: string): Promise<void> {
     const ids = (await db('outcome_staging').where({ batch }).orderBy('id').limit(500).select('id')).map((r) => r.id as number);
     if (!ids.length) return;
     await db('outcome_staging').whereIn('id', ids).del();
-    await nextTurn();
+    await breathe();
   }
 }
 
