@@ -91,30 +91,50 @@ export async function newestAuditRow(db: Knex): Promise<{ id: number; hash: stri
  * with a key records itself as the start of the keyed chain, in the same transaction.
  */
 export async function appendAudit(db: Knex, entry: AuditEntry): Promise<number> {
+  const [id] = await appendAudits(db, [entry]);
+  return id;
+}
+
+/**
+ * Appends several rows in order, linked one to the next, with one read of the chain's head and
+ * one insert: a large import records thousands of rows, and a query per row held the database.
+ * Same rules as appendAudit: inside the transaction that makes the changes. Answers their ids.
+ */
+export async function appendAudits(db: Knex, entries: AuditEntry[]): Promise<number[]> {
+  if (!entries.length) return [];
   const state = keyState(db);
-  const last = await newestAuditRow(db);
-  const row = {
-    at: entry.at,
-    actor_id: entry.actor.id,
-    actor_role: entry.actor.role,
-    action: entry.action,
-    entity: entry.entity,
-    entity_id: entry.entityId == null ? null : String(entry.entityId),
-    case_id: entry.caseId ?? null,
-    before: json(entry.before),
-    after: json(entry.after),
-    policy_id: entry.policy?.id ?? null,
-    policy_version: entry.policy?.version ?? null,
-    prev_hash: last?.hash ?? GENESIS_HASH,
-  };
-  const [inserted] = await db('audit_log').insert({ ...row, hash: rowHash(row, state.key) }).returning('id');
+  let prevHash = (await newestAuditRow(db))?.hash ?? GENESIS_HASH;
+  const rows = entries.map((entry) => {
+    const row = {
+      at: entry.at,
+      actor_id: entry.actor.id,
+      actor_role: entry.actor.role,
+      action: entry.action,
+      entity: entry.entity,
+      entity_id: entry.entityId == null ? null : String(entry.entityId),
+      case_id: entry.caseId ?? null,
+      before: json(entry.before),
+      after: json(entry.after),
+      policy_id: entry.policy?.id ?? null,
+      policy_version: entry.policy?.version ?? null,
+      prev_hash: prevHash,
+    };
+    prevHash = rowHash(row, state.key);
+    return { ...row, hash: prevHash };
+  });
+  // Inserted in the given order, so the ids follow the chain; 500 rows stay within SQLite's bound parameters.
+  const ids: number[] = [];
+  for (let i = 0; i < rows.length; i += 500) {
+    const inserted = (await db('audit_log').insert(rows.slice(i, i + 500)).returning('id')) as Array<{ id: number }>;
+    ids.push(...inserted.map((r) => r.id).sort((a, b) => a - b));
+  }
   // Kept only once read back from the database: a start written in a transaction that rolls back never counts.
   if (state.keyedFrom === null) {
     const start = await keyedStart(db);
     if (start) state.keyedFrom = start.keyedFrom;
-    else await db('audit_chain').insert({ keyed_from: inserted.id, key_id: state.keyId, at: entry.at });
+    else await db('audit_chain').insert({ keyed_from: ids[0], key_id: state.keyId, at: entries[0].at });
   }
-  return inserted.id;
+  return ids;
 }
 
 /**

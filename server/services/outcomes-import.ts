@@ -10,7 +10,7 @@ import {
 } from '../../shared/schemas/quality';
 import { assertHospital, hasRole } from '../auth/guards';
 import { AppError, forbidden, notFound } from '../errors';
-import { appendAudit, systemActor, type Actor } from './audit';
+import { appendAudit, appendAudits, systemActor, type Actor } from './audit';
 import { csvCell } from './csv';
 
 // The registry's outcomes come in as a CSV, are checked row by row and shown whole before
@@ -52,6 +52,14 @@ const NO = new Set(['no', 'n', 'false', '0']);
 const NOT_HAPPENED = new Set(['none', 'no', 'never', '-']);
 
 const nextTurn = () => new Promise<void>((resolve) => setImmediate(resolve));
+/**
+ * The pause between two writes of an import. A turn alone (setImmediate) lets one socket read
+ * through, but a pre-alert takes several turns (read, checks, queries, fan-out, answer), and each
+ * would wait for another chunk of the import; a busy process also waits longer for a core on a
+ * loaded machine. A short sleep lets the server answer what is waiting before the import goes on.
+ */
+const IMPORT_PAUSE_MS = 2;
+const breathe = () => new Promise<void>((resolve) => setTimeout(resolve, IMPORT_PAUSE_MS));
 
 const normaliseHeader = (h: string) => h.trim().toLowerCase().replace(/[\s-]+/g, '_');
 
@@ -278,7 +286,7 @@ async function resolveCases(db: Knex, hospitalId: number, rows: ParsedRow[]): Pr
   const hospital = await db('hospitals').where({ id: hospitalId }).first('name');
   const errors: ImportIssue[] = [];
   const firstRowOf = new Map<string, number>();
-  const preview = rows.map((parsed): PreviewRow => {
+  const check = (parsed: ParsedRow): PreviewRow => {
     errors.push(...parsed.issues);
     if (!parsed.record) return { row: parsed.row, caseNumber: parsed.caseNumber, caseId: null, record: null, action: null, warnings: [] };
     const { caseNumber } = parsed.record;
@@ -295,7 +303,14 @@ async function resolveCases(db: Knex, hospitalId: number, rows: ParsedRow[]): Pr
     const warnings: string[] = [];
     if (ref.state !== 'closed' && ref.state !== 'arrived') warnings.push(`still ${ref.state} on the board; its activation may not be decided yet`);
     return { row: parsed.row, caseNumber, caseId: ref.id, record: parsed.record, action: ref.hasOutcome ? 'update' : 'new', warnings };
-  });
+  };
+  // Checked with turns of the event loop, as the file was parsed: 20,000 rows in one pass held
+  // the server for tens of milliseconds.
+  const preview: PreviewRow[] = [];
+  for (let i = 0; i < rows.length; i++) {
+    if (i % ROWS_PER_TURN === ROWS_PER_TURN - 1) await nextTurn();
+    preview.push(check(rows[i]));
+  }
   return { preview, errors };
 }
 
@@ -417,7 +432,10 @@ export async function storeOutcomes(trx: Knex, actor: Actor, rows: Array<{ caseI
   return { created, updated };
 }
 
-/** Rows staged per transaction: each holds the database for a few milliseconds. */
+/**
+ * Rows staged per transaction: each holds the database for a few milliseconds, as its rows and
+ * their audit rows go in one insert each (an insert per audit row held it ten times as long).
+ */
 const STAGE_CHUNK = 50;
 const OUTCOME_COLUMNS_STORED = [
   'iss', 'niss', 'ais', 'red_cells_4h', 'minutes_to_or', 'minutes_to_ir', 'icu_days', 'hours_to_ventilation', 'hours_to_death',
@@ -447,13 +465,13 @@ async function saveStaged(db: Knex, actor: Actor, rows: Array<{ caseId: number; 
         const existing = new Map<number, Record<string, unknown>>();
         for (const row of await trx('outcomes').whereIn('case_id', chunk.map((r) => r.caseId)).select('*')) existing.set(row.case_id, row);
         await trx('outcome_staging').insert(chunk.map(({ caseId, record }) => ({ batch, case_id: caseId, ...outcomeRow(record), imported_at: at, imported_by: actor.id })));
-        for (const { caseId, record } of chunk) {
+        await appendAudits(trx, chunk.map(({ caseId, record }) => outcomeAudit(actor, caseId, record, existing.get(caseId), at, batch)));
+        for (const { caseId } of chunk) {
           if (existing.has(caseId)) updated++;
           else created++;
-          await appendAudit(trx, outcomeAudit(actor, caseId, record, existing.get(caseId), at, batch));
         }
       });
-      await nextTurn();
+      await breathe();
     }
     await db.transaction(async (trx) => {
       await trx.raw(MOVE_STAGED, [batch]);
@@ -474,7 +492,7 @@ async function clearStaged(db: Knex, batch: string): Promise<void> {
     const ids = (await db('outcome_staging').where({ batch }).orderBy('id').limit(500).select('id')).map((r) => r.id as number);
     if (!ids.length) return;
     await db('outcome_staging').whereIn('id', ids).del();
-    await nextTurn();
+    await breathe();
   }
 }
 

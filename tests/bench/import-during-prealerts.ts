@@ -73,7 +73,11 @@ export async function measureImportDuringPreAlerts(opts: { rows?: number; log?: 
   const general = region.hospitals[0].id;
   const db = createDb(databaseFileOf(dataDir));
   const numbers = await addClosedCases(db, general, rows).finally(() => db.destroy());
-  const server = await childServer({ dataDir });
+  // Each crew account carries its four sockets' pre-alerts (120 a minute): its per-account limit
+  // is raised to that with room to spare, so none is refused for the flood limit. No pre-alert
+  // names a unit, so the per-unit limit does not apply.
+  const perAccount = Math.ceil((SOCKETS_PER_CREW * 60_000) / EVERY_MS) * 4;
+  const server = await childServer({ dataDir, env: { CREW_COMMANDS_PER_MINUTE: String(perAccount) } });
   try {
     await server.start();
     const quality = await signIn(server.url, 'quality@plumbline.test');

@@ -2,7 +2,7 @@ import { execFile } from 'node:child_process';
 import { randomUUID } from 'node:crypto';
 import { promisify } from 'node:util';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { appendAudit, systemActor, verifyAuditChain } from '../../server/services/audit';
+import { appendAudit, appendAudits, systemActor, verifyAuditChain } from '../../server/services/audit';
 import type { Mailer } from '../../server/mail';
 import { startTestServer, type TestServer } from '../support/server';
 import { signIn, type SignedInClient } from '../support/sign-in';
@@ -66,7 +66,8 @@ describe('every step on a case is exactly one audit row', () => {
     const steps: Array<[string, Record<string, unknown>, string]> = [
       ['acknowledge', {}, 'case.acknowledged'],
       ['decide', { level: 'limited', reason: 'Vitals improved on the second set' }, 'case.level-decided'],
-      ['bay', { bay: 'Resus 4' }, 'case.bay-assigned'],
+      // A bay the demo's cases leave free: assigning an occupied one asks again (409) first.
+      ['bay', { bay: 'Majors 2' }, 'case.bay-assigned'],
       ['page', {}, 'case.paged'],
       ['arrived', {}, 'case.arrived'],
       ['team-at-bedside', {}, 'case.team-at-bedside'],
@@ -138,6 +139,29 @@ describe('plumbline audit verify', () => {
     const again = verifyAuditChain(server.db);
     expect(again).not.toBe(first);
     expect(await again).toEqual({ ok: true, rows: count, keyedFrom: 1 });
+  }, 60_000);
+
+  it('appends many rows at once in the given order, linked one to the next, or none when the transaction fails', async () => {
+    // More rows than one insert carries, so the link crosses the insert boundary too.
+    const entries = Array.from({ length: 1200 }, (_, i) => ({ at: Date.now(), actor: systemActor, action: 'setting.changed', entity: 'setting' as const, entityId: `many-${i}`, after: { i } }));
+    const head = await server.db('audit_log').orderBy('id', 'desc').first('id', 'hash');
+    const ids = await server.db.transaction((trx) => appendAudits(trx, entries));
+    expect(ids).toHaveLength(1200);
+    const rows = await server.db('audit_log').where('id', '>', head.id).orderBy('id').select('id', 'entity_id', 'prev_hash', 'hash');
+    expect(rows.map((r) => r.id)).toEqual(ids);
+    expect(rows.map((r) => r.entity_id)).toEqual(entries.map((e) => e.entityId));
+    expect(rows[0].prev_hash).toBe(head.hash);
+    rows.slice(1).forEach((row, i) => expect(row.prev_hash).toBe(rows[i].hash));
+    expect((await verifyAuditChain(server.db)).ok).toBe(true);
+
+    // A change that fails after its rows were appended leaves no trace of them, and the chain holds.
+    const before = Number((await server.db('audit_log').count({ n: '*' }).first())?.n);
+    await expect(server.db.transaction(async (trx) => {
+      await appendAudits(trx, entries.slice(0, 10));
+      throw new Error('the change failed');
+    })).rejects.toThrow('the change failed');
+    expect(Number((await server.db('audit_log').count({ n: '*' }).first())?.n)).toBe(before);
+    expect((await verifyAuditChain(server.db)).ok).toBe(true);
   }, 60_000);
 
   it('finds a row changed behind the application’s back, names it, and says so on the review API', async () => {
