@@ -1,5 +1,6 @@
 import { z } from 'zod';
 import { ClinicalInput } from './clinical';
+import { ClinicalChanges } from './clinical-changes';
 import { safeText } from './text';
 import type { Evaluation } from '../triage/evaluate';
 import type { LevelId } from '../triage/policy';
@@ -38,13 +39,23 @@ export const PreAlert = z.object({
 });
 export type PreAlert = z.infer<typeof PreAlert>;
 
-/** New vitals, findings or ETA en route: a new revision, evaluated again. */
-export const PreAlertUpdate = z.object({
-  caseId: id('case'),
-  etaMinutes: eta.nullable().optional(),
-  notes: notes.optional(),
-  clinical: ClinicalInput,
-});
+/**
+ * New vitals, findings or ETA en route: a new revision, evaluated again. The crew's screen sends
+ * `changes`, only what the crew changed, laid over the stored report on the server; a whole
+ * report in `clinical` replaces it. One of the two; an ETA or notes left out stay as they were.
+ */
+export const PreAlertUpdate = z
+  .object({
+    caseId: id('case'),
+    etaMinutes: eta.nullable().optional(),
+    notes: notes.optional(),
+    clinical: ClinicalInput.optional(),
+    changes: ClinicalChanges.optional(),
+  })
+  .superRefine((update, ctx) => {
+    if (update.clinical === undefined && update.changes === undefined) ctx.addIssue({ code: 'custom', path: ['changes'], message: 'is required: send the changed clinical fields (or a whole report in clinical)' });
+    if (update.clinical !== undefined && update.changes !== undefined) ctx.addIssue({ code: 'custom', path: ['changes'], message: 'cannot come with a whole report in clinical; send one of the two' });
+  });
 export type PreAlertUpdate = z.infer<typeof PreAlertUpdate>;
 
 export const CaseCancel = z.object({ caseId: id('case'), reason });
