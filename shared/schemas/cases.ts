@@ -1,6 +1,5 @@
 import { z } from 'zod';
 import { ClinicalInput } from './clinical';
-import { ClinicalChanges } from './clinical-changes';
 import { safeText } from './text';
 import type { Evaluation } from '../triage/evaluate';
 import type { LevelId } from '../triage/policy';
@@ -38,6 +37,17 @@ export const PreAlert = z.object({
   clinical: ClinicalInput,
 });
 export type PreAlert = z.infer<typeof PreAlert>;
+
+const MAX_CHANGES_CHARS = 16_000;
+/**
+ * An update's clinical part as the crew's screen sends it: only the changed fields, as a partial
+ * report (merged and checked on the server, shared/schemas/clinical-changes.ts). Only its shape is
+ * checked here; once merged, the strict ClinicalInput names any unknown or bad field.
+ */
+export const ClinicalChanges = z
+  .record(z.string(), z.unknown(), { error: 'must be an object of the changed clinical fields' })
+  .refine((value) => JSON.stringify(value).length <= MAX_CHANGES_CHARS, { error: `must be at most ${MAX_CHANGES_CHARS} characters as JSON` });
+export type ClinicalChanges = z.infer<typeof ClinicalChanges>;
 
 /**
  * New vitals, findings or ETA en route: a new revision, evaluated again. The crew's screen sends

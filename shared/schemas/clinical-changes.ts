@@ -1,5 +1,6 @@
 import { z } from 'zod';
 import { ClinicalInput } from './clinical';
+import type { ClinicalChanges } from './cases';
 
 /**
  * An update's clinical part: only what the crew changed, as a partial report. The server lays it
@@ -13,37 +14,14 @@ type JsonObject = Record<string, Json>;
 
 const isPlainObject = (v: Json): v is JsonObject => typeof v === 'object' && v !== null && !Array.isArray(v);
 const same = (a: Json, b: Json) => JSON.stringify(a ?? null) === JSON.stringify(b ?? null);
-// Keys that would reach an object's prototype if copied onto it; none is a clinical field.
-const FORBIDDEN_KEYS = new Set(['__proto__', 'constructor', 'prototype']);
-const MAX_CHANGES_CHARS = 16_000;
-
-function forbiddenKeyIn(value: Json, path: string[]): string | null {
-  if (Array.isArray(value)) return null;
-  if (!isPlainObject(value)) return null;
-  for (const key of Object.keys(value)) {
-    if (FORBIDDEN_KEYS.has(key)) return [...path, key].join('.');
-    const deeper = forbiddenKeyIn(value[key], [...path, key]);
-    if (deeper) return deeper;
-  }
-  return null;
-}
-
-/** The shape only; what it says is checked once merged, by ClinicalInput. */
-export const ClinicalChanges = z
-  .record(z.string(), z.unknown(), { error: 'must be an object of the changed clinical fields' })
-  .superRefine((value, ctx) => {
-    const key = forbiddenKeyIn(value, []);
-    if (key) ctx.addIssue({ code: 'custom', message: `unknown field ${key}` });
-    else if (JSON.stringify(value).length > MAX_CHANGES_CHARS) ctx.addIssue({ code: 'custom', message: `must be at most ${MAX_CHANGES_CHARS} characters as JSON` });
-  });
-export type ClinicalChanges = z.infer<typeof ClinicalChanges>;
 
 function merge(stored: Json, changes: JsonObject): JsonObject {
   const out: JsonObject = isPlainObject(stored) ? { ...stored } : {};
   for (const [key, value] of Object.entries(changes)) {
     if (value === null) delete out[key];
-    else if (isPlainObject(value) && isPlainObject(out[key])) out[key] = merge(out[key], value);
-    else out[key] = value;
+    // Defined, not assigned: a key such as __proto__ stays an own (unknown) field that the strict
+    // parse then names, and never reaches the object's prototype.
+    else Object.defineProperty(out, key, { value: isPlainObject(value) && Object.hasOwn(out, key) && isPlainObject(out[key]) ? merge(out[key], value) : value, enumerable: true, writable: true, configurable: true });
   }
   return out;
 }

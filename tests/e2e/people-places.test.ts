@@ -97,7 +97,8 @@ describeInBrowser('People & places in Chromium', () => {
     // On a 390 px phone the title clears the close button.
     const title = await dialog.locator('.p-dialog-title, .p-confirmdialog-title').first().boundingBox();
     const close = await dialog.locator('.p-dialog-close-button, button[aria-label="Close"]').first().boundingBox();
-    if (title && close) expect(title.x + title.width <= close.x || title.y + title.height <= close.y).toBe(true);
+    expect(title && close, 'title and close button').toBeTruthy();
+    expect(title!.x + title!.width <= close!.x || title!.y + title!.height <= close!.y).toBe(true);
     await shot(page, 'i17b-deactivate-confirm-390');
     await dialog.getByRole('button', { name: 'Keep them active' }).click();
     expect((await server.db('users').where({ id: nurse.id }).first('active')).active).toBeTruthy();
@@ -120,7 +121,7 @@ describeInBrowser('People & places in Chromium', () => {
       const admin = await newSignedInPage(browser, server.url, 'admin@plumbline.test', { path: '/people', device: { viewport: size } as never });
       await admin.page.getByRole('tab', { name: 'Hospitals', exact: true }).click();
       await admin.page.getByRole('button', { name: 'Save Alderwick General' }).waitFor();
-      const widest = await admin.page.evaluate(() => [...document.querySelectorAll('main *')].filter((e) => e.getBoundingClientRect().right > window.innerWidth && !e.closest('.p-tablist')).slice(0, 3).map((e) => `${e.tagName}.${e.className}`).join(' | '));
+      const widest = await admin.page.evaluate(() => Array.from(document.querySelectorAll('main *')).filter((e) => e.getBoundingClientRect().right > window.innerWidth && !e.closest('.p-tablist')).slice(0, 3).map((e) => `${e.tagName}.${e.className}`).join(' | '));
       expect(await admin.page.evaluate(() => document.documentElement.scrollWidth), `${size.width} px: ${widest}`).toBeLessThanOrEqual(size.width);
       await shot(admin.page, `i17b-people-hospitals-${size.width}`);
       await admin.context.close();

@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { ClinicalInput, describeIssues } from '../../../../shared/schemas/clinical';
-import { applyClinicalChanges, ClinicalChanges, clinicalChanges, MergedClinical } from '../../../../shared/schemas/clinical-changes';
-import { PreAlertUpdate } from '../../../../shared/schemas/cases';
+import { applyClinicalChanges, clinicalChanges, MergedClinical } from '../../../../shared/schemas/clinical-changes';
+import { ClinicalChanges, PreAlertUpdate } from '../../../../shared/schemas/cases';
 
 // 3.05 m typed in metres is above the 10 ft (3.048 m) fall criterion; shown in feet it reads
 // "10.0 ft", which is 3.048 m and no longer above it [source: 2021 field-triage guideline,
@@ -53,8 +53,10 @@ describe('an update carries only what the crew changed', () => {
     expect(fields).toContain('changes.vitals.hr');
     expect(fields.some((f) => f.startsWith('changes.fall'))).toBe(true);
     expect(MergedClinical.safeParse({ changes: applyClinicalChanges(stored, { ageYears: null }) }).success).toBe(false);
-    const polluted = ClinicalChanges.safeParse(JSON.parse('{"vitals":{"__proto__":{"polluted":true}}}'));
+    const tampered = ClinicalChanges.parse(JSON.parse('{"vitals":{"__proto__":{"polluted":true}}}'));
+    const polluted = MergedClinical.safeParse({ changes: applyClinicalChanges(stored, tampered) });
     expect(polluted.success).toBe(false);
+    expect(describeIssues(polluted.error!).map((i) => i.message).join(' ')).toContain('__proto__');
     expect(({} as Record<string, unknown>).polluted).toBeUndefined();
   });
 
