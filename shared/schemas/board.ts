@@ -204,14 +204,18 @@ export function fallCriterionPhrase(set: CriteriaSetId, ageYears: number, unit: 
   return `criterion: above ${formatFallHeight(threshold, unit)} (${beside})`;
 }
 
+/** The fall as the crew gave it: "10 ft (entered as 3.05 m) onto concrete". */
+export function formatFall(input: Pick<ClinicalInput, 'fall'>, unit: 'm' | 'ft' | 'storeys', unknownLanding = ''): string {
+  return [formatFallHeightAsEntered(input.fall, unit), landingPhrase(input.fall.surface) || unknownLanding].filter(Boolean).join(' ');
+}
+
 /**
  * The fall as the card, page and print show it, the criterion last:
  * "10 ft (entered as 3.05 m) onto concrete; criterion: above 10 ft (3 m)".
  */
 export function formatFallWithCriterion(input: Pick<ClinicalInput, 'fall' | 'ageYears'>, set: CriteriaSetId, unit: 'm' | 'ft' | 'storeys', unknownLanding = ''): string {
   const criterion = input.fall.heightM === 0 ? '' : fallCriterionPhrase(set, input.ageYears, unit);
-  const fall = [formatFallHeightAsEntered(input.fall, unit), landingPhrase(input.fall.surface) || unknownLanding].filter(Boolean).join(' ');
-  return [fall, criterion].filter(Boolean).join('; ');
+  return [formatFall(input, unit, unknownLanding), criterion].filter(Boolean).join('; ');
 }
 
 /** Where the patient landed, as a phrase after the height: "onto concrete", "down stairs"; empty when not known. */
