@@ -2,12 +2,13 @@ import type { Knex } from 'knex';
 import type { Me, Role } from '../../shared/roles';
 import { OPEN_STATES, type CaseCancel, type CaseEventView, type CaseRedirect, type CaseState, type CaseSummary, type PreAlert, type PreAlertUpdate } from '../../shared/schemas/cases';
 import type { ClinicalInput } from '../../shared/schemas/clinical';
+import { applyClinicalChanges, MergedClinical } from '../../shared/schemas/clinical-changes';
 import { evaluate, type Evaluation, type FieldRisk } from '../../shared/triage/evaluate';
 import { LEVEL_RANK, type LevelId } from '../../shared/triage/policy';
 import { compareUrgency, type UrgencyFacts } from '../../shared/board/urgency';
 import { agencyIdsOf, hospitalIdsOf } from '../auth/guards';
 import type { Clock } from '../deps';
-import { conflict, forbidden, invalid, notFound } from '../errors';
+import { conflict, forbidden, invalid, notFound, parseOr400 } from '../errors';
 import { recordCaseEvent, type Actor } from './audit';
 import { policyInForce } from './policies';
 
@@ -173,8 +174,16 @@ function rememberWritten(db: Knex, written: WrittenRevision): void {
 /** An update en route: a new revision, evaluated again; a rising recommendation is flagged. */
 export async function reviseCase(db: Knex, clock: Clock, actor: CaseActor, payload: PreAlertUpdate): Promise<{ caseId: number; rose: boolean; from: LevelId; to: LevelId }> {
   const row = await caseForCrew(db, actor.me, payload.caseId);
+  const latest = await db('case_revisions').where({ case_id: row.id, revision: row.current_revision }).first('input', 'eta_minutes', 'notes');
+  // Changes are laid over the report this row_version stored; a newer revision in between makes
+  // the guarded write below refuse, so nothing is merged onto a report the crew has not seen.
+  const input = payload.changes !== undefined
+    ? parseOr400(MergedClinical, { changes: applyClinicalChanges(JSON.parse(latest.input) as ClinicalInput, payload.changes) }).changes
+    : payload.clinical!;
+  // Notes the update leaves out stay as the last revision had them (the case keeps its ETA too).
+  const notes = payload.notes === undefined ? latest.notes : payload.notes;
   const at = clock.now();
-  const result = await evaluateFor(db, row.hospital_id, payload.clinical, at);
+  const result = await evaluateFor(db, row.hospital_id, input, at);
   const from = row.recommended_level;
   const rose = LEVEL_RANK[result.activation] > LEVEL_RANK[from];
   const written = await db.transaction(async (trx) => {
@@ -193,7 +202,7 @@ export async function reviseCase(db: Knex, clock: Clock, actor: CaseActor, paylo
         row_version: row.row_version + 1,
       });
     if (!changed) throw conflict('The case changed while this update was sent; send it again.');
-    const stored = await insertRevision(trx, row.id, revision, payload.clinical, result, payload.etaMinutes ?? null, payload.notes ?? null, actor.me.user.id, at);
+    const stored = await insertRevision(trx, row.id, revision, input, result, payload.etaMinutes ?? null, notes, actor.me.user.id, at);
     await recordCaseEvent(trx, {
       caseId: row.id,
       kind: 'revised',

@@ -1,6 +1,6 @@
 import type { Knex } from 'knex';
 import type { CaseSummary } from '../../shared/schemas/cases';
-import { formatAgeSex, formatFallHeightAsEntered, handoverLines, landingPhrase, levelName, type BoardLevel } from '../../shared/schemas/board';
+import { formatAgeSex, formatFallWithCriterion, handoverLines, levelName, type BoardLevel } from '../../shared/schemas/board';
 import { firstImpactOptions } from '../../shared/schemas/clinical';
 import type { LevelId } from '../../shared/triage/policy';
 import type { OutgoingMail } from '../mail';
@@ -66,7 +66,7 @@ function patientLines(summary: CaseSummary, clock: MailClock): string[] {
   ].filter(Boolean);
   return [
     `Patient: ${formatAgeSex(input.ageYears, input.sex)}`,
-    `Fall: ${[formatFallHeightAsEntered(input.fall, summary.hospital.heightUnit), landingPhrase(input.fall.surface) || 'landing surface not known'].join(' ')}, first impact ${labelOf(firstImpactOptions, input.fall.firstImpact).toLowerCase()}`,
+    `Fall: ${formatFallWithCriterion(input, summary.latest.result.set, summary.hospital.heightUnit, 'landing surface not known')}, first impact ${labelOf(firstImpactOptions, input.fall.firstImpact).toLowerCase()}`,
     `Latest vitals: ${vitals.length ? vitals.join(', ') : 'none recorded'}`,
     ...handoverLines(input, clock).map((l) => `${l.label}: ${l.text}`),
     ...(summary.latest.notes ? [`Crew's notes: ${summary.latest.notes}`] : []),

@@ -5,6 +5,7 @@ import {
   type AgencyFields,
   type AgencyRow,
   type CreateUser,
+  type EscalationLaterStep,
   type HospitalFields,
   type HospitalRow,
   type NotificationLists,
@@ -20,6 +21,7 @@ import { endIdentitySessionsOf } from '../idp/store';
 import { hashPassword } from '../auth/passwords';
 import { conflict, forbidden, invalid, notFound } from '../errors';
 import { appendAudit, type Actor } from './audit';
+import { getSetting, setSetting } from './settings';
 import { membershipsOf, rolesOf } from './users';
 
 // People & places, scoped to the administrator's own hospitals and agencies: an admin sees the
@@ -190,6 +192,8 @@ async function describeHospital(db: Knex, row: HospitalDbRow): Promise<HospitalR
   return {
     id: row.id, name: row.name, shortName: row.short_name, traumaLevel: row.trauma_level as HospitalRow['traumaLevel'],
     heightUnit: row.height_unit as HospitalRow['heightUnit'], escalationMinutes: row.escalation_minutes, lists,
+    timeZone: await getSetting<string>(db, 'hospital.timeZone', row.id),
+    escalationLaterSteps: await getSetting<EscalationLaterStep[]>(db, 'escalation.laterSteps', row.id),
   };
 }
 
@@ -214,6 +218,12 @@ const hospitalColumns = (fields: Partial<HospitalFields>) => {
   return out;
 };
 
+/** The time zone and later escalation steps live in settings; audited with the hospital's change. */
+async function writeHospitalSettings(trx: Knex, hospitalId: number, fields: Partial<HospitalFields>): Promise<void> {
+  if (fields.timeZone !== undefined) await setSetting(trx, 'hospital.timeZone', fields.timeZone, hospitalId);
+  if (fields.escalationLaterSteps !== undefined) await setSetting(trx, 'escalation.laterSteps', fields.escalationLaterSteps, hospitalId);
+}
+
 export async function createHospital(db: Knex, me: Me, fields: HospitalFields, at: number): Promise<HospitalRow> {
   const id = await db.transaction(async (trx) => {
     let inserted;
@@ -224,6 +234,7 @@ export async function createHospital(db: Knex, me: Me, fields: HospitalFields, a
       throw err;
     }
     await writeLists(trx, inserted.id, fields.lists);
+    await writeHospitalSettings(trx, inserted.id, fields);
     // The admin who adds a hospital manages it.
     await trx('memberships').insert({ user_id: me.user.id, hospital_id: inserted.id, agency_id: null });
     await appendAudit(trx, { at, actor: actorOf(me), action: 'hospital.created', entity: 'hospital', entityId: inserted.id, after: fields });
@@ -246,6 +257,7 @@ export async function updateHospital(db: Knex, me: Me, hospitalId: number, field
       throw err;
     }
     if (fields.lists) await writeLists(trx, hospitalId, fields.lists);
+    await writeHospitalSettings(trx, hospitalId, fields);
     const after = await describeHospital(trx, await trx('hospitals').where({ id: hospitalId }).first());
     await appendAudit(trx, { at, actor: actorOf(me), action: 'hospital.updated', entity: 'hospital', entityId: hospitalId, before, after });
   });

@@ -3,6 +3,8 @@ import { safeText } from './text';
 import { LEVEL_IDS, type LevelId } from '../triage/policy';
 import type { CaseSummary } from './cases';
 import { surfaceOptions, treatmentOptions, type ClinicalInput } from './clinical';
+import type { CriteriaSetId } from '../triage/criteria';
+import { fallHeightThresholdM } from '../triage/fall-threshold';
 
 // The charge nurse's actions on a case. Each body carries the rowVersion the nurse's board
 // showed, so of two nurses acting on the same case at once the first wins and the second is told.
@@ -186,6 +188,34 @@ export function formatFallHeightAsEntered(fall: ClinicalInput['fall'], unit: 'm'
   if (!entered || entered.unit === unit || fall.heightM === 0) return shown;
   const word = entered.unit === 'storeys' ? (entered.value === 1 ? 'storey' : 'storeys') : entered.unit;
   return `${shown} (entered as ${entered.value} ${word})`;
+}
+
+/**
+ * The fall criterion's figure the height is compared with, in the hospital's unit to one
+ * decimal with the other common unit beside it: "criterion: above 6.1 m (20 ft)". Only shown,
+ * never written back; empty when the set has no fixed figure for the patient's age.
+ */
+export function fallCriterionPhrase(set: CriteriaSetId, ageYears: number, unit: 'm' | 'ft' | 'storeys'): string {
+  const threshold = fallHeightThresholdM(set, ageYears);
+  if (threshold === null) return '';
+  const feet = `${Math.round((threshold / METRES_PER_FOOT) * 10) / 10} ft`;
+  const metres = `${Math.round(threshold * 10) / 10} m`;
+  const beside = unit === 'ft' ? metres : feet;
+  return `criterion: above ${formatFallHeight(threshold, unit)} (${beside})`;
+}
+
+/** The fall as the crew gave it: "10 ft (entered as 3.05 m) onto concrete". */
+export function formatFall(input: Pick<ClinicalInput, 'fall'>, unit: 'm' | 'ft' | 'storeys', unknownLanding = ''): string {
+  return [formatFallHeightAsEntered(input.fall, unit), landingPhrase(input.fall.surface) || unknownLanding].filter(Boolean).join(' ');
+}
+
+/**
+ * The fall as the card, page and print show it, the criterion last:
+ * "10 ft (entered as 3.05 m) onto concrete; criterion: above 10 ft (3 m)".
+ */
+export function formatFallWithCriterion(input: Pick<ClinicalInput, 'fall' | 'ageYears'>, set: CriteriaSetId, unit: 'm' | 'ft' | 'storeys', unknownLanding = ''): string {
+  const criterion = input.fall.heightM === 0 ? '' : fallCriterionPhrase(set, input.ageYears, unit);
+  return [formatFall(input, unit, unknownLanding), criterion].filter(Boolean).join('; ');
 }
 
 /** Where the patient landed, as a phrase after the height: "onto concrete", "down stairs"; empty when not known. */

@@ -38,13 +38,34 @@ export const PreAlert = z.object({
 });
 export type PreAlert = z.infer<typeof PreAlert>;
 
-/** New vitals, findings or ETA en route: a new revision, evaluated again. */
-export const PreAlertUpdate = z.object({
-  caseId: id('case'),
-  etaMinutes: eta.nullable().optional(),
-  notes: notes.optional(),
-  clinical: ClinicalInput,
-});
+const MAX_CHANGES_CHARS = 16_000;
+/**
+ * An update's clinical part as the crew's screen sends it: only the changed fields, as a partial
+ * report (merged and checked on the server, shared/schemas/clinical-changes.ts). Only its shape is
+ * checked here; once merged, the strict ClinicalInput names any unknown or bad field.
+ */
+export const ClinicalChanges = z
+  .record(z.string(), z.unknown(), { error: 'must be an object of the changed clinical fields' })
+  .refine((value) => JSON.stringify(value).length <= MAX_CHANGES_CHARS, { error: `must be at most ${MAX_CHANGES_CHARS} characters as JSON` });
+export type ClinicalChanges = z.infer<typeof ClinicalChanges>;
+
+/**
+ * New vitals, findings or ETA en route: a new revision, evaluated again. The crew's screen sends
+ * `changes`, only what the crew changed, laid over the stored report on the server; a whole
+ * report in `clinical` replaces it. One of the two; an ETA or notes left out stay as they were.
+ */
+export const PreAlertUpdate = z
+  .object({
+    caseId: id('case'),
+    etaMinutes: eta.nullable().optional(),
+    notes: notes.optional(),
+    clinical: ClinicalInput.optional(),
+    changes: ClinicalChanges.optional(),
+  })
+  .superRefine((update, ctx) => {
+    if (update.clinical === undefined && update.changes === undefined) ctx.addIssue({ code: 'custom', path: ['changes'], message: 'is required: send the changed clinical fields (or a whole report in clinical)' });
+    if (update.clinical !== undefined && update.changes !== undefined) ctx.addIssue({ code: 'custom', path: ['changes'], message: 'cannot come with a whole report in clinical; send one of the two' });
+  });
 export type PreAlertUpdate = z.infer<typeof PreAlertUpdate>;
 
 export const CaseCancel = z.object({ caseId: id('case'), reason });

@@ -74,7 +74,7 @@ export const firstImpactOptions: readonly Option<FirstImpactRegion>[] = [
 
 export const findingOptions: readonly Option<Finding>[] = [
   { id: 'penetrating-head-neck-torso-proximal-limb', label: 'Penetrating wound to head, neck, torso or upper arm or thigh' },
-  { id: 'skull-deformity', label: 'Skull deformity or suspected skull fracture' },
+  { id: 'skull-deformity', label: 'Skull deformity or suspected fracture' },
   { id: 'spinal-injury-deficit', label: 'Suspected spinal injury with new weakness or numbness' },
   { id: 'chest-wall-instability', label: 'Unstable or deformed chest wall' },
   { id: 'pelvic-fracture', label: 'Suspected broken pelvis' },

@@ -52,6 +52,32 @@ export type NotificationLists = z.infer<typeof NotificationLists>;
 export const TraumaLevel = z.enum(['I', 'II', 'III', 'IV', 'none'], { error: 'must be I, II, III, IV or none' });
 export const HeightUnit = z.enum(['m', 'ft', 'storeys'], { error: 'must be m, ft or storeys' });
 
+/** An IANA time zone the runtime knows ("Europe/London"); UTC by that name too. */
+export function isTimeZone(zone: string): boolean {
+  return zone === 'UTC' || Intl.supportedValuesOf('timeZone').includes(zone);
+}
+export const TimeZone = z
+  .string({ error: 'must be a time zone name' })
+  .refine(isTimeZone, { error: 'must be a time zone name such as Europe/London or America/Chicago (IANA)' });
+
+/**
+ * Escalation after the first step: each step at `times` × the hospital's escalation minutes, to
+ * one of its notification lists; later steps come later, each list once at most.
+ */
+export const EscalationLaterStep = z.object({
+  times: z.number({ error: 'must be a number' }).gt(1, { error: 'must be more than 1 (the first step is 1 × the minutes)' }).max(10, { error: 'must be at most 10' }),
+  list: z.enum(NOTIFICATION_LISTS, { error: `must be one of: ${NOTIFICATION_LISTS.join(', ')}` }),
+});
+export type EscalationLaterStep = z.infer<typeof EscalationLaterStep>;
+export const EscalationLaterSteps = z
+  .array(EscalationLaterStep, { error: 'must be a list of steps' })
+  .max(4, { error: 'must hold at most 4 later steps' })
+  .superRefine((steps, ctx) => {
+    steps.forEach((step, i) => {
+      if (i > 0 && step.times <= steps[i - 1].times) ctx.addIssue({ code: 'custom', path: [i, 'times'], message: 'must be later than the step before it' });
+    });
+  });
+
 export const HospitalFields = z.object({
   name: text(200),
   shortName: text(40),
@@ -59,6 +85,8 @@ export const HospitalFields = z.object({
   heightUnit: HeightUnit,
   escalationMinutes: z.number({ error: 'must be a number' }).int({ error: 'must be whole minutes' }).min(1, { error: 'must be at least 1' }).max(60, { error: 'must be at most 60' }),
   lists: NotificationLists,
+  timeZone: TimeZone.optional(),
+  escalationLaterSteps: EscalationLaterSteps.optional(),
 });
 export type HospitalFields = z.infer<typeof HospitalFields>;
 
@@ -92,6 +120,9 @@ export interface HospitalRow {
   heightUnit: z.infer<typeof HeightUnit>;
   escalationMinutes: number;
   lists: NotificationLists;
+  /** Settings of the hospital's own, else the product-wide ones. */
+  timeZone: string;
+  escalationLaterSteps: EscalationLaterStep[];
 }
 
 export interface AgencyRow {

@@ -14,7 +14,7 @@ const finding = (id: string, f: Extract<Condition, { kind: 'finding' }>['finding
 const entries: Entry[] = [
   // High risk: injury patterns [source: Newgard 2022]
   finding('penetrating-injury', 'penetrating-head-neck-torso-proximal-limb', 'Penetrating injury to head, neck, torso or proximal limb'),
-  finding('skull-deformity', 'skull-deformity', 'Skull deformity or suspected skull fracture'),
+  finding('skull-deformity', 'skull-deformity', 'Skull deformity or suspected fracture'),
   finding('spinal-injury-deficit', 'spinal-injury-deficit', 'Suspected spinal injury with new motor or sensory loss'),
   finding('chest-wall-instability', 'chest-wall-instability', 'Chest wall instability, deformity or suspected flail chest'),
   finding('pelvic-fracture', 'pelvic-fracture', 'Suspected pelvic fracture'),

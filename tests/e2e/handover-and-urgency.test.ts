@@ -145,6 +145,11 @@ describeInBrowser('handover, urgency order, wall and bays in Chromium', () => {
 
   it('an update of one vital sign leaves the height exactly as sent', async () => {
     const page = medic.page;
+    // What the browser puts on the wire: the update carries only the changed heart rate.
+    const cdp = await medic.context.newCDPSession(page);
+    const frames: string[] = [];
+    cdp.on('Network.webSocketFrameSent', (e) => frames.push(e.response.payloadData));
+    await cdp.send('Network.enable');
     await page.getByRole('tab', { name: /^Open cases/ }).click();
     await page.getByRole('button', { name: `Send an update for case ${sentNumber}` }).click();
     const update = page.getByRole('dialog', { name: `Update for case ${sentNumber}` });
@@ -164,6 +169,11 @@ describeInBrowser('handover, urgency order, wall and bays in Chromium', () => {
     expect(input.vitals.sbp).toBe(132);
     expect(input.handover.allergies).toBe('penicillin');
     expect((await server.db('cases').where({ id: sentId }).first('recommended_level')).recommended_level).toBe('consult');
+    const sent = frames.find((f) => f.includes('"case:update"'));
+    expect(sent, 'the update frame').toBeDefined();
+    const [, payload] = JSON.parse(sent!.slice(sent!.indexOf('['))) as [string, Record<string, unknown>];
+    expect(payload).toEqual({ caseId: sentId, changes: { vitals: { hr: 104 } } });
+    await cdp.detach();
   });
 
   it('on a busy shift the desk board is urgent first, four cases above the fold, notes and handover on the card', async () => {
@@ -216,7 +226,9 @@ describeInBrowser('handover, urgency order, wall and bays in Chromium', () => {
     expect(text).toContain('Anticoagulant: apixaban, last dose 08:00');
     expect(text).toContain('Treatment given: Splint, Pain relief');
     expect(text).toContain('Allergies: penicillin');
-    expect(text).toContain('(entered as 3.05 m)');
+    // Shown in the hospital's feet with the criterion's own figure beside it; stored as typed.
+    expect(text).toContain('10 ft (entered as 3.05 m)');
+    expect(text).toContain('criterion: above 10 ft (3 m)');
     await expectAccessible(page, 'Inbound board, desk, busy shift');
     await shot(page, 'i17-board-desk-1280');
   });

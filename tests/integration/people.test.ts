@@ -148,6 +148,38 @@ describe('hospitals', () => {
     expect(await auditRows('hospital', general)).toEqual(['hospital.updated']);
   });
 
+  it('sets the time zone and the later escalation steps, audited with the hospital; the escalation reads them', async () => {
+    const steps = [{ times: 2, list: 'senior' }, { times: 3, list: 'full' }];
+    const res = await admin.send('PATCH', `/api/people/hospitals/${general}`, { timeZone: 'Europe/London', escalationLaterSteps: steps });
+    expect(res.status).toBe(200);
+    const saved = await res.json();
+    expect([saved.timeZone, saved.escalationLaterSteps]).toEqual(['Europe/London', steps]);
+    const audit = await server.db('audit_log').where({ entity: 'hospital', entity_id: String(general) }).orderBy('id', 'desc').first('action', 'before', 'after');
+    expect(audit.action).toBe('hospital.updated');
+    expect(JSON.parse(audit.after)).toMatchObject({ timeZone: 'Europe/London', escalationLaterSteps: steps });
+    expect(JSON.parse(audit.before).escalationLaterSteps).toEqual([{ times: 2, list: 'senior' }]);
+    // The escalation job's own reading: N, 2N to the senior list, 3N to the full team's list.
+    const { escalationSteps } = await import('../../server/services/escalation');
+    expect(await escalationSteps(server.db, general, 4)).toEqual([{ afterMinutes: 4, list: 'escalation' }, { afterMinutes: 8, list: 'senior' }, { afterMinutes: 12, list: 'full' }]);
+    // The other hospital keeps the product-wide steps.
+    expect(await escalationSteps(server.db, community, 5)).toEqual([{ afterMinutes: 5, list: 'escalation' }, { afterMinutes: 10, list: 'senior' }]);
+  });
+
+  it('refuses a made-up time zone and steps out of order, naming the field; nothing changes', async () => {
+    const before = await auditRows('hospital', general);
+    const zone = await admin.send('PATCH', `/api/people/hospitals/${general}`, { timeZone: 'Alderwick/Harbour' });
+    expect(zone.status).toBe(400);
+    expect((await zone.json()).error.field).toBe('timeZone');
+    const order = await admin.send('PATCH', `/api/people/hospitals/${general}`, { escalationLaterSteps: [{ times: 3, list: 'senior' }, { times: 2, list: 'full' }] });
+    expect(order.status).toBe(400);
+    expect((await order.json()).error.message).toBe('escalationLaterSteps[1].times: must be later than the step before it');
+    const first = await admin.send('PATCH', `/api/people/hospitals/${general}`, { escalationLaterSteps: [{ times: 1, list: 'senior' }] });
+    expect(first.status).toBe(400);
+    expect(await auditRows('hospital', general)).toEqual(before);
+    const hospital = (await (await admin.get('/api/people/hospitals')).json()).find((h: { id: number }) => h.id === general);
+    expect(hospital.timeZone).toBe('Europe/London');
+  });
+
   it('refuses an escalation time of 0 minutes, naming the field', async () => {
     const res = await admin.send('PATCH', `/api/people/hospitals/${general}`, { escalationMinutes: 0 });
     expect(res.status).toBe(400);

@@ -312,34 +312,6 @@ export function draftFromInput(input: ClinicalInput, heightUnit: HeightUnit): Cl
   };
 }
 
-type Json = unknown;
-const same = (a: Json, b: Json) => JSON.stringify(a ?? null) === JSON.stringify(b ?? null);
-const isPlainObject = (v: Json): v is Record<string, Json> => typeof v === 'object' && v !== null && !Array.isArray(v);
-
-/**
- * The stored report with only what the crew changed in the form: every part the form shows as it
- * was loaded keeps its stored value exactly (a height never comes back through a display unit,
- * a field the form does not show is never dropped). `before` is the form as it opened, `after`
- * as it is sent, both built by toClinical.
- */
-export function onlyChanged(stored: Json, before: Json, after: Json): Json {
-  if (isPlainObject(stored) && isPlainObject(after)) {
-    const b = isPlainObject(before) ? before : {};
-    const out: Record<string, Json> = { ...stored };
-    for (const key of new Set([...Object.keys(after), ...Object.keys(b)])) {
-      if (same(b[key], after[key])) continue;
-      if (key === 'fall' && isPlainObject(after.fall) && isPlainObject(b.fall) && !same(b.fall.entered, after.fall.entered)) {
-        // A new height: its metres and its typed figure go together.
-        out.fall = { ...(isPlainObject(stored.fall) ? stored.fall : {}), ...onlyChanged(stored.fall, b.fall, after.fall) as object, heightM: after.fall.heightM, entered: after.fall.entered };
-        continue;
-      }
-      out[key] = isPlainObject(after[key]) && isPlainObject(stored[key]) ? onlyChanged(stored[key], b[key], after[key]) : after[key];
-    }
-    return out;
-  }
-  return same(before, after) ? stored : after;
-}
-
 export function gcsSum(draft: ClinicalDraft): number | null {
   return gcsTotalOf({ eye: draft.gcsEye, verbal: draft.gcsVerbal, motor: draft.gcsMotor });
 }

@@ -18,8 +18,4 @@ export const STANDING_WORDS: Record<TargetStanding, { text: string; severity: 's
   'no-data': { text: 'No cases yet', severity: 'secondary' },
 };
 
-export const dateOf = (ms: number) => new Date(ms).toLocaleDateString('en-GB', { day: 'numeric', month: 'short', year: 'numeric' });
-export const monthLabel = (key: string) => {
-  const [y, m] = key.split('-').map(Number);
-  return new Date(y, m - 1, 1).toLocaleDateString('en-GB', { month: 'short', year: 'numeric' });
-};
+export { formatDay as dateOf, formatMonth as monthLabel } from '../date-format';
