@@ -108,7 +108,7 @@ async function serve(dev: boolean): Promise<number> {
   const server = await startServer(config, { dev });
   const local = !config.oidc.issuer;
   console.log(`\nPlumbline is running at ${server.url}${dev ? ' (development, hot reload)' : ''}`);
-  console.log(`Data: ${config.dataDir}${server.mailer.local ? '  ·  mail: built-in SMTP fake (read it on the Mail sent page)' : ''}`);
+  console.log(`Data: ${config.dataDir}${server.mailer.local ? '  ·  mail: built-in SMTP fake (read it on the Messages sent page)' : ''}`);
   if (local) {
     console.log(`\nDemo sign-ins (password "${DEMO_PASSWORD}"):`);
     for (const account of demoAccounts) console.log(`  ${account.email.padEnd(30)} ${account.label}`);

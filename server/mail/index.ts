@@ -19,7 +19,7 @@ export const HOSPITAL_HEADER = 'X-Plumbline-Hospital';
 
 export interface Mailer {
   send(mail: OutgoingMail): Promise<{ messageId: string }>;
-  /** True when the built-in SMTP fake receives what is sent, so the Mail sent page has it. */
+  /** True when the built-in SMTP fake receives what is sent, so the Messages sent page has it. */
   readonly local: boolean;
   close(): Promise<void>;
 }
