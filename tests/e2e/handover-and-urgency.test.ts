@@ -14,7 +14,7 @@ import { collectPageErrors, describeInBrowser, expectAccessible, launchBrowser, 
 // The crew's words reach the ED intact, and the board puts the most urgent patient first.
 // Check values: a fall over 10 ft (3.048 m) is moderate risk and SBP < 90 at age 10–64 is high
 // risk [source: 2021 field-triage guideline, Newgard CD et al., 2022]; the shipped example policy
-// answers moderate with a trauma consult and high with the full team [ours: CLINICAL.md §4 example].
+// answers moderate with a trauma consult and high with the full team [ours: SOURCES.md §6 example policy].
 
 const DESK_800 = { viewport: { width: 1280, height: 800 } };
 

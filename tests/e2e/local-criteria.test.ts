@@ -12,7 +12,7 @@ import { DESK, collectPageErrors, describeInBrowser, expectAccessible, launchBro
 
 /**
  * 40-year-old, fall of 5 m (16.4 ft), normal vitals: above 10 ft, a consult under the example
- * [source: Newgard 2022, 10 ft; CLINICAL.md §4 example, ours]; above the local 15 ft written here.
+ * [source: Newgard 2022, 10 ft; SOURCES.md §6 example policy, ours]; above the local 15 ft written here.
  */
 const fallOf16ft = {
   ageYears: 40, sex: 'male', anticoagulant: false,

@@ -20,7 +20,7 @@ let draftId: number;
 
 /**
  * 40-year-old, fall of 5 m (16.4 ft) onto concrete, normal vitals: above 10 ft, so 2021 moderate
- * risk and a consult under the example policy [source: Newgard 2022, 10 ft; CLINICAL.md §4, ours];
+ * risk and a consult under the example policy [source: Newgard 2022, 10 ft; SOURCES.md §6, ours];
  * below the example's 20 ft limited rule.
  */
 const fallOf16ft = {

@@ -83,7 +83,7 @@ describe('a local criterion in the engine', () => {
 
   it('calls its level and cites the local policy and the reason', () => {
     const policy = policyWith([draft]);
-    // 5 m is 16.4 ft, above 15 ft; below the example's 20 ft (6.096 m) limited rule [source: CLINICAL.md §4 example, ours].
+    // 5 m is 16.4 ft, above 15 ft; below the example's 20 ft (6.096 m) limited rule [source: SOURCES.md §6 example policy, ours].
     const result = evaluate(patient({ fall: { heightM: 5 } }), { policy });
     expect(result.activation).toBe('full');
     const local = result.criteria.find((c) => c.set === 'local')!;
