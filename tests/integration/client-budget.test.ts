@@ -3,7 +3,7 @@ import { join } from 'node:path';
 import { beforeAll, describe, expect, it } from 'vitest';
 import { BUILD_MANIFEST, buildClient, clientBuildIsStale, CREW_VIEW, firstLoadFiles, type BuildManifest } from '../../server/cli/client-build';
 
-// The crew's first load on a weak link [ours: the budget of the field app, README "With no signal"]:
+// The crew's first load on a weak link [ours: the budget of the field app, README "Using it", on a phone or tablet]:
 // at most 150 KB of compressed script, 300 KB in all with styles, fonts and icons.
 const SCRIPT_BUDGET_KB = 150;
 const TOTAL_BUDGET_KB = 300;
