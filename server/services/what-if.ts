@@ -6,7 +6,8 @@ import { evaluate } from '../../shared/triage/evaluate';
 import { LEVEL_RANK, validatePolicy, type LevelId, type Policy } from '../../shared/triage/policy';
 import { forbidden, invalid, notFound } from '../errors';
 import { policyInForce } from './policies';
-import { assertQualityReader, periodOf } from './quality-report';
+import { assertQualityReader } from './quality-report';
+import { periodOf } from './report-period';
 import { LEVELS, NOT_DECIDED, readPastCases } from './what-if-inputs';
 import { localCriteriaRead } from './what-if-local';
 
