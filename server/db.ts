@@ -4,7 +4,7 @@ import { dirname, join, resolve } from 'node:path';
 import { fileURLToPath, pathToFileURL } from 'node:url';
 import knex, { type Knex } from 'knex';
 import { loadAuditKey } from './audit-key';
-import { useAuditKey } from './services/audit';
+import { useAuditKey } from './services/audit/audit';
 
 export type Db = Knex;
 

@@ -23,7 +23,7 @@ import { HospitalQuery as AuditHospitalQuery } from './routes/audit';
 import { PagingContact, PagingPlan } from '../shared/schemas/paging';
 import { ProgrammeEmail } from '../shared/schemas/audit';
 import { HospitalBays } from '../shared/schemas/bays';
-import { REVIEW_READER_ROLES, REVIEWER_ROLES } from './services/reviews';
+import { REVIEW_READER_ROLES, REVIEWER_ROLES } from './services/review/reviews';
 
 type Method = 'get' | 'post' | 'put' | 'patch' | 'delete';
 

@@ -14,16 +14,16 @@ import { machineAudienceOf } from './exchange/machine-auth';
 import type { LimiterStore } from './limits';
 import { createMailer, type Mailer } from './mail';
 import { createSmsSender, type SmsSender } from './sms';
-import { recordingMailer } from './services/messages';
+import { recordingMailer } from './services/messages/messages';
 import { attachSocketFeatures, createRealtime, type RealtimeServer } from './realtime';
 import { catchUpLane } from './realtime/catch-up';
 import { socketFeatures } from './realtime/features';
-import { backgroundJobs } from './services/jobs';
-import { primeCaseLists } from './services/cases';
-import { rehearsePreAlerts } from './services/rehearsal';
-import { isEmpty, seedDemo } from './services/seed';
-import { startKeyedChain } from './services/audit';
-import { abandonStagedImports } from './services/outcomes-import';
+import { backgroundJobs } from './services/jobs/jobs';
+import { primeCaseLists } from './services/cases/cases';
+import { rehearsePreAlerts } from './services/cases/rehearsal';
+import { isEmpty, seedDemo } from './services/demo/seed';
+import { startKeyedChain } from './services/audit/audit';
+import { abandonStagedImports } from './services/outcomes/import';
 
 export interface RunningServer {
   url: string;

@@ -2,7 +2,7 @@ import type { NextFunction, Request, Response } from 'express';
 import type { Knex } from 'knex';
 import type { Me, Role } from '../../shared/roles';
 import { forbidden, unauthenticated } from '../errors';
-import { findMe } from '../services/users';
+import { findMe } from '../services/people/users';
 
 declare global {
   // eslint-disable-next-line @typescript-eslint/no-namespace

@@ -3,7 +3,7 @@ import type { Knex } from 'knex';
 import type { Logger } from 'pino';
 import * as oidc from 'openid-client';
 import { Role } from '../../shared/roles';
-import { findUserByEmail } from '../services/users';
+import { findUserByEmail } from '../services/people/users';
 import { messagePage } from '../idp/pages';
 import { SESSION_COOKIE } from './session';
 import type { RealtimeServer } from '../realtime';

@@ -5,8 +5,8 @@ import { loadConfig } from '../config';
 import { createDb } from '../db';
 import { systemClock } from '../deps';
 import { createMailer, type Mailer } from '../mail';
-import { verifyAuditChain } from '../services/audit';
-import { checkCheckpoints, checkpointFileOf, readCheckpointFile, writeCheckpoint } from '../services/audit-checkpoints';
+import { verifyAuditChain } from '../services/audit/audit';
+import { checkCheckpoints, checkpointFileOf, readCheckpointFile, writeCheckpoint } from '../services/audit/checkpoints';
 import type { CliIo } from './engine-commands';
 
 // `plumbline audit verify [--checkpoints FILE]`: walks the keyed hash chain of the audit trail,

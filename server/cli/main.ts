@@ -5,7 +5,7 @@ import { dirname, join } from 'node:path';
 import { loadConfig } from '../config';
 import { createDb, migrate } from '../db';
 import { systemClock } from '../deps';
-import { DEMO_PASSWORD, demoAccounts, isEmpty, seedDemo } from '../services/seed';
+import { DEMO_PASSWORD, demoAccounts, isEmpty, seedDemo } from '../services/demo/seed';
 import { BUILT_CLIENT, clientBuildIsStale } from './client-build';
 
 const usage = `Usage: plumbline <command>

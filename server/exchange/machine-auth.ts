@@ -5,7 +5,7 @@ import type { Me } from '../../shared/roles';
 import type { AppDeps } from '../deps';
 import { AppError } from '../errors';
 import { localIdpPublicKeys } from '../idp/provider';
-import { activeMachineClient, type MachineClientRow } from '../services/machine-clients';
+import { activeMachineClient, type MachineClientRow } from './machine-clients';
 
 /** Machine clients' access tokens are good for the API and nowhere else. */
 export const machineAudienceOf = (publicUrl: string) => `${publicUrl}/api`;

@@ -1,7 +1,7 @@
 // The built-in identity provider's own pages: plain HTML in Plumbline's look, no scripts inline
 // (the Content-Security-Policy allows none) and nothing from another origin.
 
-import { demoAccounts } from '../services/demo-accounts';
+import { demoAccounts } from '../services/demo/accounts';
 
 const escape = (value: string) =>
   value.replace(/[&<>"']/g, (ch) => ({ '&': '&amp;', '<': '&lt;', '>': '&gt;', '"': '&quot;', "'": '&#39;' })[ch]!);

@@ -9,7 +9,7 @@ import type { Logger } from 'pino';
 import { verifyPassword } from '../auth/passwords';
 import { signInThrottle, type SignInThrottle } from '../auth/sign-in-throttle';
 import { waitText } from '../limits';
-import { findUserByEmail, findUserById } from '../services/users';
+import { findUserByEmail, findUserById } from '../services/people/users';
 import { messagePage, signInPage, signOutPage } from './pages';
 import { identityStoreFor } from './store';
 

@@ -2,8 +2,8 @@ import type { Logger } from 'pino';
 import type { CaseSummary } from '../../shared/schemas/cases';
 import { roomOfAgency, roomOfHospital, type CaseChange } from '../../shared/realtime/events';
 import type { CatchUpLane } from './catch-up';
-import { crewView } from '../services/crew';
-import type { RealtimeServer } from './index';
+import { crewView } from '../services/cases/crew';
+import type { RealtimeServer } from '.';
 
 /** What an announcement needs: the socket server, the lane the crews' copies wait in, and where a failed copy is logged. */
 export interface Announcer { io: RealtimeServer; catchUp: CatchUpLane; logger: Logger }

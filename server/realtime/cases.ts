@@ -2,12 +2,12 @@ import type { z } from 'zod';
 import { CaseCancel, CaseRedirect, PreAlert, PreAlertUpdate } from '../../shared/schemas/cases';
 import type { Ack } from '../../shared/realtime/events';
 import type { CaseSummary } from '../../shared/schemas/cases';
-import { crewView, readsAsCrew } from '../services/crew';
+import { crewView, readsAsCrew } from '../services/cases/crew';
 import type { AppDeps } from '../deps';
 import { forbidden, parseOr400 } from '../errors';
 import { hasRole } from '../auth/guards';
-import { cancelCase, caseSummary, redirectCase, reviseCase, submitPreAlert } from '../services/cases';
-import { ackError, type SocketFeature } from './index';
+import { cancelCase, caseSummary, redirectCase, reviseCase, submitPreAlert } from '../services/cases/cases';
+import { ackError, type SocketFeature } from '.';
 import { announceCase, announceRemoved } from './broadcast';
 import { crewCommandLimiter, DEFAULT_CREW_COMMAND_LIMITS, memoryLimiterStore } from '../limits';
 

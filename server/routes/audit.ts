@@ -4,8 +4,8 @@ import { ProgrammeEmail } from '../../shared/schemas/audit';
 import type { AppDeps } from '../deps';
 import { assertHospital, requireRole, requireUser } from '../auth/guards';
 import { parseOr400 } from '../errors';
-import { PROGRAMME_EMAIL_SETTING } from '../services/audit-checkpoints';
-import { getSetting, setSetting } from '../services/settings';
+import { PROGRAMME_EMAIL_SETTING } from '../services/audit/checkpoints';
+import { getSetting, setSetting } from '../services/people/settings';
 
 export const HospitalQuery = z.object({ hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }) });
 

@@ -4,7 +4,7 @@ import { assertHospital, requireRole, requireUser } from '../auth/guards';
 import { parseOr400 } from '../errors';
 import { IdParam } from './params';
 import { HospitalBays } from '../../shared/schemas/bays';
-import { listBays, setBays } from '../services/bays';
+import { listBays, setBays } from '../services/board/bays';
 
 // The board's nurses and watchers read a hospital's bays; an administrator of it edits them.
 const readers = ['charge_nurse', 'trauma_lead', 'admin'] as const;

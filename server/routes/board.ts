@@ -6,9 +6,9 @@ import { requireRole, requireUser } from '../auth/guards';
 import { errorBody, parseOr400 } from '../errors';
 import { CaseIdParam } from './params';
 import { announceCase } from '../realtime/broadcast';
-import { actOnCase, boardSnapshotJson, CaseActionError } from '../services/board';
+import { actOnCase, boardSnapshotJson, CaseActionError } from '../services/board/board';
 import { sendJsonText } from './json-text';
-import { startPaging } from '../services/sms-paging';
+import { startPaging } from '../services/board/sms-paging';
 
 export const BoardQuery = z.object({
   hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }).optional(),

@@ -5,9 +5,9 @@ import type { AppDeps } from '../deps';
 import { agencyIdsOf, hospitalIdsOf, requireRole, requireUser } from '../auth/guards';
 import { parseOr400 } from '../errors';
 import { CaseIdParam } from './params';
-import { caseEvents, caseForReader, caseRevisions, caseSummary, listCaseSummariesPage } from '../services/cases';
+import { caseEvents, caseForReader, caseRevisions, caseSummary, listCaseSummariesPage } from '../services/cases/cases';
 import { sendJsonText } from './json-text';
-import { crewEvents, crewView, readsAsCrew } from '../services/crew';
+import { crewEvents, crewView, readsAsCrew } from '../services/cases/crew';
 import type { CaseSummary } from '../../shared/schemas/cases';
 
 export const CaseListQuery = z.object({ state: z.enum(['open', 'all']).default('open') });

@@ -1,7 +1,7 @@
 import { Router } from 'express';
 import type { AppDeps } from '../deps';
 import { requireRole, requireUser } from '../auth/guards';
-import { crewDestinations } from '../services/crew';
+import { crewDestinations } from '../services/cases/crew';
 
 export function crewRouter({ db, clock }: AppDeps): Router {
   const router = Router();

@@ -7,8 +7,8 @@ import { parseOr400 } from '../errors';
 import { preAlertFromBundle } from '../exchange/fhir-in';
 import { requireMachineClient } from '../exchange/machine-auth';
 import { announceCase } from '../realtime/broadcast';
-import { caseSummary, submitPreAlert } from '../services/cases';
-import { fhirBundleOfCase, fhirResourcesOfPeriod, ndjson, ndjsonZip } from '../services/fhir-export';
+import { caseSummary, submitPreAlert } from '../services/cases/cases';
+import { fhirBundleOfCase, fhirResourcesOfPeriod, ndjson, ndjsonZip } from '../exchange/fhir-export';
 import { CaseIdParam } from './params';
 
 const FHIR_JSON = 'application/fhir+json';

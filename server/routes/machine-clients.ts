@@ -3,7 +3,7 @@ import { RegisterMachineClient } from '../../shared/schemas/machine-clients';
 import type { AppDeps } from '../deps';
 import { requireRole, requireUser } from '../auth/guards';
 import { conflict, parseOr400 } from '../errors';
-import { listMachineClients, registerMachineClient, revokeMachineClient } from '../services/machine-clients';
+import { listMachineClients, registerMachineClient, revokeMachineClient } from '../exchange/machine-clients';
 import { IdParam } from './params';
 
 /** People & places: the record and dispatch systems that send pre-alerts for an administrator's agencies. */

@@ -2,7 +2,7 @@ import { Router } from 'express';
 import { z } from 'zod';
 import type { AppDeps } from '../deps';
 import { hospitalIdsOf, requireRole, requireUser } from '../auth/guards';
-import { listMail } from '../services/mail-inbox';
+import { listMail } from '../services/messages/inbox';
 import { parseOr400 } from '../errors';
 
 export const MailQuery = z.object({ limit: z.coerce.number({ error: 'must be a number' }).int({ error: 'must be a whole number' }).min(1, { error: 'must be at least 1' }).max(500, { error: 'must be at most 500' }).default(100) });

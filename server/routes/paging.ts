@@ -6,9 +6,9 @@ import { assertHospital, hospitalIdsOf, requireRole, requireUser } from '../auth
 import { parseOr400 } from '../errors';
 import { IdParam } from './params';
 import { PagingContact, PagingPlan } from '../../shared/schemas/paging';
-import { REVIEW_READER_ROLES, scopeHospitals } from '../services/reviews';
-import { listMessages } from '../services/messages';
-import { boardPaging, getPagingPlan, hospitalPeople, pageToFirstComing, savePagingPlan, setContact } from '../services/sms-paging';
+import { REVIEW_READER_ROLES, scopeHospitals } from '../services/review/reviews';
+import { listMessages } from '../services/messages/messages';
+import { boardPaging, getPagingPlan, hospitalPeople, pageToFirstComing, savePagingPlan, setContact } from '../services/board/sms-paging';
 
 const idOf = (req: Request) => parseOr400(IdParam, req.params).id;
 export const HospitalQuery = z.object({ hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }) });

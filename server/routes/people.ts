@@ -5,7 +5,7 @@ import { conflict, parseOr400 } from '../errors';
 import { IdParam } from './params';
 import { disconnectSocketsOf, refreshSocketsOf } from '../realtime/session-follow';
 import { AgencyDestinations, AgencyFields, CreateUser, HospitalFields, SetPassword, UnitFields, UpdateHospital, UpdateUnit, UpdateUser } from '../../shared/schemas/people';
-import * as people from '../services/people';
+import * as people from '../services/people/people';
 
 const idOf = (req: Request) => parseOr400(IdParam, req.params).id;
 

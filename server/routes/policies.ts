@@ -6,8 +6,8 @@ import { requireRole, requireUser } from '../auth/guards';
 import { AppError, errorBody, parseOr400 } from '../errors';
 import { IdParam } from './params';
 import { ApproveVersion, CreateDraft, LocalPreviewQuery, PublishVersion, SaveDraft } from '../../shared/schemas/policies';
-import { previewLocalCondition } from '../services/local-criteria';
-import { approveVersion, createDraft, discardDraft, getPolicyVersion, listPolicyVersions, publishVersion, saveDraft } from '../services/policies';
+import { previewLocalCondition } from '../services/policies/local-criteria';
+import { approveVersion, createDraft, discardDraft, getPolicyVersion, listPolicyVersions, publishVersion, saveDraft } from '../services/policies/policies';
 
 export const HospitalQuery = z.object({ hospitalId: z.coerce.number({ error: 'must be a number' }).int().positive() });
 const idOf = (req: Request) => parseOr400(IdParam, req.params).id;

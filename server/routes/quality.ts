@@ -5,9 +5,9 @@ import { DrilldownQuery, ImportRequest, OUTCOME_FILE_MAX_BYTES, ReportQuery, Tar
 import type { AppDeps } from '../deps';
 import { requireRole, requireUser } from '../auth/guards';
 import { AppError, invalid, parseOr400 } from '../errors';
-import { importOutcomes, outcomeTemplateCsv, previewOutcomes } from '../services/outcomes-import';
-import { assertQualityReader, drilldown, qualityReport, qualityTargets, reportCsv, saveQualityTargets } from '../services/quality-report';
-import { runWhatIf, whatIfPolicies } from '../services/what-if';
+import { importOutcomes, outcomeTemplateCsv, previewOutcomes } from '../services/outcomes/import';
+import { assertQualityReader, drilldown, qualityReport, qualityTargets, reportCsv, saveQualityTargets } from '../services/quality/report';
+import { runWhatIf, whatIfPolicies } from '../services/quality/what-if';
 
 export const HospitalQuery = z.object({ hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }) });
 export const TargetsRequest = z.object({ hospitalId: HospitalQuery.shape.hospitalId, targets: TargetsInput });

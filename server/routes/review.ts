@@ -5,11 +5,11 @@ import type { AppDeps } from '../deps';
 import { assertHospital, requireRole, requireUser } from '../auth/guards';
 import { parseOr400 } from '../errors';
 import { IdParam } from './params';
-import { auditChainFor } from '../services/audit-scope';
-import { complianceReport } from '../services/compliance';
-import { toCsv, type CsvColumn } from '../services/csv';
-import { allReviewCases, caseTimeline, closeDiscussion, discussionList, listReviewCases, reviewCase, REVIEW_READER_ROLES, REVIEWER_ROLES, scopeHospitals } from '../services/reviews';
-import { getSetting, setSetting } from '../services/settings';
+import { auditChainFor } from '../services/audit/scope';
+import { complianceReport } from '../services/review/compliance';
+import { toCsv, type CsvColumn } from '../services/quality/csv';
+import { allReviewCases, caseTimeline, closeDiscussion, discussionList, listReviewCases, reviewCase, REVIEW_READER_ROLES, REVIEWER_ROLES, scopeHospitals } from '../services/review/reviews';
+import { getSetting, setSetting } from '../services/people/settings';
 
 export const HospitalQuery = z.object({ hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }).optional() });
 const idOf = (req: Request) => parseOr400(IdParam, req.params).id;

@@ -2,7 +2,7 @@ import express, { Router, type Request, type Response } from 'express';
 import twilio from 'twilio';
 import type { AppDeps } from '../deps';
 import { AppError } from '../errors';
-import { recordReceipt, recordReply } from '../services/sms-paging';
+import { recordReceipt, recordReply } from '../services/board/sms-paging';
 import { SIGNATURE_HEADER } from '../sms/signature';
 
 // The SMS provider's calls to us: delivery receipts and replies. No page of ours makes these

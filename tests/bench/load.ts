@@ -6,7 +6,7 @@ import type { CaseSummary } from '../../shared/schemas/cases';
 import type { ClinicalInput } from '../../shared/schemas/clinical';
 import type { AckResponse, ClientToServerEvents, ServerToClientEvents } from '../../shared/realtime/events';
 import { createDb } from '../../server/db';
-import { verifyAuditChain } from '../../server/services/audit';
+import { verifyAuditChain } from '../../server/services/audit/audit';
 import { signIn } from '../support/sign-in';
 import { childServer, databaseFileOf, tempDataDir, type ChildServer } from './support/child-server';
 import { boardScreens, monotonicMs } from './support/board-screens';

@@ -7,7 +7,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { performance } from 'node:perf_hooks';
 import { createDb, migrate } from '../../server/db';
-import { buildReport } from '../../server/services/quality-report';
+import { buildReport } from '../../server/services/quality/report';
 import type { ClinicalInput } from '../../shared/schemas/clinical';
 import { ReportQuery } from '../../shared/schemas/quality';
 import { evaluate, type Evaluation } from '../../shared/triage/evaluate';

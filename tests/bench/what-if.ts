@@ -11,7 +11,7 @@ import { join } from 'node:path';
 import { performance } from 'node:perf_hooks';
 import { pathToFileURL } from 'node:url';
 import { createDb, migrate } from '../../server/db';
-import { runWhatIf } from '../../server/services/what-if';
+import { runWhatIf } from '../../server/services/quality/what-if';
 import type { Me } from '../../shared/roles';
 import type { ClinicalInput } from '../../shared/schemas/clinical';
 import { WhatIfRequest } from '../../shared/schemas/quality';

@@ -2,7 +2,7 @@ import { execFile } from 'node:child_process';
 import { randomUUID } from 'node:crypto';
 import { promisify } from 'node:util';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { appendAudit, appendAudits, systemActor, verifyAuditChain } from '../../server/services/audit';
+import { appendAudit, appendAudits, systemActor, verifyAuditChain } from '../../server/services/audit/audit';
 import type { Mailer } from '../../server/mail';
 import { startTestServer, type TestServer } from '../support/server';
 import { signIn, type SignedInClient } from '../support/sign-in';

@@ -9,7 +9,7 @@ import { io as connect, type Socket } from 'socket.io-client';
 import type { CaseSummary } from '../../shared/schemas/cases';
 import type { AckResponse } from '../../shared/realtime/events';
 import { createDb } from '../../server/db';
-import { verifyAuditChain } from '../../server/services/audit';
+import { verifyAuditChain } from '../../server/services/audit/audit';
 import { loadAuditKey } from '../../server/audit-key';
 import { backupCommand, restoreCommand } from '../../server/cli/backup-command';
 import { signIn } from '../support/sign-in';

@@ -1,7 +1,7 @@
 import { randomUUID } from 'node:crypto';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { CaseSummary } from '../../shared/schemas/cases';
-import { runEscalation } from '../../server/services/escalation';
+import { runEscalation } from '../../server/services/jobs/escalation';
 import { startTestServer, type TestServer } from '../support/server';
 import { signIn, type SignedInClient } from '../support/sign-in';
 import { command, connectAs, nextEvent, type TestSocket } from '../support/socket';
@@ -152,7 +152,7 @@ describe('escalation in steps, and digests when many wait at once', () => {
 
     // Past the ETA the notice says so in words, not "in 0 min".
     clock.t += 30 * MIN;
-    const late = (await import('../../server/services/paging')).etaLine({ arrivedAt: null, etaAt: summary.etaAt }, clock.t, (at) => hhmm(at));
+    const late = (await import('../../server/services/board/paging')).etaLine({ arrivedAt: null, etaAt: summary.etaAt }, clock.t, (at) => hhmm(at));
     expect(late).toBe(`ETA passed 19 min ago (${hhmm(summary.etaAt!)})`);
     await nurse.send('POST', `/api/cases/${summary.id}/acknowledge`, { rowVersion: (await server.db('cases').where({ id: summary.id }).first('row_version')).row_version });
   });

@@ -9,7 +9,7 @@ import { SignJWT, importJWK, decodeJwt } from 'jose';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { loadConfig } from '../../server/config';
 import { startServer, type RunningServer } from '../../server/server';
-import { verifyAuditChain } from '../../server/services/audit';
+import { verifyAuditChain } from '../../server/services/audit/audit';
 import type { CaseSummary } from '../../shared/schemas/cases';
 import { signIn, type SignedInClient } from '../support/sign-in';
 import { command, connectAs, nextEvent, type TestSocket } from '../support/socket';

@@ -1,7 +1,7 @@
 import { randomUUID } from 'node:crypto';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { abandonStagedImports } from '../../server/services/outcomes-import';
-import { verifyAuditChain } from '../../server/services/audit';
+import { abandonStagedImports } from '../../server/services/outcomes/import';
+import { verifyAuditChain } from '../../server/services/audit/audit';
 import { addClosedCases, outcomesCsv } from '../bench/support/closed-cases';
 import { startTestServer, type TestServer } from '../support/server';
 import { signIn, type SignedInClient } from '../support/sign-in';

@@ -159,7 +159,7 @@ describe('hospitals', () => {
     expect(JSON.parse(audit.after)).toMatchObject({ timeZone: 'Europe/London', escalationLaterSteps: steps });
     expect(JSON.parse(audit.before).escalationLaterSteps).toEqual([{ times: 2, list: 'senior' }]);
     // The escalation job's own reading: N, 2N to the senior list, 3N to the full team's list.
-    const { escalationSteps } = await import('../../server/services/escalation');
+    const { escalationSteps } = await import('../../server/services/jobs/escalation');
     expect(await escalationSteps(server.db, general, 4)).toEqual([{ afterMinutes: 4, list: 'escalation' }, { afterMinutes: 8, list: 'senior' }, { afterMinutes: 12, list: 'full' }]);
     // The other hospital keeps the product-wide steps.
     expect(await escalationSteps(server.db, community, 5)).toEqual([{ afterMinutes: 5, list: 'escalation' }, { afterMinutes: 10, list: 'senior' }]);

@@ -3,7 +3,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { startTestServer, type TestServer } from '../support/server';
 import { browserlessClient, signIn, type SignedInClient } from '../support/sign-in';
 import { command, connectAs } from '../support/socket';
-import { policyInForce } from '../../server/services/policies';
+import { policyInForce } from '../../server/services/policies/policies';
 import { EXAMPLE_POLICY, type Policy } from '../../shared/triage/policy';
 
 // The activation policy's life: drafted by an administrator, approved by the hospital's trauma

@@ -1,7 +1,7 @@
 import { randomUUID } from 'node:crypto';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { hashPassword } from '../../server/auth/passwords';
-import { verifyAuditChain } from '../../server/services/audit';
+import { verifyAuditChain } from '../../server/services/audit/audit';
 import type { CaseSummary } from '../../shared/schemas/cases';
 import type { CrewDestinations } from '../../shared/schemas/crew';
 import { startTestServer, type TestServer } from '../support/server';

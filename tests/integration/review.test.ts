@@ -1,6 +1,6 @@
 import { randomUUID } from 'node:crypto';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { csvCell, toCsv } from '../../server/services/csv';
+import { csvCell, toCsv } from '../../server/services/quality/csv';
 import type { Mailer } from '../../server/mail';
 import { startTestServer, type TestServer } from '../support/server';
 import { signIn, type SignedInClient } from '../support/sign-in';

@@ -1,7 +1,7 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { startTestServer, type TestServer } from '../support/server';
 import { browserlessClient, signIn } from '../support/sign-in';
-import { demoAccounts } from '../../server/services/seed';
+import { demoAccounts } from '../../server/services/demo/seed';
 
 let server: TestServer;
 beforeAll(async () => {

@@ -3,7 +3,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import twilio from 'twilio';
 import type { CaseSummary } from '../../shared/schemas/cases';
 import type { PagingPlan, PagingStatus } from '../../shared/schemas/paging';
-import { runRepaging } from '../../server/services/repaging';
+import { runRepaging } from '../../server/services/jobs/repaging';
 import { providerSignature } from '../../server/sms/signature';
 import { RedirectingRequestClient } from '../../server/sms';
 import type { SmsFake } from '../../server/sms/fake';

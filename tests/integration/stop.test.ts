@@ -10,7 +10,7 @@ import { afterAll, describe, expect, it } from 'vitest';
 import { freePort, repoRoot } from '../bench/support/child-server';
 import { createDb, migrate } from '../../server/db';
 import { systemClock } from '../../server/deps';
-import { seedDemo } from '../../server/services/seed';
+import { seedDemo } from '../../server/services/demo/seed';
 import { startTestServer } from '../support/server';
 import { signIn, type SignedInClient } from '../support/sign-in';
 import { command, connectAs, type TestSocket } from '../support/socket';

@@ -2,7 +2,7 @@
 // nurses, so the load spreads over a region as it would in life.
 import { createDb, migrate } from '../../../server/db';
 import { hashPassword } from '../../../server/auth/passwords';
-import { DEMO_PASSWORD, seedDemo } from '../../../server/services/seed';
+import { DEMO_PASSWORD, seedDemo } from '../../../server/services/demo/seed';
 import { systemClock } from '../../../server/deps';
 import { databaseFileOf } from './child-server';
 

@@ -4,7 +4,7 @@ import { join } from 'node:path';
 import type { CaseSummary } from '../../../shared/schemas/cases';
 import { createDb } from '../../../server/db';
 import { loadMe } from '../../../server/auth/guards';
-import { caseSummary, submitPreAlert } from '../../../server/services/cases';
+import { caseSummary, submitPreAlert } from '../../../server/services/cases/cases';
 import { systemClock } from '../../../server/deps';
 import { databaseFileOf, tempDataDir } from './child-server';
 import { prepareRegion } from './fixtures';

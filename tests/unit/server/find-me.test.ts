@@ -1,8 +1,8 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Knex } from 'knex';
 import { createDb, migrate } from '../../../server/db';
-import { seedDemo, type DemoIds } from '../../../server/services/seed';
-import { findMe, membershipsOf, rolesOf } from '../../../server/services/users';
+import { seedDemo, type DemoIds } from '../../../server/services/demo/seed';
+import { findMe, membershipsOf, rolesOf } from '../../../server/services/people/users';
 
 let db: Knex;
 let ids: DemoIds;

@@ -1,10 +1,10 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Knex } from 'knex';
 import { createDb, migrate } from '../../../server/db';
-import { seedDemo } from '../../../server/services/seed';
-import { rehearsePreAlerts } from '../../../server/services/rehearsal';
-import { listCaseSummaries, submitPreAlert } from '../../../server/services/cases';
-import { verifyAuditChain } from '../../../server/services/audit';
+import { seedDemo } from '../../../server/services/demo/seed';
+import { rehearsePreAlerts } from '../../../server/services/cases/rehearsal';
+import { listCaseSummaries, submitPreAlert } from '../../../server/services/cases/cases';
+import { verifyAuditChain } from '../../../server/services/audit/audit';
 import { loadMe } from '../../../server/auth/guards';
 
 let db: Knex;

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import twilio from 'twilio';
-import { answerOf } from '../../../../server/services/sms-paging';
+import { answerOf } from '../../../../server/services/board/sms-paging';
 import { providerSignature } from '../../../../server/sms/signature';
 import { MobileNumber, PagingEntry } from '../../../../shared/schemas/paging';
 
