@@ -1,5 +1,5 @@
 import { existsSync } from 'node:fs';
-import { resolve } from 'node:path';
+import { join, resolve } from 'node:path';
 import compression from 'compression';
 import express, { type Express, type RequestHandler, type Router } from 'express';
 import expressStaticGzip from 'express-static-gzip';
@@ -13,6 +13,7 @@ import { apiRouters } from './routes';
 import { messagePage } from './idp/pages';
 import { webhooksRouter } from './routes/webhooks';
 import { MACHINE_CLIENT_PATHS } from './exchange/machine-auth';
+import { projectRoot } from './paths';
 
 export interface CreateAppOptions extends AppDeps {
   issuer: string;
@@ -23,7 +24,7 @@ export interface CreateAppOptions extends AppDeps {
   clientDir?: string;
 }
 
-export const defaultClientDir = resolve(import.meta.dirname ?? '.', '../dist/client');
+export const defaultClientDir = join(projectRoot, 'dist/client');
 
 /** The client's built files: hashed assets, icons, the service worker and the app manifest. */
 const CLIENT_FILES = /^\/(assets\/|icons\/|sw\.js$|workbox-[\w-]+\.js$|manifest\.webmanifest$|index\.html$)/;

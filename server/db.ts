@@ -1,23 +1,25 @@
 import { randomBytes } from 'node:crypto';
 import { readdirSync } from 'node:fs';
 import { dirname, join, resolve } from 'node:path';
-import { fileURLToPath, pathToFileURL } from 'node:url';
+import { pathToFileURL } from 'node:url';
 import knex, { type Knex } from 'knex';
 import { loadAuditKey } from './audit-key';
+import { migrationsDir } from './paths';
 import { useAuditKey } from './services/audit/audit';
 
 export type Db = Knex;
 
-const migrationsDir = resolve(dirname(fileURLToPath(import.meta.url)), '../migrations');
 
 interface MigrationModule { up(db: Knex): Promise<void>; down(db: Knex): Promise<void> }
 
 // Knex's own loader cannot import TypeScript; importing from here lets tsx (and Vitest) do it.
+// The build runs the compiled copies (dist/server/migrations/*.js) under the names the sources
+// gave them, so a database migrated by either knows the same migrations.
 const migrationSource: Knex.MigrationSource<string> = {
   async getMigrations() {
-    return readdirSync(migrationsDir).filter((name) => /^\d{14}_.+\.ts$/.test(name)).sort();
+    return readdirSync(migrationsDir).filter((name) => /^\d{14}_.+\.(ts|js)$/.test(name)).sort();
   },
-  getMigrationName: (name) => name,
+  getMigrationName: (name) => name.replace(/\.js$/, '.ts'),
   async getMigration(name) {
     return (await import(pathToFileURL(join(migrationsDir, name)).href)) as MigrationModule;
   },

@@ -12,6 +12,7 @@ import { waitText } from '../limits';
 import { findUserByEmail, findUserById } from '../services/people/users';
 import { messagePage, signInPage, signOutPage } from './pages';
 import { identityStoreFor } from './store';
+import { projectRoot } from '../paths';
 
 export interface LocalIdpOptions {
   issuer: string;
@@ -32,7 +33,6 @@ export const MACHINE_SCOPE = 'pre-alerts:write';
 /** Short-lived, so a revoked client stops within minutes even with a token in hand. */
 export const MACHINE_TOKEN_SECONDS = 600;
 
-const here = dirname(fileURLToPath(import.meta.url));
 const fontFiles = join(dirname(fileURLToPath(import.meta.resolve('@fontsource/atkinson-hyperlegible/package.json'))), 'files');
 
 /** The public half of the built-in provider's signing keys, to check its access tokens in-process. */
@@ -145,7 +145,7 @@ export function createLocalIdp(opts: LocalIdpOptions): { provider: Provider; rou
 
   const router = Router();
   router.use('/idp-assets/fonts', express.static(fontFiles, { immutable: true, maxAge: '365d' }));
-  router.use('/idp-assets', express.static(join(here, 'assets'), { maxAge: '1h' }));
+  router.use('/idp-assets', express.static(join(projectRoot, 'server/idp/assets'), { maxAge: '1h' }));
 
   const throttle = opts.throttle ?? signInThrottle();
 

@@ -3,10 +3,10 @@ import { fileURLToPath } from 'node:url';
 import express, { Router } from 'express';
 import type { AppDeps } from '../deps';
 import { requireRole, requireUser } from '../auth/guards';
-import { openApiDocument } from '../openapi';
+import { projectRoot } from '../paths';
 
 const viewerDir = dirname(fileURLToPath(import.meta.resolve('swagger-ui-dist/package.json')));
-const ownAssets = join(dirname(fileURLToPath(import.meta.url)), '../exchange/docs-assets');
+const ownAssets = join(projectRoot, 'server/exchange/docs-assets');
 
 const docsPage = `<!doctype html>
 <html lang="en">
@@ -35,8 +35,9 @@ export function openApiRouter({ db, config, publicUrl }: AppDeps): Router {
   const router = Router();
   const tokenUrl = config.oidc.issuer ? null : `${publicUrl}/idp/token`;
   let document: string | undefined;
-  router.get('/api/openapi.json', (_req, res) => {
-    document ??= JSON.stringify(openApiDocument(publicUrl, tokenUrl));
+  router.get('/api/openapi.json', async (_req, res) => {
+    // Made at the first request: the document's generator is not worth its memory at every start.
+    document ??= JSON.stringify((await import('../openapi')).openApiDocument(publicUrl, tokenUrl));
     res.type('application/json').set('Cache-Control', 'no-cache').send(document);
   });
   router.get('/api/docs', requireUser(db), requireRole('admin'), (_req, res) => {

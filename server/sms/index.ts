@@ -1,11 +1,18 @@
-import twilio from 'twilio';
-import type RequestClient from 'twilio/lib/base/RequestClient';
+import type { Twilio } from 'twilio';
 import type { Logger } from 'pino';
 import { startSmsFake, type SmsFake } from './fake';
 
 // SMS through the provider's official SDK. With an account configured it talks to the provider;
 // without one it talks, over HTTP, to the local fake started here, pointed there by the SDK's own
 // HTTP-client option (a RequestClient that sends the same requests to another origin).
+// The SDK is large, so it is loaded at the first message or webhook, not at every start.
+
+let sdk: Promise<typeof import('./sdk')> | null = null;
+/** The provider's SDK (./sdk), loaded once, when first needed. */
+export function twilioSdk(): Promise<typeof import('./sdk')> {
+  sdk ??= import('./sdk');
+  return sdk;
+}
 
 export interface SmsConfig { accountSid: string; authToken: string; from: string }
 
@@ -24,16 +31,6 @@ export interface SmsSender {
   close(): Promise<void>;
 }
 
-/** The SDK's own HTTP client, with every request sent to `origin` instead of the provider's hosts. */
-export class RedirectingRequestClient extends twilio.RequestClient {
-  constructor(private readonly origin: string) {
-    super({ timeout: 10_000 });
-  }
-  override request<TData>(opts: RequestClient.RequestOptions<TData>) {
-    const target = new URL(opts.uri);
-    return super.request<TData>({ ...opts, uri: this.origin + target.pathname + target.search });
-  }
-}
 
 /** The sender number used with the fake: from the Australian range set aside for fiction (ACMA; from memory). */
 export const LOCAL_SENDER = '+61491570006';
@@ -41,15 +38,18 @@ export const LOCAL_SENDER = '+61491570006';
 export async function createSmsSender(opts: { config: SmsConfig | null; publicUrl: string; logger: Logger }): Promise<SmsSender> {
   let fake: SmsFake | null = null;
   let account: SmsConfig;
-  let client: twilio.Twilio;
   if (opts.config) {
     account = opts.config;
-    client = twilio(account.accountSid, account.authToken);
   } else {
     fake = await startSmsFake({ inboundUrl: () => `${opts.publicUrl}/webhooks/sms/inbound`, sender: LOCAL_SENDER, logger: opts.logger });
     account = { accountSid: fake.accountSid, authToken: fake.authToken, from: LOCAL_SENDER };
-    client = twilio(account.accountSid, account.authToken, { httpClient: new RedirectingRequestClient(fake.url) });
   }
+  const fakeUrl = fake?.url ?? null;
+  let client: Promise<Twilio> | null = null;
+  const sdkClient = async (): Promise<Twilio> => {
+    const { twilio, RedirectingRequestClient } = await twilioSdk();
+    return fakeUrl ? twilio(account.accountSid, account.authToken, { httpClient: new RedirectingRequestClient(fakeUrl) }) : twilio(account.accountSid, account.authToken);
+  };
   return {
     local: fake !== null,
     fakeUrl: fake?.url ?? null,
@@ -57,7 +57,8 @@ export async function createSmsSender(opts: { config: SmsConfig | null; publicUr
     authToken: account.authToken,
     from: account.from,
     async send(to, body, statusCallback) {
-      const message = await client.messages.create({ to, from: account.from, body, statusCallback });
+      client ??= sdkClient();
+      const message = await (await client).messages.create({ to, from: account.from, body, statusCallback });
       return { sid: message.sid, status: message.status };
     },
     async close() {

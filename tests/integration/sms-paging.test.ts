@@ -5,7 +5,7 @@ import type { CaseSummary } from '../../shared/schemas/cases';
 import type { PagingPlan, PagingStatus } from '../../shared/schemas/paging';
 import { runRepaging } from '../../server/services/jobs/repaging';
 import { providerSignature } from '../../server/sms/signature';
-import { RedirectingRequestClient } from '../../server/sms';
+import { RedirectingRequestClient } from '../../server/sms/sdk';
 import type { SmsFake } from '../../server/sms/fake';
 import { startTestServer, type TestServer } from '../support/server';
 import { signIn, type SignedInClient } from '../support/sign-in';

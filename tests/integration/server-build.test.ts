@@ -1,0 +1,47 @@
+import { execFile } from 'node:child_process';
+import { existsSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { promisify } from 'node:util';
+import { afterAll, describe, expect, it } from 'vitest';
+import { createDb, migrate } from '../../server/db';
+import { BUILT_SERVER, serverBuildIsStale } from '../../server/cli/server-build.mjs';
+
+const run = promisify(execFile);
+const dirs: string[] = [];
+afterAll(() => dirs.forEach((dir) => rmSync(dir, { recursive: true, force: true })));
+
+describe('the compiled server', () => {
+  it('is built before the tests and is fresh', () => {
+    expect(existsSync(BUILT_SERVER)).toBe(true);
+    expect(serverBuildIsStale()).toBe(false);
+    // Plain JavaScript: nothing of TypeScript's syntax left in what `npm start` runs.
+    expect(readFileSync(BUILT_SERVER, 'utf8')).not.toMatch(/import type |: Promise<number>/);
+  });
+
+  it('knows the migrations a database got from the sources, by the same names', async () => {
+    const dataDir = mkdtempSync(join(tmpdir(), 'plumbline-build-'));
+    dirs.push(dataDir);
+    const db = createDb(join(dataDir, 'plumbline.sqlite'));
+    const applied = await migrate(db);
+    await db.destroy();
+    expect(applied.length).toBeGreaterThan(10);
+    // The built command finds nothing to do, where other names would make it run every migration again.
+    const { stdout } = await run(process.execPath, ['server/cli/bin.mjs', 'migrate'], { env: { ...process.env, DATA_DIR: dataDir, NODE_ENV: 'test', AUDIT_KEY: '' } });
+    expect(stdout.trim()).toBe('The database is up to date.');
+  });
+
+  it('runs the batch commands from the build', async () => {
+    // SOURCES.md §2.6 (2021 guideline, moderate risk): a fall of more than 10 ft (3.048 m); 4 m is 13.1 ft.
+    const child = execFile(process.execPath, ['server/cli/bin.mjs', 'evaluate'], { env: { ...process.env, NODE_ENV: 'test' } });
+    const out = new Promise<string>((resolve, reject) => {
+      let text = '';
+      child.stdout!.on('data', (chunk) => (text += chunk));
+      child.on('exit', (code) => (code === 0 ? resolve(text) : reject(new Error(`exit ${code}`))));
+    });
+    child.stdin!.end(`${JSON.stringify({ fall: { heightM: 4 }, ageYears: 40 })}\n`);
+    const result = JSON.parse((await out).trim().split('\n')[0]);
+    expect(result.fieldRisk).toBe('moderate');
+    expect(result.criteria.map((c: { id: string }) => c.id)).toEqual(['field-2021:fall-above-10-ft']);
+  });
+});
