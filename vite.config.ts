@@ -179,10 +179,16 @@ export default defineConfig({
     rolldownOptions: { checks: { bundlerTimings: false } },
   },
   test: {
-    include: ['tests/**/*.test.ts'],
     environment: 'node',
     testTimeout: 30_000,
     hookTimeout: 120_000,
     globalSetup: ['tests/global-setup.ts'],
+    // Run by the piece: `npm run test:unit` (pure code, seconds), `test:integration` (the real
+    // server on port 0), `test:e2e` (Debian Chromium against the built client); `npm test` runs all.
+    projects: [
+      { extends: true, test: { name: 'unit', include: ['tests/unit/**/*.test.ts'] } },
+      { extends: true, test: { name: 'integration', include: ['tests/integration/**/*.test.ts'] } },
+      { extends: true, test: { name: 'e2e', include: ['tests/e2e/**/*.test.ts'] } },
+    ],
   },
 });
