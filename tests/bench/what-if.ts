@@ -11,6 +11,7 @@ import { join } from 'node:path';
 import { performance } from 'node:perf_hooks';
 import { pathToFileURL } from 'node:url';
 import { createDb, migrate } from '../../server/db';
+import { evaluationInputRow } from '../../server/services/cases/evaluation-input';
 import { runWhatIf } from '../../server/services/quality/what-if';
 import type { Me } from '../../shared/roles';
 import type { ClinicalInput } from '../../shared/schemas/clinical';
@@ -85,6 +86,7 @@ export async function benchWhatIf(count = 100_000): Promise<WhatIfBench> {
           policy_id: rows[k].result.policy.id, policy_version: rows[k].result.policy.version, field_risk: rows[k].result.fieldRisk, activation: rows[k].result.activation,
           created_by: user.id, created_at: rows[k].createdAt,
         })));
+        await trx('case_evaluation_inputs').insert(ids.map(({ id }, k) => evaluationInputRow(id, 1, rows[k].result.set, rows[k].input)));
         await trx('outcomes').insert(ids.map(({ id }, k) => {
           const severe = rows[k].result.activation === 'full' ? random() < 0.5 : random() < 0.06;
           const iss = severe ? POSSIBLE_ISS[between(8, POSSIBLE_ISS.length - 1)] : POSSIBLE_ISS[between(0, 7)];

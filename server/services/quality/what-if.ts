@@ -70,8 +70,7 @@ export async function runWhatIf(db: Knex, me: Me, query: WhatIfQuery, at: number
   let withOutcome = 0, changed = 0, raised = 0, lowered = 0;
 
   for (let i = 0; i < cases.n; i++) {
-    const input = cases.input[i];
-    const set = cases.set[i];
+    const { input, set } = cases.inputAt(i);
     const result = evaluate(input, { set, policy });
     const recommended = LEVELS[cases.recommended[i]];
     const decidedLevel = cases.decided[i] === NOT_DECIDED ? null : LEVELS[cases.decided[i]];
