@@ -37,7 +37,10 @@ export interface WhatIfBench {
   atMostASecond: boolean;
 }
 
-/** Fills, then runs the what-if five times; `ms` is the slowest run after the first (which warms the caches). */
+/**
+ * Fills, then runs the what-if five times; `ms` is the slowest of the five, the first included (the
+ * what-if keeps nothing between runs, so the first after a start is timed like any other).
+ */
 export async function benchWhatIf(count = 100_000): Promise<WhatIfBench> {
   let seed = 11;
   const random = () => ((seed = (seed * 1103515245 + 12345) >>> 0) / 2 ** 32);
@@ -126,7 +129,7 @@ export async function benchWhatIf(count = 100_000): Promise<WhatIfBench> {
       if (!result.changes.some((c) => c.criteria.includes('Older adult, fall above 15 ft'))) throw new Error('the local criterion changed no case');
       if (result.inForce?.levels.full !== result.levels.recommended.full) throw new Error('the policy in force (the example that recommended every case) is not beside the draft');
     }
-    const ms = Math.max(...runs.slice(1));
+    const ms = Math.max(...runs);
     return { cases: count, ms, firstRunMs: runs[0], runsMs: runs, cpuMs, fillMs, changed, atMostASecond: ms <= 1000 };
   } finally {
     await db.destroy();
