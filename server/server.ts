@@ -23,7 +23,7 @@ import { primeCaseLists } from './services/cases/cases';
 import { rehearsePreAlerts } from './services/cases/rehearsal';
 import { isEmpty, seedDemo } from './services/demo/seed';
 import { startKeyedChain } from './services/audit/audit';
-import { abandonStagedImports } from './services/outcomes/import';
+import { abandonStagedImports } from './services/outcomes/store';
 
 export interface RunningServer {
   url: string;

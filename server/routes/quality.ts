@@ -5,7 +5,8 @@ import { DrilldownQuery, ImportRequest, OUTCOME_FILE_MAX_BYTES, ReportQuery, Tar
 import type { AppDeps } from '../deps';
 import { requireRole, requireUser } from '../auth/guards';
 import { AppError, invalid, parseOr400 } from '../errors';
-import { importOutcomes, outcomeTemplateCsv, previewOutcomes } from '../services/outcomes/import';
+import { importOutcomes, previewOutcomes } from '../services/outcomes/import';
+import { outcomeTemplateCsv } from '../services/outcomes/parse';
 import { assertQualityReader, drilldown, qualityReport, qualityTargets, reportCsv, saveQualityTargets } from '../services/quality/report';
 import { runWhatIf, whatIfPolicies } from '../services/quality/what-if';
 

@@ -223,3 +223,19 @@ export function evaluate(input: ClinicalInput, options: EvaluateOptions = {}): E
     policy: plan.policyRef,
   };
 }
+
+/**
+ * The activation `evaluate` gives, without its explanations, missing inputs or impact: for a
+ * policy run over many past cases (the what-if), which explains only the cases it lists. Only the
+ * members a rule names are tested, and only while they could still reach an earlier rule.
+ */
+export function activationOf(input: ClinicalInput, options: EvaluateOptions = {}): LevelId {
+  const plan = planFor(setOf(options), options.policy ?? defaultPolicy);
+  const f = read(input, facts);
+  const { members, firstRule } = plan;
+  let matched = plan.ruleLevel.length;
+  for (let i = 0; i < members.length; i++) {
+    if (firstRule[i] < matched && members[i].test(f) === MET) matched = firstRule[i];
+  }
+  return matched < plan.ruleLevel.length ? plan.ruleLevel[matched] : 'none';
+}

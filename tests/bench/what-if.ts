@@ -11,6 +11,7 @@ import { join } from 'node:path';
 import { performance } from 'node:perf_hooks';
 import { pathToFileURL } from 'node:url';
 import { createDb, migrate } from '../../server/db';
+import { evaluationInputRow } from '../../server/services/cases/evaluation-input';
 import { runWhatIf } from '../../server/services/quality/what-if';
 import type { Me } from '../../shared/roles';
 import type { ClinicalInput } from '../../shared/schemas/clinical';
@@ -36,7 +37,10 @@ export interface WhatIfBench {
   atMostASecond: boolean;
 }
 
-/** Fills, then runs the what-if five times; `ms` is the slowest run after the first (which warms the caches). */
+/**
+ * Fills, then runs the what-if five times; `ms` is the slowest of the five, the first included (the
+ * what-if keeps nothing between runs, so the first after a start is timed like any other).
+ */
 export async function benchWhatIf(count = 100_000): Promise<WhatIfBench> {
   let seed = 11;
   const random = () => ((seed = (seed * 1103515245 + 12345) >>> 0) / 2 ** 32);
@@ -85,6 +89,7 @@ export async function benchWhatIf(count = 100_000): Promise<WhatIfBench> {
           policy_id: rows[k].result.policy.id, policy_version: rows[k].result.policy.version, field_risk: rows[k].result.fieldRisk, activation: rows[k].result.activation,
           created_by: user.id, created_at: rows[k].createdAt,
         })));
+        await trx('case_evaluation_inputs').insert(ids.map(({ id }, k) => evaluationInputRow(id, 1, rows[k].result.set, rows[k].input)));
         await trx('outcomes').insert(ids.map(({ id }, k) => {
           const severe = rows[k].result.activation === 'full' ? random() < 0.5 : random() < 0.06;
           const iss = severe ? POSSIBLE_ISS[between(8, POSSIBLE_ISS.length - 1)] : POSSIBLE_ISS[between(0, 7)];
@@ -124,7 +129,7 @@ export async function benchWhatIf(count = 100_000): Promise<WhatIfBench> {
       if (!result.changes.some((c) => c.criteria.includes('Older adult, fall above 15 ft'))) throw new Error('the local criterion changed no case');
       if (result.inForce?.levels.full !== result.levels.recommended.full) throw new Error('the policy in force (the example that recommended every case) is not beside the draft');
     }
-    const ms = Math.max(...runs.slice(1));
+    const ms = Math.max(...runs);
     return { cases: count, ms, firstRunMs: runs[0], runsMs: runs, cpuMs, fillMs, changed, atMostASecond: ms <= 1000 };
   } finally {
     await db.destroy();

@@ -1,6 +1,6 @@
 import { randomUUID } from 'node:crypto';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { abandonStagedImports } from '../../server/services/outcomes/import';
+import { abandonStagedImports } from '../../server/services/outcomes/store';
 import { verifyAuditChain } from '../../server/services/audit/audit';
 import { addClosedCases, outcomesCsv } from '../bench/support/closed-cases';
 import { startTestServer, type TestServer } from '../support/server';

@@ -1,8 +1,10 @@
-import { randomUUID } from 'node:crypto';
+import { createHash, randomUUID } from 'node:crypto';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { startTestServer, type TestServer } from '../support/server';
 import { browserlessClient, signIn, type SignedInClient } from '../support/sign-in';
 import { loadMe } from '../../server/auth/guards';
+import { createDb } from '../../server/db';
+import { importOutcomes } from '../../server/services/outcomes/import';
 import { verifyAuditChain } from '../../server/services/audit/audit';
 import { submitPreAlert } from '../../server/services/cases/cases';
 import { OUTCOME_COLUMN_NAMES, type ImportPreview } from '../../shared/schemas/quality';
@@ -183,6 +185,35 @@ describe('the save is all rows or none', () => {
     const reused = await confirm(p.token!);
     expect(reused.status).toBe(409);
     expect((await reused.json()).error.message).toBe('That preview has expired or was already saved; check the file again.');
+  });
+
+  it('a preview is kept in the database: another connection (a restart, a second process) confirms it', async () => {
+    const p = await preview(`case_number,iss\n${numbers[3]},9\n`);
+    // Only a hash of the token is stored.
+    const held = await server.db('outcome_import_previews').select('token_hash', 'file_name', 'expires_at');
+    expect(held.some((h) => h.token_hash === p.token)).toBe(false);
+    expect(held).toContainEqual({ token_hash: createHash('sha256').update(p.token!).digest('hex'), file_name: 'registry.csv', expires_at: p.expiresAt });
+    const other = createDb(server.config.databaseFile);
+    try {
+      const qualityUser = await other('users').where({ email: 'quality@plumbline.test' }).first('id');
+      const me = (await loadMe(other, qualityUser.id))!;
+      expect(await importOutcomes(other, me, general, { token: p.token! }, now)).toMatchObject({ saved: 1, created: 0, updated: 1 });
+    } finally {
+      await other.destroy();
+    }
+    expect(await storedIss(numbers[3])).toBe(9);
+    expect((await confirm(p.token!)).status).toBe(409);
+  });
+
+  it('a preview expires after 15 minutes, and its file is removed', async () => {
+    const p = await preview(`case_number,iss\n${numbers[3]},4\n`);
+    expect(p.expiresAt).toBe(now + 15 * 60_000);
+    now += 15 * 60_000;
+    const late = await confirm(p.token!);
+    expect(late.status).toBe(409);
+    expect((await late.json()).error.message).toBe('That preview has expired or was already saved; check the file again.');
+    expect(await server.db('outcome_import_previews').where({ token_hash: createHash('sha256').update(p.token!).digest('hex') }).first()).toBeUndefined();
+    expect(await storedIss(numbers[3])).toBe(9);
   });
 });
 

@@ -4,6 +4,8 @@ import { startTestServer, type TestServer } from '../support/server';
 import { browserlessClient, signIn, type SignedInClient } from '../support/sign-in';
 import { loadMe } from '../../server/auth/guards';
 import { submitPreAlert } from '../../server/services/cases/cases';
+import { evaluationInputRow } from '../../server/services/cases/evaluation-input';
+import { up as backfillEvaluationInputs } from '../../migrations/20261205010001_case_evaluation_inputs_backfill';
 import type { Drilldown, QualityReport, WhatIfResult } from '../../shared/schemas/quality';
 import type { LevelId } from '../../shared/triage/policy';
 
@@ -316,6 +318,18 @@ describe('what-if', () => {
     expect(r.levels.whatIf).toEqual({ full: 0, limited: 4, consult: 3, none: 4 });
     expect(r.inForce?.levels).toEqual(r.levels.recommended);
     expect(r.changed).toBe(3);
+  });
+
+  it('the backfill copies every case\'s latest input as a new revision writes it', async () => {
+    const written = await server.db('case_evaluation_inputs').orderBy('case_id').select('case_id', 'revision', 'numbers', 'words');
+    expect(written.length).toBeGreaterThan(10);
+    await server.db('case_evaluation_inputs').delete();
+    await backfillEvaluationInputs(server.db);
+    // Case #11 was revised above by a direct write that left its compact row at revision 1; the
+    // backfill reads the revision in force, the NONE patient.
+    const revised = evaluationInputRow(ids[10], 2, 'field-2021', NONE as never);
+    expect(await server.db('case_evaluation_inputs').orderBy('case_id').select('case_id', 'revision', 'numbers', 'words'))
+      .toEqual(written.map((row) => (row.case_id === ids[10] ? revised : row)));
   });
 
   it("refuses a version of another hospital's policy", async () => {

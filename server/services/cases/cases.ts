@@ -11,6 +11,7 @@ import type { Clock } from '../../deps';
 import { conflict, forbidden, invalid, notFound, parseOr400 } from '../../errors';
 import { recordCaseEvent, type Actor } from '../audit/audit';
 import { policyInForce } from '../policies/policies';
+import { storeEvaluationInput } from './evaluation-input';
 
 /** Who changes a case: a person in a role, or a registered machine client, named by `source`. */
 export interface CaseActor { me: Me; role: Role | 'machine_client'; source?: string }
@@ -161,6 +162,7 @@ async function insertRevision(db: Knex, caseId: number, revision: number, input:
     created_by: userId,
     created_at: at,
   });
+  await storeEvaluationInput(db, caseId, revision, result.set, input);
   return written;
 }
 

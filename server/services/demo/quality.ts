@@ -4,7 +4,7 @@ import type { IssRegion } from '../../../shared/quality/iss';
 import type { OutcomeRecord } from '../../../shared/schemas/quality';
 import type { Clock } from '../../deps';
 import type { DemoIds } from './ids';
-import { storeOutcomes } from '../outcomes/import';
+import { storeOutcomes } from '../outcomes/store';
 
 // Invented registry outcomes for the demo's past cases, so Triage quality has a matrix to show on
 // first start. Drawn from a generator seeded by the case id, so every fresh demo is the same;

@@ -2,7 +2,7 @@ import type { Knex } from 'knex';
 import type { Me } from '../../../shared/roles';
 import { cribariCellIndex, majorTraumaCode, triageRates } from '../../../shared/quality';
 import type { LevelCounts, Matrix, WhatIfChange, WhatIfPolicyChoice, WhatIfQuery, WhatIfResult } from '../../../shared/schemas/quality';
-import { evaluate } from '../../../shared/triage/evaluate';
+import { activationOf, evaluate } from '../../../shared/triage/evaluate';
 import { LEVEL_RANK, validatePolicy, type LevelId, type Policy } from '../../../shared/triage/policy';
 import { forbidden, invalid, notFound } from '../../errors';
 import { policyInForce } from '../policies/policies';
@@ -13,7 +13,8 @@ import { localCriteriaRead } from './what-if-local';
 
 // A draft policy tried on the past: the latest revision of every case in the period evaluated
 // again under it, beside what the ED decided, what Plumbline recommended at the time and what the
-// policy in force now recommends, all over the same cases in one pass.
+// policy in force now recommends, all over the same cases in one pass. Each case gets only its
+// activation under each policy; the cases listed as changed are explained in full.
 
 const STATUS_WORDS: Record<string, string> = { draft: 'draft', approved: 'approved, not yet published', published: 'published', retired: 'retired' };
 
@@ -70,14 +71,12 @@ export async function runWhatIf(db: Knex, me: Me, query: WhatIfQuery, at: number
   let withOutcome = 0, changed = 0, raised = 0, lowered = 0;
 
   for (let i = 0; i < cases.n; i++) {
-    const input = cases.input[i];
-    const set = cases.set[i];
-    const result = evaluate(input, { set, policy });
+    const { input, set } = cases.inputAt(i);
     const recommended = LEVELS[cases.recommended[i]];
     const decidedLevel = cases.decided[i] === NOT_DECIDED ? null : LEVELS[cases.decided[i]];
     const decided = decidedLevel ?? recommended;
-    const whatIf = result.activation;
-    const now = live === null ? null : liveIsTried ? whatIf : evaluate(input, { set, policy: live }).activation;
+    const whatIf = activationOf(input, { set, policy });
+    const now = live === null ? null : liveIsTried ? whatIf : activationOf(input, { set, policy: live });
     levels.decided[decided]++;
     levels.recommended[recommended]++;
     levels.whatIf[whatIf]++;
@@ -100,7 +99,8 @@ export async function runWhatIf(db: Knex, me: Me, query: WhatIfQuery, at: number
       changes.push({
         id: cases.id[i], createdAt: cases.createdAt[i], from: recommended, to: whatIf, inForce: now,
         decidedLevel, iss, nftiPositive: nfti, major: major === null || major < 0 ? null : major === 1,
-        criteria: result.criteria.filter((c) => c.calls === whatIf).map((c) => c.label),
+        // Explained only here, for the cases listed (the input is still this case's).
+        criteria: evaluate(input, { set, policy }).criteria.filter((c) => c.calls === whatIf).map((c) => c.label),
       });
     }
   }

@@ -2,10 +2,11 @@ import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
 import type { ClinicalInput } from '../../../../shared/schemas/clinical';
 import { CONSIDERATIONS, FINDINGS } from '../../../../shared/schemas/clinical-options';
-import { evaluate } from '../../../../shared/triage/evaluate';
+import { activationOf, evaluate } from '../../../../shared/triage/evaluate';
+import { settleLocalCriterion } from '../../../../shared/triage/local-criteria';
 import type { Criterion } from '../../../../shared/triage/criteria';
 import { criterionState } from './oracle';
-import { EXAMPLE_POLICY, LEVEL_RANK } from '../../../../shared/triage/policy';
+import { EXAMPLE_POLICY, LEVEL_RANK, validatePolicy } from '../../../../shared/triage/policy';
 import { CRITERIA_SETS, compiledCriterion } from '../../../../shared/triage/catalog';
 import { POLICY_CRITERIA } from '../../../../shared/triage/policy-criteria';
 import { createFacts, readFacts } from '../../../../shared/triage/facts';
@@ -68,6 +69,27 @@ describe('the level never falls when the patient gets worse', () => {
       if (v.gcs?.motor != null) worse({ gcs: { ...v.gcs, motor: Math.max(1, v.gcs.motor - 1) } });
       if (v.gcs?.eye != null) worse({ gcs: { ...v.gcs, eye: Math.max(1, v.gcs.eye - 1) } });
     }), { numRuns: 400 });
+  });
+});
+
+describe('the activation alone, as a what-if asks for it', () => {
+  // The example with an invented local criterion on the full team, as a hospital's draft adds one.
+  const local = settleLocalCriterion({
+    id: 'new-1', label: 'Older adult, fall above 15 ft', reason: 'Invented for the test',
+    condition: { join: 'all', heightUnit: 'ft', parts: [{ kind: 'measure', measure: 'age', comparison: 'at-least', value: 55 }, { kind: 'measure', measure: 'fallHeight', comparison: 'above', value: 15 }] },
+  }, 'test-local', 1, 'Invented Hospital');
+  const checked = validatePolicy({
+    ...EXAMPLE_POLICY, id: 'test-local', version: 1, example: false, name: 'Test draft', localCriteria: [local],
+    rules: EXAMPLE_POLICY.rules.map((r) => (r.level === 'full' ? { ...r, criteria: [...r.criteria, local.id] } : r)),
+  });
+  if (!checked.ok) throw new Error(JSON.stringify(checked.issues));
+  const draft = checked.policy;
+
+  it('is the level evaluate gives, under the example and under a draft with a local criterion, in both sets', () => {
+    fc.assert(fc.property(input, fc.constantFrom('field-2021', 'field-2011') as fc.Arbitrary<'field-2021' | 'field-2011'>, (i, set) => {
+      expect(activationOf(i, { set, policy: EXAMPLE_POLICY })).toBe(evaluate(i, { set, policy: EXAMPLE_POLICY }).activation);
+      expect(activationOf(i, { set, policy: draft })).toBe(evaluate(i, { set, policy: draft }).activation);
+    }), { numRuns: 2000 });
   });
 });
 
