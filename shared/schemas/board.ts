@@ -5,6 +5,7 @@ import type { CaseSummary } from './cases';
 import { surfaceOptions, treatmentOptions, type ClinicalInput } from './clinical';
 import type { CriteriaSetId } from '../triage/criteria';
 import { fallHeightThresholdM } from '../triage/fall-threshold';
+import { formatHeight, formatThreshold } from '../board/height-display';
 
 // The charge nurse's actions on a case. Each body carries the rowVersion the nurse's board
 // showed, so of two nurses acting on the same case at once the first wins and the second is told.
@@ -125,23 +126,13 @@ export interface BoardActionResult { case: CaseSummary }
 
 // ---- Plain display helpers both the board and the page e-mail use (no I/O).
 
-const METRES_PER_FOOT = 0.3048;
-/** One storey = 10 feet [source: 2011 guideline, Sasser 2012], as in shared/schemas/units.ts. */
-const METRES_PER_STOREY = 10 * METRES_PER_FOOT;
-
 /**
- * A fall height in the hospital's preferred unit: "13.1 ft", "4.3 m", "1.4 storeys"; 0 is from
- * standing. Feet keep a decimal as metres do: whole feet showed a 19.7 ft fall as "20 ft", beside
- * a "fall > 20 ft" criterion that had not fired.
+ * A fall height in the hospital's preferred unit, always to one decimal: "13.1 ft", "4.3 m",
+ * "1.4 storeys"; 0 is from standing. A whole figure keeps its ".0" ("20.0 ft"), so a patient's
+ * rounded height never reads like a criterion's exact "20 ft".
  */
 export function formatFallHeight(heightM: number, unit: 'm' | 'ft' | 'storeys'): string {
-  if (heightM === 0) return 'from standing';
-  if (unit === 'ft') return `${Math.round((heightM / METRES_PER_FOOT) * 10) / 10} ft`;
-  if (unit === 'storeys') {
-    const storeys = Math.round((heightM / METRES_PER_STOREY) * 10) / 10;
-    return `${storeys} ${storeys === 1 ? 'storey' : 'storeys'}`;
-  }
-  return `${Math.round(heightM * 10) / 10} m`;
+  return formatHeight(heightM, unit);
 }
 
 const SEX_SHORT: Record<string, string> = { female: 'female', male: 'male', other: 'other sex', unknown: 'sex not known' };
@@ -191,27 +182,24 @@ export function formatFallHeightAsEntered(fall: ClinicalInput['fall'], unit: 'm'
 }
 
 /**
- * The fall criterion's figure the height is compared with, in the hospital's unit to one
- * decimal with the other common unit beside it: "criterion: above 6.1 m (20 ft)". Only shown,
- * never written back; empty when the set has no fixed figure for the patient's age.
+ * The fall criterion's figure the height is compared with, exact, in the hospital's unit first
+ * with the other common unit beside it: "criterion: above 6.096 m (20 ft)". Only shown, never
+ * written back; empty when the set has no fixed figure for the patient's age.
  */
 export function fallCriterionPhrase(set: CriteriaSetId, ageYears: number, unit: 'm' | 'ft' | 'storeys'): string {
   const threshold = fallHeightThresholdM(set, ageYears);
   if (threshold === null) return '';
-  const feet = `${Math.round((threshold / METRES_PER_FOOT) * 10) / 10} ft`;
-  const metres = `${Math.round(threshold * 10) / 10} m`;
-  const beside = unit === 'ft' ? metres : feet;
-  return `criterion: above ${formatFallHeight(threshold, unit)} (${beside})`;
+  return `criterion: above ${formatThreshold(threshold, unit)}`;
 }
 
-/** The fall as the crew gave it: "10 ft (entered as 3.05 m) onto concrete". */
+/** The fall as the crew gave it: "10.0 ft (entered as 3.05 m) onto concrete". */
 export function formatFall(input: Pick<ClinicalInput, 'fall'>, unit: 'm' | 'ft' | 'storeys', unknownLanding = ''): string {
   return [formatFallHeightAsEntered(input.fall, unit), landingPhrase(input.fall.surface) || unknownLanding].filter(Boolean).join(' ');
 }
 
 /**
  * The fall as the card, page and print show it, the criterion last:
- * "10 ft (entered as 3.05 m) onto concrete; criterion: above 10 ft (3 m)".
+ * "10.0 ft (entered as 3.05 m) onto concrete; criterion: above 10 ft (3.048 m)".
  */
 export function formatFallWithCriterion(input: Pick<ClinicalInput, 'fall' | 'ageYears'>, set: CriteriaSetId, unit: 'm' | 'ft' | 'storeys', unknownLanding = ''): string {
   const criterion = input.fall.heightM === 0 ? '' : fallCriterionPhrase(set, input.ageYears, unit);

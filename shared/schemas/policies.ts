@@ -4,6 +4,7 @@ import { boundedTime } from './dates';
 import { PolicyLevel, PolicyRule } from '../triage/policy';
 import { LocalCondition, LocalCriterionDraft } from '../triage/local-criteria';
 import type { LooseningWarning } from '../triage/loosening';
+import type { HeightFact } from '../triage/compile-criteria';
 
 // Requests of the Policies screen. The policy document itself is the engine's Policy; a draft
 // carries only what a hospital edits, and the server fills in id, version and approval.
@@ -46,6 +47,8 @@ export interface LocalPreviewExample {
   createdAt: number;
   /** What the case showed of the rule: the engine's own explanation of the condition. */
   because: string;
+  /** The fall heights `because` states, for showing them in the hospital's unit. */
+  heights?: HeightFact[];
 }
 
 export interface LocalPreview {

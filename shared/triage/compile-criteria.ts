@@ -20,6 +20,23 @@ export interface CompiledCondition {
   explain(f: Facts): string;
   /** Bits of MISSING_INPUTS whose absence leaves this condition unknown. */
   missing(f: Facts): number;
+  /**
+   * For a met condition, the fall heights its explanation states, added to `out`; null when the
+   * condition never states one (most do not), so the evaluator skips it.
+   */
+  heights: ((f: Facts, out: HeightFact[]) => void) | null;
+}
+
+/**
+ * A fall height an explanation states, as numbers, so that a screen can show it in its own unit
+ * (shared/board/height-display.ts) while `because` keeps the engine's words.
+ */
+export interface HeightFact {
+  /** The words of the explanation this stands for: "fall 3.658 m (12 ft) > 3.048 m (10 ft)". */
+  text: string;
+  heightM: number;
+  /** The criterion's own figure it was compared with; absent when compared with something else (a child's height). */
+  compared?: { relation: 'above' | 'below' | 'at-most'; thresholdM: number };
 }
 
 export interface CompiledCriterion extends CompiledCondition {
@@ -128,8 +145,13 @@ function valueText(q: Quantity, i: number, f: Facts, bound: 'lo' | 'hi'): string
  * (Object.is, so that −0 and +0 keep their own texts).
  */
 function textsByValue(make: (v: number) => string): (v: number) => string {
+  return keptByValue(make, '');
+}
+
+/** textsByValue for any value made from one number; `blank` fills the empty slots. */
+function keptByValue<T>(make: (v: number) => T, blank: T): (v: number) => T {
   const values = new Float64Array(256).fill(NaN);
-  const texts: string[] = new Array<string>(256).fill('');
+  const texts: T[] = new Array<T>(256).fill(blank);
   return (v) => {
     // 21 is odd, so 256 whole numbers in a row take 256 different slots, and tenths spread too.
     const k = (v * 21) & 255;
@@ -149,6 +171,20 @@ for (const [q, i] of Object.entries(QUANTITY_INDEX)) PLAIN[i] = textsByValue((v)
 function comparisonText(q: Quantity, i: number, bound: 'lo' | 'hi', tail: string, threshold: number): (f: Facts) => string {
   const byValue = textsByValue((v) => (q === 'heightM' ? heightText(v, threshold) : plainText(q, v)) + tail);
   return (f) => (isPlain(q, i, f) ? byValue(f.lo[i]) : valueText(q, i, f, bound) + tail);
+}
+
+const NO_FACT: HeightFact = Object.freeze({ text: '', heightM: NaN });
+
+/** A height comparison's fact, kept per value as its text is; the text is the whole comparison, tail included. */
+function comparedHeight(i: number, tail: string, relation: 'above' | 'below' | 'at-most', thresholdM: number): (f: Facts, out: HeightFact[]) => void {
+  const compared = Object.freeze({ relation, thresholdM });
+  const byValue = keptByValue((v): HeightFact => Object.freeze({ text: heightText(v, thresholdM) + tail, heightM: v, compared }), NO_FACT);
+  return (f, out) => { out.push(byValue(f.lo[i])); };
+}
+
+/** A height stated alone ("fall 2 m (6.6 ft)"), compared with no figure of the criterion's own. */
+function plainHeight(i: number): (f: Facts, out: HeightFact[]) => void {
+  return (f, out) => { out.push({ text: PLAIN[i](f.lo[i]), heightM: f.lo[i] }); };
 }
 
 function quantityMissing(q: Quantity, i: number, f: Facts): number {
@@ -185,7 +221,8 @@ export function compileCondition(c: Condition): CompiledCondition {
       const base = c.value;
       const perYear = c.perYearOfAge ?? 0;
       // The constant tail of the explanation is joined once, here, not per explanation.
-      const fixed = comparisonText(c.quantity, i, 'hi', ` < ${thresholdText(c)}`, c.value);
+      const tail = ` < ${thresholdText(c)}`;
+      const fixed = comparisonText(c.quantity, i, 'hi', tail, c.value);
       return {
         test: (f) => belowState(f, i, base + perYear * f.years),
         explain: (f) => {
@@ -194,26 +231,31 @@ export function compileCondition(c: Condition): CompiledCondition {
           return `${valueText(c.quantity, i, f, 'hi')} < ${fmt(t)} (${fmt(base)} + ${fmt(perYear)} × ${fmt(f.years)})`;
         },
         missing: (f) => quantityMissing(c.quantity, i, f),
+        heights: c.quantity !== 'heightM' ? null : perYear ? plainHeight(i) : comparedHeight(i, tail, 'below', c.value),
       };
     }
     case 'above': {
       const i = QUANTITY_INDEX[c.quantity];
       const t = c.value;
-      const explain = comparisonText(c.quantity, i, 'lo', ` > ${thresholdText(c)}`, c.value);
+      const tail = ` > ${thresholdText(c)}`;
+      const explain = comparisonText(c.quantity, i, 'lo', tail, c.value);
       return {
         test: (f) => aboveState(f, i, t),
         explain,
         missing: (f) => quantityMissing(c.quantity, i, f),
+        heights: c.quantity === 'heightM' ? comparedHeight(i, tail, 'above', t) : null,
       };
     }
     case 'at-most': {
       const i = QUANTITY_INDEX[c.quantity];
       const t = c.value;
-      const explain = comparisonText(c.quantity, i, 'hi', ` ≤ ${thresholdText(c)}`, c.value);
+      const tail = ` ≤ ${thresholdText(c)}`;
+      const explain = comparisonText(c.quantity, i, 'hi', tail, c.value);
       return {
         test: (f) => (f.hi[i] <= t ? MET : f.lo[i] > t ? NOT_MET : UNKNOWN),
         explain,
         missing: (f) => quantityMissing(c.quantity, i, f),
+        heights: c.quantity === 'heightM' ? comparedHeight(i, tail, 'at-most', t) : null,
       };
     }
     case 'exceeds': {
@@ -222,6 +264,7 @@ export function compileCondition(c: Condition): CompiledCondition {
         test: (f) => exceedsState(f, a, b),
         explain: (f) => `${valueText(c.quantity, a, f, 'lo')} > ${valueText(c.other, b, f, 'hi')}`,
         missing: (f) => quantityMissing(c.quantity, a, f) | quantityMissing(c.other, b, f),
+        heights: c.quantity === 'heightM' ? plainHeight(a) : c.other === 'heightM' ? plainHeight(b) : null,
       };
     }
     case 'age': {
@@ -231,20 +274,21 @@ export function compileCondition(c: Condition): CompiledCondition {
         test: (f) => (f.years >= from && f.years < below ? MET : NOT_MET),
         explain: (f) => byAge(f.ageYears),
         missing: () => 0,
+        heights: null,
       };
     }
     case 'flag': {
       const i = FLAG_INDEX[c.flag];
       const text = FLAG_TEXT[c.flag], bit = FLAG_FIELD_BIT[c.flag];
-      return { test: (f) => f.flags[i] as TriState, explain: () => text, missing: () => bit };
+      return { test: (f) => f.flags[i] as TriState, explain: () => text, missing: () => bit, heights: null };
     }
     case 'finding': {
       const bit = FINDING_BIT[c.finding], text = FINDING_TEXT[c.finding];
-      return { test: (f) => ((f.findings & bit) !== 0 ? MET : NOT_MET), explain: () => text, missing: () => 0 };
+      return { test: (f) => ((f.findings & bit) !== 0 ? MET : NOT_MET), explain: () => text, missing: () => 0, heights: null };
     }
     case 'consideration': {
       const bit = CONSIDERATION_BIT[c.consideration], text = CONSIDERATION_TEXT[c.consideration];
-      return { test: (f) => ((f.considerations & bit) !== 0 ? MET : NOT_MET), explain: () => text, missing: () => 0 };
+      return { test: (f) => ((f.considerations & bit) !== 0 ? MET : NOT_MET), explain: () => text, missing: () => 0, heights: null };
     }
     case 'room-air-spo2-below': {
       const t = c.value;
@@ -265,6 +309,7 @@ export function compileCondition(c: Condition): CompiledCondition {
         missing: (f) => (f.spo2 !== f.spo2
           ? BIT.spo2 | (f.roomAir === UNKNOWN ? BIT.roomAir : 0)
           : f.roomAir === NOT_MET ? BIT.roomAirSpo2 : BIT.roomAir),
+        heights: null,
       };
     }
     case 'fall-above-body-heights': {
@@ -284,6 +329,7 @@ export function compileCondition(c: Condition): CompiledCondition {
           return `${heightText(f.lo[fallAt], times * body)} > ${fmt(times)} × the child's height (${basis})`;
         },
         missing: (f) => (bodyHeightOf(f) !== bodyHeightOf(f) ? BIT.bodyHeight : 0),
+        heights: (f, out) => { out.push({ text: heightText(f.lo[fallAt], times * bodyHeightOf(f)), heightM: f.lo[fallAt] }); },
       };
     }
     case 'pregnancy-above': {
@@ -297,6 +343,7 @@ export function compileCondition(c: Condition): CompiledCondition {
         },
         explain: (f) => `pregnant ${fmt(f.pregnancyWeeks)} weeks > ${w}`,
         missing: () => BIT.pregnancy,
+        heights: null,
       };
     }
     case 'any': {
@@ -319,6 +366,8 @@ export function compileCondition(c: Condition): CompiledCondition {
           return text;
         },
         missing: (f) => unknownPartsMissing(parts, f),
+        // Only the parts met are explained, so only theirs are stated.
+        heights: partHeights(parts, true),
       };
     }
     case 'all': {
@@ -343,9 +392,18 @@ export function compileCondition(c: Condition): CompiledCondition {
           return text;
         },
         missing: (f) => unknownPartsMissing(parts, f),
+        heights: partHeights(parts, false),
       };
     }
   }
+}
+
+function partHeights(parts: readonly CompiledCondition[], metOnly: boolean): CompiledCondition['heights'] {
+  const stating = parts.filter((p) => p.heights !== null);
+  if (!stating.length) return null;
+  return (f, out) => {
+    for (const p of stating) if (!metOnly || p.test(f) === MET) p.heights!(f, out);
+  };
 }
 
 function unknownPartsMissing(parts: readonly CompiledCondition[], f: Facts): number {
@@ -367,5 +425,6 @@ export function compileCriterion(criterion: Criterion): CompiledCriterion {
     test: compiled.test,
     explain: compiled.explain,
     missing: compiled.missing,
+    heights: compiled.heights,
   };
 }

@@ -1,13 +1,14 @@
 import type { ClinicalInput } from '../schemas/clinical';
 import { fallImpact, type Impact } from '../physics/impact';
 import { CRITERIA_SETS, DEFAULT_SET, compiledCriterion } from './catalog';
-import { compileCriterion, type CompiledCriterion } from './compile-criteria';
+import { compileCriterion, type CompiledCriterion, type HeightFact } from './compile-criteria';
 import type { CriteriaSet, CriteriaSetId, Criterion, CriterionSetId, NemsisCode, RiskTier } from './criteria';
 import { TRI, createFacts, readFacts } from './facts';
 import { MISSING_INPUTS, type MissingInput } from './missing-inputs';
 import { EXAMPLE_POLICY, type LevelId, type Policy } from './policy';
 
 export type FieldRisk = RiskTier | 'none';
+export type { HeightFact };
 
 export interface FiredCriterion {
   id: string;
@@ -17,6 +18,11 @@ export interface FiredCriterion {
   label: string;
   /** The recorded values that met it: "SBP 84 < 90, age 34 (10–64)". */
   because: string;
+  /**
+   * The fall heights `because` states, as numbers, for screens that show them in their own unit;
+   * present only when it states one (and absent from results stored before it was added).
+   */
+  heights?: HeightFact[];
   source: string;
   /** The source in plain words for screens; absent from results stored before it was added. */
   sourceLabel?: string;
@@ -61,7 +67,7 @@ interface Plan {
    * sets and the policy catalog are built in different ways, so their own objects differ in layout
    * and reading them would be a slow lookup per field.
    */
-  about: Omit<FiredCriterion, 'because'>[];
+  about: Omit<FiredCriterion, 'because' | 'heights'>[];
   tierRank: Int8Array;
   setCount: number;
   /** Per member, the index of the first rule naming it; rules.length when none does. */
@@ -194,10 +200,17 @@ export function evaluate(input: ClinicalInput, options: EvaluateOptions = {}): E
   for (let k = 0; k < metCount; k++) {
     const i = met[k];
     const c = about[i];
-    criteria.push({
-      id: c.id, set: c.set, tier: c.tier, label: c.label, because: members[i].explain(f),
+    const m = members[i];
+    const fired: FiredCriterion = {
+      id: c.id, set: c.set, tier: c.tier, label: c.label, because: m.explain(f),
       source: c.source, sourceLabel: c.sourceLabel, calls: c.calls, nemsis: c.nemsis,
-    });
+    };
+    if (m.heights !== null) {
+      const heights: HeightFact[] = [];
+      m.heights(f, heights);
+      if (heights.length) fired.heights = heights;
+    }
+    criteria.push(fired);
   }
   let missingBits = 0;
   for (let k = 0; k < unknownCount; k++) {

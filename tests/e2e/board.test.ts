@@ -82,7 +82,8 @@ describeInBrowser('the Inbound board in Chromium', () => {
     expect(text).toContain('63-year-old female');
     expect(text).toContain('Full trauma team');
     expect(text).toContain('New: not yet acknowledged');
-    expect(text).toContain('Fall 18 ft onto concrete');
+    // 5.5 m / 0.3048 = 18.04 ft, one decimal in the hospital's feet (1 ft = 0.3048 m, common practice).
+    expect(text).toContain('Fall 18.0 ft onto concrete');
     expect(text).toMatch(/SBP\s*82/);
     // Urgent first: a new full-team case sits above every acknowledged case on the board.
     const order = await page.locator('section[aria-labelledby="on-the-way"] article').evaluateAll((cards) => cards.map((c) => [c.getAttribute('data-case-number'), c.classList.contains('waiting')] as const));

@@ -227,10 +227,22 @@ describeInBrowser('handover, urgency order, wall and bays in Chromium', () => {
     expect(text).toContain('Treatment given: Splint, Pain relief');
     expect(text).toContain('Allergies: penicillin');
     // Shown in the hospital's feet with the criterion's own figure beside it; stored as typed.
-    expect(text).toContain('10 ft (entered as 3.05 m)');
-    expect(text).toContain('criterion: above 10 ft (3 m)');
+    // 3.05 m / 0.3048 = 10.0066 ft → 10.0 ft (1 ft = 0.3048 m exactly, common practice), yet above
+    // the exact 10 ft (3.048 m) threshold [source: Newgard 2022, SOURCES.md §2.6].
+    expect(text).toContain('10.0 ft (entered as 3.05 m)');
+    expect(text).toContain('criterion: above 10 ft (3.048 m)');
     await expectAccessible(page, 'Inbound board, desk, busy shift');
     await shot(page, 'i17-board-desk-1280');
+  });
+
+  it('the card’s reasons give the height in the hospital’s feet to one decimal, the criterion’s figure exact', async () => {
+    const card = nurse.page.locator(`article[data-case-number="${sentNumber}"]`);
+    await card.getByRole('button', { name: `More actions and details for case ${sentNumber}` }).click();
+    // 3.05 m / 0.3048 = 10.0066 ft → 10.0 ft, and 3.1 m (1 ft = 0.3048 m exactly, common practice);
+    // above the 10 ft (3.048 m) threshold [source: Newgard 2022, SOURCES.md §2.6].
+    await expect.poll(() => card.locator('.criteria li').allInnerTexts()).toContain('Fall from height > 10 feet (3.048 m) (fall 10.0 ft (3.1 m), above the 10 ft (3.048 m) threshold)');
+    await card.screenshot({ path: join('tests', 'e2e', 'screenshots', 'i17-card-heights.png') });
+    await card.getByRole('button', { name: `Less actions and details for case ${sentNumber}` }).click();
   });
 
   it('after Acknowledge the focus moves to the next card; the Decide dialog fits at 1280×800 and 1366×768', async () => {

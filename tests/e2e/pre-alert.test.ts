@@ -77,10 +77,11 @@ describeInBrowser('New pre-alert on a phone in Chromium', () => {
     await fill('Systolic BP (SBP) (mmHg)', '120');
     await fill('Heart rate (HR) (/min)', '88');
 
-    // 12 ft > 10 ft [source: Newgard 2022] → moderate; the example policy calls a consult.
+    // 12 ft > 10 ft [source: Newgard 2022] → moderate; the example policy calls a consult. The crew
+    // reads the height in the unit they typed, the criterion's figure exact (SOURCES.md §2.6).
     await expect.poll(() => page.getByTestId('field-risk').textContent()).toBe('Moderate risk');
     expect(await page.getByTestId('activation').textContent()).toBe('Trauma consult');
-    expect(await page.getByTestId('criteria').locator('li').allInnerTexts()).toEqual(['MODERATE\nFall from height > 10 feet (3.048 m): fall 3.658 m (12 ft) > 3.048 m (10 ft) → Trauma consult\n2021 field-triage guideline (Newgard 2022)']);
+    expect(await page.getByTestId('criteria').locator('li').allInnerTexts()).toEqual(['MODERATE\nFall from height > 10 feet (3.048 m): fall 12.0 ft (3.7 m), above the 10 ft (3.048 m) threshold → Trauma consult\n2021 field-triage guideline (Newgard 2022)']);
 
     await fill('Systolic BP (SBP) (mmHg)', '84');
     // SBP 84 < 90 at age 34 [source: Newgard 2022] → high; the example policy calls the full team.

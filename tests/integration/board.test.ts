@@ -392,8 +392,11 @@ describe('the rest of a case: bay, page, arrival, the team leader at the bedside
     expect(mail.text).toContain('Level: Full trauma team');
     expect(mail.text).toContain('Bay: Resus 4');
     expect(mail.text).toContain('Patient: 34-year-old male');
-    // The figure the height is compared with: over 10 ft (3.048 m) [source: Newgard 2022].
-    expect(mail.text).toContain('Fall: 13.1 ft onto concrete; criterion: above 10 ft (3 m), first impact back');
+    // The figure the height is compared with, exact: over 10 ft (3.048 m) [source: Newgard 2022,
+    // SOURCES.md §2.6]; the patient's 4 m to one decimal in the hospital's feet, 4 / 0.3048 = 13.12
+    // (1 ft = 0.3048 m exactly, common practice).
+    expect(mail.text).toContain('Fall: 13.1 ft onto concrete; criterion: above 10 ft (3.048 m), first impact back');
+    expect(mail.text).toContain('- Fall from height > 10 feet (3.048 m) (fall 13.1 ft (4.0 m), above the 10 ft (3.048 m) threshold)');
     expect(mail.text).toContain('Latest vitals: SBP 84, HR 120');
     expect(mail.text).toMatch(/Criteria met:\n- .*SBP 84/);
     // The crew's notes reach the team as written (the form tells the crew they go to the page).

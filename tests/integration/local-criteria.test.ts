@@ -77,7 +77,12 @@ describe('a local criterion from draft to a new pre-alert', () => {
     expect(preview.examples.length).toBeLessThanOrEqual(3);
     const caseHospitals = await server.db('cases').whereIn('id', preview.examples.map((e: { caseId: number }) => e.caseId)).distinct('hospital_id');
     expect(caseHospitals.every((row: { hospital_id: number }) => row.hospital_id === general)).toBe(true);
-    for (const example of preview.examples) expect(example.because).toMatch(/^fall .* > 4\.572 m \(15 ft\)$/);
+    expect(preview.examples.length).toBeGreaterThan(0);
+    for (const example of preview.examples) {
+      expect(example.because).toMatch(/^fall .* > 4\.572 m \(15 ft\)$/);
+      // The height as a number beside the words, so the form can show it in the hospital's unit.
+      expect(example.heights).toEqual([{ text: example.because, heightM: expect.any(Number), compared: { relation: 'above', thresholdM: 4.572 } }]);
+    }
     // A charge nurse has no business here; a trauma lead may not preview another hospital's cases.
     expect((await nurse.send('POST', '/api/policies/local-preview', { hospitalId: general, condition: fallAbove15ft().condition })).status).toBe(403);
     expect((await lead.send('POST', '/api/policies/local-preview', { hospitalId: community, condition: fallAbove15ft().condition })).status).toBe(403);

@@ -2,6 +2,7 @@ import type { Knex } from 'knex';
 import type { CaseSummary } from '../../../shared/schemas/cases';
 import { formatAgeSex, formatFallWithCriterion, handoverLines, levelName, type BoardLevel } from '../../../shared/schemas/board';
 import { firstImpactOptions } from '../../../shared/schemas/clinical';
+import { becauseInUnit } from '../../../shared/board/height-display';
 import type { LevelId } from '../../../shared/triage/policy';
 import type { OutgoingMail } from '../../mail';
 import { getSetting } from '../people/settings';
@@ -76,7 +77,7 @@ function patientLines(summary: CaseSummary, clock: MailClock): string[] {
 function criteriaLines(summary: CaseSummary): string[] {
   const criteria = summary.latest.result.criteria;
   if (!criteria.length) return ['Criteria met: none'];
-  return ['Criteria met:', ...criteria.map((c) => `- ${c.label} (${c.because})`)];
+  return ['Criteria met:', ...criteria.map((c) => `- ${c.label} (${becauseInUnit(c, summary.hospital.heightUnit)})`)];
 }
 
 /** The page to the decided level's list: level, ETA, bay and criteria first, in that order. */

@@ -2,7 +2,7 @@ import type { Knex } from 'knex';
 import type { Me } from '../../../shared/roles';
 import type { ClinicalInput } from '../../../shared/schemas/clinical';
 import type { LocalPreview, LocalPreviewQuery, SaveDraft } from '../../../shared/schemas/policies';
-import { compileCondition } from '../../../shared/triage/compile-criteria';
+import { compileCondition, type HeightFact } from '../../../shared/triage/compile-criteria';
 import { MET, createFacts, readFacts } from '../../../shared/triage/facts';
 import { checkCondition, conditionToWhen, readBack, settleLocalCriterion, type LocalCriterion } from '../../../shared/triage/local-criteria';
 import type { Policy, PolicyRule } from '../../../shared/triage/policy';
@@ -68,7 +68,10 @@ export async function previewLocalCondition(db: Knex, me: Me, query: LocalPrevie
     const f = readFacts(JSON.parse(row.input) as ClinicalInput, facts);
     if (condition.test(f) !== MET) continue;
     caught++;
-    if (examples.length < EXAMPLES) examples.push({ caseId: row.id, caseNumber: row.case_number, createdAt: Number(row.created_at), because: condition.explain(f) });
+    if (examples.length >= EXAMPLES) continue;
+    const heights: HeightFact[] = [];
+    condition.heights?.(f, heights);
+    examples.push({ caseId: row.id, caseNumber: row.case_number, createdAt: Number(row.created_at), because: condition.explain(f), ...(heights.length ? { heights } : {}) });
   }
   return { sentence: readBack(query.condition), caught, cases: rows.length, examples };
 }

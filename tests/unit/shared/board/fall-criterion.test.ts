@@ -14,15 +14,16 @@ describe('the fall height beside the criterion it is compared with', () => {
     expect(fallHeightThresholdM('field-2011', 14.9)).toBe(3.048);
   });
 
-  it('shows it in the hospital’s unit to one decimal, the other unit beside it', () => {
-    expect(fallCriterionPhrase('field-2011', 47, 'm')).toBe('criterion: above 6.1 m (20 ft)');
-    expect(fallCriterionPhrase('field-2021', 47, 'ft')).toBe('criterion: above 10 ft (3 m)');
-    expect(fallCriterionPhrase('field-2021', 47, 'storeys')).toBe('criterion: above 1 storey (10 ft)');
+  it('shows it exactly, in the hospital’s unit first, the other unit beside it (1 ft = 0.3048 m exactly, common practice)', () => {
+    expect(fallCriterionPhrase('field-2011', 47, 'm')).toBe('criterion: above 6.096 m (20 ft)');
+    expect(fallCriterionPhrase('field-2021', 47, 'ft')).toBe('criterion: above 10 ft (3.048 m)');
+    // A storey is counted as 10 ft; the published figure is in feet, so feet lead.
+    expect(fallCriterionPhrase('field-2021', 47, 'storeys')).toBe('criterion: above 10 ft (3.048 m)');
   });
 
   it('3.05 m typed in metres, shown in feet: the typed figure and the criterion side by side', () => {
     const fall = { heightM: 3.05, surface: 'concrete' as const, entered: { value: 3.05, unit: 'm' as const } };
-    expect(formatFallWithCriterion({ ageYears: 47, fall }, 'field-2021', 'ft')).toBe('10 ft (entered as 3.05 m) onto concrete; criterion: above 10 ft (3 m)');
+    expect(formatFallWithCriterion({ ageYears: 47, fall }, 'field-2021', 'ft')).toBe('10.0 ft (entered as 3.05 m) onto concrete; criterion: above 10 ft (3.048 m)');
     // A fall from standing has no height to compare.
     expect(formatFallWithCriterion({ ageYears: 80, fall: { heightM: 0, surface: 'tile-stone' } }, 'field-2021', 'm')).not.toContain('criterion');
   });
