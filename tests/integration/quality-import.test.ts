@@ -4,7 +4,7 @@ import { startTestServer, type TestServer } from '../support/server';
 import { browserlessClient, signIn, type SignedInClient } from '../support/sign-in';
 import { loadMe } from '../../server/auth/guards';
 import { verifyAuditChain } from '../../server/services/audit/audit';
-import { submitPreAlert } from '../../server/services/cases/cases';
+import { submitPreAlert } from '../../server/services/cases/commands';
 import { OUTCOME_COLUMN_NAMES, type ImportPreview } from '../../shared/schemas/quality';
 
 // The registry outcome import: every row checked and every problem named (row, column, what)

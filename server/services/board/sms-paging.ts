@@ -15,7 +15,8 @@ import type { RealtimeServer } from '../../realtime';
 import type { SmsSender } from '../../sms';
 import { appendAudit, recordCaseEvent, systemActor, type Actor } from '../audit/audit';
 import { levelsOfCase } from './board';
-import { caseSummary, loadCaseRow } from '../cases/cases';
+import { loadCaseRow } from '../cases/queries';
+import { caseSummary } from '../cases/summary';
 import { composePage, notificationList } from './paging';
 import { getSetting, setSetting } from '../people/settings';
 
