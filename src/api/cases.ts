@@ -2,14 +2,15 @@
 import { apiGet } from './http';
 import { sendCommand } from './socket';
 import type { SubmitAnswer } from '../../shared/realtime/events';
-import type { CaseCancel, CaseEventView, CaseRedirect, CaseRevisionView, CaseSummary, PreAlert, PreAlertUpdate } from '../../shared/schemas/cases';
+import type { CaseCancel, CaseEventView, CaseRedirect, CrewCaseEventView, CaseRevisionView, CaseSummary, PreAlert, PreAlertUpdate } from '../../shared/schemas/cases';
 
-export type { CaseEventView, CaseRevisionView, CaseSummary };
+export type { CaseEventView, CaseRevisionView, CaseSummary, CrewCaseEventView };
 
 export interface CaseDetail {
   case: CaseSummary;
   revisions: CaseRevisionView[];
-  events: CaseEventView[];
+  /** A crew member reads the steps without what the hospital wrote (CrewCaseEventView). */
+  events: CaseEventView[] | CrewCaseEventView[];
 }
 
 export type { SubmitAnswer };
