@@ -37,7 +37,7 @@ export function onCommand<E extends CommandName>(socket: RealtimeSocket, logger:
         handler.allow(socket.data.me);
         ack({ ok: true, data: await handler.run(parseOr400(handler.schema, raw)) });
       } catch (err) {
-        ack(ackError(err, logger));
+        ack(ackError(err, logger, socket.data.me));
       }
     })();
   });

@@ -6,8 +6,11 @@ import type { CaseCancel, CaseRedirect, CaseSummary, PreAlert, PreAlertUpdate } 
 export type Ack<T> = (response: AckResponse<T>) => void;
 export type AckResponse<T> =
   | { ok: true; data: T }
-  /** retryAfterMs: with code rate_limited, when the same command will be taken again. */
-  | { ok: false; error: { code: string; message: string; field?: string; issues?: { field: string; message: string }[]; retryAfterMs?: number } };
+  /**
+   * retryAfterMs: with code rate_limited, when the same command will be taken again. case: with a
+   * refusal because the case changed first or has ended, the case as it now stands.
+   */
+  | { ok: false; error: { code: string; message: string; field?: string; issues?: { field: string; message: string }[]; retryAfterMs?: number; case?: CaseSummary } };
 
 export interface SessionReady {
   userId: number;

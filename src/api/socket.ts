@@ -8,6 +8,7 @@
 import { io, type Socket } from 'socket.io-client';
 import { readonly, ref } from 'vue';
 import type { AckResponse, ClientToServerEvents, CommandAnswer, CommandName, CommandPayload, ServerToClientEvents } from '../../shared/realtime/events';
+import type { CaseSummary } from '../../shared/schemas/cases';
 
 export type PlumblineSocket = Socket<ServerToClientEvents, ClientToServerEvents>;
 
@@ -60,7 +61,8 @@ function watchBrowserLink(): void {
 export const connection = { connected: readonly(connected), refused: readonly(refused), freshConnections: readonly(freshConnections) };
 
 export class SocketCommandError extends Error {
-  constructor(readonly code: string, message: string, readonly field?: string, readonly issues: { field: string; message: string }[] = [], readonly retryAfterMs?: number) {
+  /** current: with a refusal because the case changed first or has ended, the case as it now stands. */
+  constructor(readonly code: string, message: string, readonly field?: string, readonly issues: { field: string; message: string }[] = [], readonly retryAfterMs?: number, readonly current?: CaseSummary) {
     super(message);
     this.name = 'SocketCommandError';
   }
@@ -91,7 +93,7 @@ export async function sendCommand<E extends CommandName>(event: E, payload: Comm
     dropTransport();
     throw new SocketCommandError('timeout', 'No answer from the server in time.');
   }
-  if (!answer.ok) throw new SocketCommandError(answer.error.code, answer.error.message, answer.error.field, answer.error.issues, answer.error.retryAfterMs);
+  if (!answer.ok) throw new SocketCommandError(answer.error.code, answer.error.message, answer.error.field, answer.error.issues, answer.error.retryAfterMs, answer.error.case);
   return answer.data;
 }
 

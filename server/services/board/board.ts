@@ -19,7 +19,7 @@ import type { CaseChange } from '../../../shared/realtime/events';
 import { EXAMPLE_POLICY, LEVEL_RANK, Policy } from '../../../shared/triage/policy';
 import { assertHospital, hospitalIdsOf } from '../../auth/guards';
 import type { Clock } from '../../deps';
-import { AppError, conflict, forbidden, invalid, parseOr400 } from '../../errors';
+import { AppError, CaseRefusal, conflict, forbidden, invalid, parseOr400 } from '../../errors';
 import type { Mailer } from '../../mail';
 import { GENESIS_HASH, newestAuditRow, recordCaseEvent, type Actor } from '../audit/audit';
 import type { CaseActor } from '../cases/commands';
@@ -33,12 +33,6 @@ import { getSetting } from '../people/settings';
 
 type CaseRow = Awaited<ReturnType<typeof loadCaseRow>>;
 
-/** An action refused after the case was read: the body carries the case as it stands, so the loser's board catches up. */
-export class CaseActionError extends AppError {
-  constructor(status: number, code: string, message: string, readonly summary: CaseSummary) {
-    super(status, code, message);
-  }
-}
 
 export interface BoardOutcome { summary: CaseSummary; change: CaseChange }
 
@@ -149,8 +143,9 @@ async function staleMessage(db: Knex, row: CaseRow, action: BoardAction): Promis
   return `The case changed first (${what}). Your board now shows it as it stands; look again before acting.`;
 }
 
+/** An action refused after the case was read: the answer carries the case as it stands, so the loser's board catches up. */
 async function refuse(db: Knex, caseId: number, status: number, code: string, message: string): Promise<never> {
-  throw new CaseActionError(status, code, message, await caseSummary(db, caseId));
+  throw new CaseRefusal(status, code, message, await caseSummary(db, caseId));
 }
 
 /** The change an action makes, and what its case event records. */
@@ -281,7 +276,7 @@ export async function actOnCase(deps: BoardDeps, actor: CaseActor, caseId: numbe
     plan = await planner(row, body, { at, db, actor });
   } catch (err) {
     // A state rule (409) still tells the board how the case stands; a 400 leaves it alone.
-    if (err instanceof AppError && err.status === 409 && !(err instanceof CaseActionError)) await refuse(db, row.id, 409, err.code, err.message);
+    if (err instanceof AppError && err.status === 409 && !(err instanceof CaseRefusal)) await refuse(db, row.id, 409, err.code, err.message);
     throw err;
   }
   await commit(db, actor, row, action, at, ACTION_EVENT[action], plan);

@@ -8,21 +8,29 @@ import { evaluate, type Evaluation } from '../../../shared/triage/evaluate';
 import { LEVEL_RANK, type LevelId } from '../../../shared/triage/policy';
 import { agencyIdsOf } from '../../auth/guards';
 import type { Clock } from '../../deps';
-import { conflict, forbidden, invalid, parseOr400 } from '../../errors';
+import { CaseRefusal, conflict, forbidden, invalid, parseOr400 } from '../../errors';
 import { recordCaseEvent, type Actor } from '../audit/audit';
 import { policyInForce } from '../policies/policies';
 import { caseNumberOf, loadCaseRow, type CaseRow } from './queries';
-import { rememberRevision } from './summary';
+import { caseSummary, rememberRevision } from './summary';
 
 /** Who changes a case: a person in a role, or a registered machine client, named by `source`. */
 export interface CaseActor { me: Me; role: Role | 'machine_client'; source?: string }
 const actorOf = (a: CaseActor): Actor => ({ id: a.me.user.id, role: a.role });
 
+/**
+ * A change refused because the case is no longer as the crew saw it: the refusal carries the case
+ * as it now stands. Read after the transaction has ended: SQLite has one connection.
+ */
+async function refuse(db: Knex, caseId: number, message: string): Promise<never> {
+  throw new CaseRefusal(409, 'conflict', message, await caseSummary(db, caseId));
+}
+
 /** The case, if it is this paramedic's agency's and still open. */
 async function caseForCrew(db: Knex, me: Me, caseId: number): Promise<CaseRow> {
   const row = await loadCaseRow(db, caseId);
   if (!agencyIdsOf(me).includes(row.agency_id)) throw forbidden('That case belongs to another ambulance agency.');
-  if (row.state === 'closed' || row.state === 'cancelled') throw conflict(`Case ${row.case_number} is ${row.state}; it can no longer be changed.`);
+  if (row.state === 'closed' || row.state === 'cancelled') return refuse(db, row.id, `Case ${row.case_number} is ${row.state}; it can no longer be changed.`);
   return row;
 }
 
@@ -170,7 +178,7 @@ export async function reviseCase(db: Knex, clock: Clock, actor: CaseActor, paylo
         updated_at: at,
         row_version: row.row_version + 1,
       });
-    if (!changed) throw conflict('The case changed while this update was sent; send it again.');
+    if (!changed) return null;
     const stored = await insertRevision(trx, row.id, revision, input, result, payload.etaMinutes ?? null, notes, actor.me.user.id, at);
     await recordCaseEvent(trx, {
       caseId: row.id,
@@ -182,6 +190,7 @@ export async function reviseCase(db: Knex, clock: Clock, actor: CaseActor, paylo
     });
     return stored;
   });
+  if (!written) return refuse(db, row.id, 'The case changed while this update was sent; send it again.');
   rememberWritten(db, written);
   return { caseId: row.id, rose, from, to: result.activation };
 }
@@ -189,11 +198,13 @@ export async function reviseCase(db: Knex, clock: Clock, actor: CaseActor, paylo
 export async function cancelCase(db: Knex, clock: Clock, actor: CaseActor, payload: CaseCancel): Promise<{ caseId: number }> {
   const row = await caseForCrew(db, actor.me, payload.caseId);
   const at = clock.now();
-  await db.transaction(async (trx) => {
+  const won = await db.transaction(async (trx) => {
     const changed = await trx('cases').where({ id: row.id, row_version: row.row_version }).update({ state: 'cancelled', cancelled_at: at, cancel_reason: payload.reason, updated_at: at, row_version: row.row_version + 1 });
-    if (!changed) throw conflict('The case changed at the same moment; look again before cancelling.');
+    if (!changed) return false;
     await recordCaseEvent(trx, { caseId: row.id, kind: 'cancelled', actor: actorOf(actor), at, before: { state: row.state }, data: { state: 'cancelled', reason: payload.reason } });
+    return true;
   });
+  if (!won) return refuse(db, row.id, 'The case changed at the same moment; look again before cancelling.');
   return { caseId: row.id };
 }
 
@@ -223,7 +234,7 @@ export async function redirectCase(db: Knex, clock: Clock, actor: CaseActor, pay
       updated_at: at,
       row_version: row.row_version + 1,
     });
-    if (!changed) throw conflict('The case changed at the same moment; look again before redirecting.');
+    if (!changed) return null;
     const stored = await insertRevision(trx, row.id, revision, input, result, latest.eta_minutes, latest.notes, actor.me.user.id, at);
     await recordCaseEvent(trx, {
       caseId: row.id,
@@ -236,6 +247,7 @@ export async function redirectCase(db: Knex, clock: Clock, actor: CaseActor, pay
     });
     return stored;
   });
+  if (!written) return refuse(db, row.id, 'The case changed at the same moment; look again before redirecting.');
   rememberWritten(db, written);
   return { caseId: row.id, fromHospitalId: row.hospital_id };
 }
