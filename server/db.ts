@@ -3,6 +3,7 @@ import { readdirSync } from 'node:fs';
 import { dirname, join, resolve } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import knex, { type Knex } from 'knex';
+import { LRUCache } from 'lru-cache';
 import { loadAuditKey } from './audit-key';
 import { migrationsDir } from './paths';
 import { useAuditKey } from './services/audit/audit';
@@ -39,16 +40,10 @@ export interface SqliteConnection {
  */
 export function keepStatements(conn: SqliteConnection, size = 500): void {
   const prepare = conn.prepare.bind(conn);
-  const kept = new Map<string, unknown>();
+  const kept = new LRUCache<string, object>({ max: size });
   conn.prepare = (sql: string) => {
     let statement = kept.get(sql);
-    if (statement === undefined) {
-      statement = prepare(sql);
-      if (kept.size >= size) kept.delete(kept.keys().next().value!);
-    } else {
-      kept.delete(sql);
-    }
-    kept.set(sql, statement);
+    if (statement === undefined) kept.set(sql, (statement = prepare(sql) as object));
     return statement;
   };
 }

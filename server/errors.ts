@@ -6,6 +6,7 @@ import { messagePage } from './idp/pages';
 const pageFor = (error: AppError) => messagePage(error.status === 404 ? 'Not found' : 'Something went wrong', error.message, { href: '/', label: 'Back to Plumbline' });
 
 import { describeIssues, formatIssue, type FieldIssue } from '../shared/schemas/issues';
+import type { CaseSummary } from '../shared/schemas/cases';
 
 export type { FieldIssue };
 
@@ -18,6 +19,17 @@ export class AppError extends Error {
     readonly issues?: FieldIssue[],
   ) {
     super(message);
+  }
+}
+
+/**
+ * A refusal that carries the case as it now stands (another change came first, or the case left
+ * the state the action needs): its body has the case's summary beside the error, so the caller
+ * catches up from the answer instead of reading the case again.
+ */
+export class CaseRefusal extends AppError {
+  constructor(status: number, code: string, message: string, readonly summary: CaseSummary) {
+    super(status, code, message);
   }
 }
 
@@ -43,7 +55,10 @@ export function parseOr400<T extends z.ZodType>(schema: T, value: unknown): z.in
 
 export function errorBody(error: AppError) {
   const [first] = error.issues ?? [];
-  return { error: { code: error.code, message: error.message, ...(first ? { field: first.field } : {}), ...(error.issues ? { issues: error.issues } : {}) } };
+  return {
+    error: { code: error.code, message: error.message, ...(first ? { field: first.field } : {}), ...(error.issues ? { issues: error.issues } : {}) },
+    ...(error instanceof CaseRefusal ? { case: error.summary } : {}),
+  };
 }
 
 export const notFoundHandler: RequestHandler = (_req, _res, next) => next(notFound('That address'));

@@ -19,7 +19,7 @@ import { attachSocketFeatures, createRealtime, type RealtimeServer } from './rea
 import { catchUpLane } from './realtime/catch-up';
 import { socketFeatures } from './realtime/features';
 import { backgroundJobs } from './services/jobs/jobs';
-import { primeCaseLists } from './services/cases/cases';
+import { primeCaseLists } from './services/cases/summary';
 import { rehearsePreAlerts } from './services/cases/rehearsal';
 import { isEmpty, seedDemo } from './services/demo/seed';
 import { startKeyedChain } from './services/audit/audit';

@@ -4,7 +4,8 @@ import { FHIR_EXPORT_TYPES, type FhirExportQuery, type FhirExportType } from '..
 import type { Me } from '../../shared/roles';
 import { caseBundle, caseResources, type FhirBundle, type FhirResource } from './fhir';
 import { invalid } from '../errors';
-import { caseEvents, caseForReader, caseSummary, listCaseSummaries } from '../services/cases/cases';
+import { caseEvents, caseForReader } from '../services/cases/queries';
+import { caseSummary, listCaseSummaries } from '../services/cases/summary';
 import { assertQualityReader } from '../services/quality/report';
 
 const DAY = 86_400_000;

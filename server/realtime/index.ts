@@ -6,7 +6,8 @@ import type { Logger } from 'pino';
 import type { Me } from '../../shared/roles';
 import { roomOfAgency, roomOfHospital, roomOfUser, type ClientToServerEvents, type ServerToClientEvents } from '../../shared/realtime/events';
 import { loadMe } from '../auth/guards';
-import { AppError } from '../errors';
+import { AppError, CaseRefusal } from '../errors';
+import { crewView, readsAsCrew } from '../services/cases/crew';
 import { RateLimited } from '../limits';
 import type { CatchUpLane } from './catch-up';
 import { sweepEndedSessions } from './session-follow';
@@ -28,11 +29,15 @@ export function roomsOf(me: Me): string[] {
   return [roomOfUser(me.user.id), ...me.memberships.map((m) => (m.kind === 'hospital' ? roomOfHospital(m.id) : roomOfAgency(m.id)))];
 }
 
-/** Only allow-listed error details reach a client; anything else is logged and answered generically. */
-export function ackError(err: unknown, logger: Logger) {
+/**
+ * Only allow-listed error details reach a client; anything else is logged and answered generically.
+ * A refusal that carries the case gives it as this reader may see it (a crew: without the hospital's part).
+ */
+export function ackError(err: unknown, logger: Logger, me?: Me) {
   if (err instanceof AppError) {
     const wait = err instanceof RateLimited ? { retryAfterMs: err.retryAfterMs } : {};
-    return { ok: false as const, error: { code: err.code, message: err.message, ...wait, ...(err.issues?.[0] ? { field: err.issues[0].field, issues: err.issues } : {}) } };
+    const current = err instanceof CaseRefusal && me ? { case: readsAsCrew(me, err.summary) ? crewView(err.summary) : err.summary } : {};
+    return { ok: false as const, error: { code: err.code, message: err.message, ...wait, ...(err.issues?.[0] ? { field: err.issues[0].field, issues: err.issues } : {}), ...current } };
   }
   logger.error({ err }, 'socket handler failed');
   return { ok: false as const, error: { code: 'internal', message: 'Something went wrong on our side. It has been logged.' } };

@@ -3,10 +3,10 @@ import { z } from 'zod';
 import { BOARD_ACTIONS, BOARD_CURSOR, type BoardAction } from '../../shared/schemas/board';
 import type { AppDeps } from '../deps';
 import { requireRole, requireUser } from '../auth/guards';
-import { errorBody, parseOr400 } from '../errors';
+import { CaseRefusal, parseOr400 } from '../errors';
 import { CaseIdParam } from './params';
 import { announceCase } from '../realtime/broadcast';
-import { actOnCase, boardSnapshotJson, CaseActionError } from '../services/board/board';
+import { actOnCase, boardSnapshotJson } from '../services/board/board';
 import { sendJsonText } from './json-text';
 import { startPaging } from '../services/board/sms-paging';
 
@@ -39,12 +39,9 @@ export function boardRouter(deps: AppDeps): Router {
       // its failures are recorded on the case and shown on the board, never thrown.
       if (action === 'page') void startPaging(deps, id, { id: req.me!.user.id, role: 'charge_nurse' });
     } catch (err) {
-      // The loser of a race gets the case as it now stands, so its board agrees with the winner's.
-      if (err instanceof CaseActionError) {
-        if (err.code === 'page_failed') announceCase(deps, err.summary, { kind: 'page-failed', at: err.summary.updatedAt, by: req.me!.user.name });
-        res.status(err.status).json({ ...errorBody(err), case: err.summary });
-        return;
-      }
+      // The loser of a race gets the case as it now stands in the refusal (errorBody), so its board
+      // agrees with the winner's; a failed page is also news for every other board.
+      if (err instanceof CaseRefusal && err.code === 'page_failed') announceCase(deps, err.summary, { kind: 'page-failed', at: err.summary.updatedAt, by: req.me!.user.name });
       next(err);
     }
   };

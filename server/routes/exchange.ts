@@ -7,7 +7,8 @@ import { parseOr400 } from '../errors';
 import { preAlertFromBundle } from '../exchange/fhir-in';
 import { requireMachineClient } from '../exchange/machine-auth';
 import { announceCase } from '../realtime/broadcast';
-import { caseSummary, submitPreAlert } from '../services/cases/cases';
+import { submitPreAlert } from '../services/cases/commands';
+import { caseSummary } from '../services/cases/summary';
 import { fhirBundleOfCase, fhirResourcesOfPeriod, ndjson, ndjsonZip } from '../exchange/fhir-export';
 import { CaseIdParam } from './params';
 

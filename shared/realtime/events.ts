@@ -6,8 +6,11 @@ import type { CaseCancel, CaseRedirect, CaseSummary, PreAlert, PreAlertUpdate } 
 export type Ack<T> = (response: AckResponse<T>) => void;
 export type AckResponse<T> =
   | { ok: true; data: T }
-  /** retryAfterMs: with code rate_limited, when the same command will be taken again. */
-  | { ok: false; error: { code: string; message: string; field?: string; issues?: { field: string; message: string }[]; retryAfterMs?: number } };
+  /**
+   * retryAfterMs: with code rate_limited, when the same command will be taken again. case: with a
+   * refusal because the case changed first or has ended, the case as it now stands.
+   */
+  | { ok: false; error: { code: string; message: string; field?: string; issues?: { field: string; message: string }[]; retryAfterMs?: number; case?: CaseSummary } };
 
 export interface SessionReady {
   userId: number;
@@ -33,12 +36,35 @@ export interface ServerToClientEvents {
   'paging:changed': (status: PagingStatus) => void;
 }
 
-export interface ClientToServerEvents {
+/** What a pre-alert's acknowledgement carries: the case it made, or the one its clientId already made. */
+export interface SubmitAnswer {
+  caseId: number;
+  caseNumber: string;
+  created: boolean;
+  summary: CaseSummary;
+}
+
+/**
+ * Every command with its payload and the data its acknowledgement carries. The socket events, the
+ * server's handlers (server/realtime/command.ts) and the client's senders (src/api/socket.ts) are
+ * all typed from this one table.
+ */
+export interface Commands {
+  'case:submit': { payload: PreAlert; answer: SubmitAnswer };
+  'case:update': { payload: PreAlertUpdate; answer: { summary: CaseSummary; rose: boolean } };
+  'case:cancel': { payload: CaseCancel; answer: { summary: CaseSummary } };
+  'case:redirect': { payload: CaseRedirect; answer: { summary: CaseSummary } };
+}
+export type CommandName = keyof Commands;
+export type CommandPayload<E extends CommandName> = Commands[E]['payload'];
+export type CommandAnswer<E extends CommandName> = Commands[E]['answer'];
+/** The listener socket.io calls with a command's payload and its acknowledgement. */
+export type CommandListener<E extends CommandName> = (payload: CommandPayload<E>, ack: Ack<CommandAnswer<E>>) => void;
+type CommandEvents = { [E in CommandName]: CommandListener<E> };
+
+export interface ClientToServerEvents extends CommandEvents {
+  /** The rooms this connection is in: a question without a payload, answered by the connection itself. */
   'session:rooms': (ack: Ack<{ rooms: string[] }>) => void;
-  'case:submit': (payload: PreAlert, ack: Ack<{ caseId: number; caseNumber: string; created: boolean; summary: CaseSummary }>) => void;
-  'case:update': (payload: PreAlertUpdate, ack: Ack<{ summary: CaseSummary; rose: boolean }>) => void;
-  'case:cancel': (payload: CaseCancel, ack: Ack<{ summary: CaseSummary }>) => void;
-  'case:redirect': (payload: CaseRedirect, ack: Ack<{ summary: CaseSummary }>) => void;
 }
 
 export const roomOfHospital = (id: number) => `hospital:${id}`;

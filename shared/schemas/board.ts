@@ -2,6 +2,7 @@ import { z } from 'zod';
 import { safeText } from './text';
 import { LEVEL_IDS, type LevelId } from '../triage/policy';
 import type { CaseSummary } from './cases';
+import type { CaseEventKind } from './case-events';
 import { surfaceOptions, treatmentOptions, type ClinicalInput } from './clinical';
 import type { CriteriaSetId } from '../triage/criteria';
 import { fallHeightThresholdM } from '../triage/fall-threshold';
@@ -79,7 +80,7 @@ export type BoardActionBody = {
 };
 
 /** The case_events kind each action records, and the change kind its broadcast carries. */
-export const ACTION_EVENT: Record<BoardAction, string> = {
+export const ACTION_EVENT = {
   acknowledge: 'acknowledged',
   decide: 'level-decided',
   bay: 'bay-assigned',
@@ -87,7 +88,7 @@ export const ACTION_EVENT: Record<BoardAction, string> = {
   arrived: 'arrived',
   'team-at-bedside': 'team-at-bedside',
   close: 'closed',
-};
+} as const satisfies Record<BoardAction, CaseEventKind>;
 
 /** How far a recorded time may lie ahead of the server's clock (devices drift) [ours]. */
 export const FUTURE_TOLERANCE_MS = 2 * 60_000;

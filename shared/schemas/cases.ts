@@ -3,6 +3,7 @@ import { ClinicalInput } from './clinical';
 import { safeText } from './text';
 import type { Evaluation } from '../triage/evaluate';
 import type { LevelId } from '../triage/policy';
+import type { CaseEventData, CaseEventKind } from './case-events';
 
 export const CASE_STATES = ['en-route', 'acknowledged', 'arrived', 'closed', 'cancelled'] as const;
 export type CaseState = (typeof CASE_STATES)[number];
@@ -125,11 +126,13 @@ export interface CaseSummary {
   rowVersion: number;
 }
 
-export interface CaseEventView {
+interface CaseEventMeta {
   id: number;
-  kind: string;
   at: number;
   actor: string | null;
   actorRole: string | null;
-  data: unknown;
 }
+/** A step on a case as the hospital reads it: who, when, and what its kind records. */
+export type CaseEventView = CaseEventMeta & CaseEventData;
+/** A step as its crew reads it: who and when, without what the hospital wrote. */
+export type CrewCaseEventView = CaseEventMeta & { kind: CaseEventKind; data: null };

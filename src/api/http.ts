@@ -21,14 +21,17 @@ export class ApiError extends Error {
   readonly code: string;
   readonly field?: string;
   readonly issues: ApiIssue[];
+  /** The whole answer as the server sent it: a refusal may carry more than the error (a 409 on a case carries the case as it stands). */
+  readonly body: unknown;
 
-  constructor(status: number, code: string, message: string, field?: string, issues: ApiIssue[] = []) {
+  constructor(status: number, code: string, message: string, field?: string, issues: ApiIssue[] = [], body?: unknown) {
     super(message);
     this.name = 'ApiError';
     this.status = status;
     this.code = code;
     this.field = field;
     this.issues = issues;
+    this.body = body;
   }
 }
 
@@ -88,9 +91,9 @@ async function readJson(response: Response): Promise<unknown> {
 function toApiError(status: number, payload: unknown): ApiError {
   if (isErrorBody(payload)) {
     const { code, message, field, issues } = payload.error;
-    return new ApiError(status, code, message, field, Array.isArray(issues) ? issues : []);
+    return new ApiError(status, code, message, field, Array.isArray(issues) ? issues : [], payload);
   }
-  return new ApiError(status, 'unexpected_response', `The server answered ${status} without an error description.`);
+  return new ApiError(status, 'unexpected_response', `The server answered ${status} without an error description.`, undefined, [], payload);
 }
 
 function isErrorBody(payload: unknown): payload is ApiErrorBody {

@@ -7,7 +7,8 @@
 // socket.io notices and reconnects, recovering what it missed.
 import { io, type Socket } from 'socket.io-client';
 import { readonly, ref } from 'vue';
-import type { AckResponse, ClientToServerEvents, ServerToClientEvents } from '../../shared/realtime/events';
+import type { AckResponse, ClientToServerEvents, CommandAnswer, CommandName, CommandPayload, ServerToClientEvents } from '../../shared/realtime/events';
+import type { CaseSummary } from '../../shared/schemas/cases';
 
 export type PlumblineSocket = Socket<ServerToClientEvents, ClientToServerEvents>;
 
@@ -60,25 +61,39 @@ function watchBrowserLink(): void {
 export const connection = { connected: readonly(connected), refused: readonly(refused), freshConnections: readonly(freshConnections) };
 
 export class SocketCommandError extends Error {
-  constructor(readonly code: string, message: string, readonly field?: string, readonly issues: { field: string; message: string }[] = [], readonly retryAfterMs?: number) {
+  /** current: with a refusal because the case changed first or has ended, the case as it now stands. */
+  constructor(readonly code: string, message: string, readonly field?: string, readonly issues: { field: string; message: string }[] = [], readonly retryAfterMs?: number, readonly current?: CaseSummary) {
     super(message);
     this.name = 'SocketCommandError';
   }
 }
 
+type TimedSocket = ReturnType<PlumblineSocket['timeout']>;
+type Answered<E extends CommandName> = (err: Error | null, response: AckResponse<CommandAnswer<E>>) => void;
+
+// socket.io types an event's payload and acknowledgement only when it is named by its literal:
+// one line per command here lets sendCommand stay generic. A command added to the map in
+// shared/realtime/events.ts without its line here does not compile.
+const emitters: { [E in CommandName]: (socket: TimedSocket, payload: CommandPayload<E>, answered: Answered<E>) => void } = {
+  'case:submit': (socket, payload, answered) => socket.emit('case:submit', payload, answered),
+  'case:update': (socket, payload, answered) => socket.emit('case:update', payload, answered),
+  'case:cancel': (socket, payload, answered) => socket.emit('case:cancel', payload, answered),
+  'case:redirect': (socket, payload, answered) => socket.emit('case:redirect', payload, answered),
+};
+
 /** Sends a command and resolves with its data, or rejects with the server's error (or a timeout). */
-export async function sendCommand<E extends keyof ClientToServerEvents, T>(event: E, payload: unknown, timeoutMs = 8000): Promise<T> {
+export async function sendCommand<E extends CommandName>(event: E, payload: CommandPayload<E>, timeoutMs = 8000): Promise<CommandAnswer<E>> {
   const s = getSocket();
-  let answer: AckResponse<T>;
+  let answer: AckResponse<CommandAnswer<E>>;
   try {
-    answer = await (s.timeout(timeoutMs) as unknown as { emitWithAck(e: string, p: unknown): Promise<AckResponse<T>> }).emitWithAck(event as string, payload);
+    answer = await new Promise((resolve, reject) => emitters[event](s.timeout(timeoutMs), payload, (err, response) => (err ? reject(err) : resolve(response))));
   } catch {
     // No acknowledgement: the link is not what it says, so stop saying it.
     connected.value = false;
     dropTransport();
     throw new SocketCommandError('timeout', 'No answer from the server in time.');
   }
-  if (!answer.ok) throw new SocketCommandError(answer.error.code, answer.error.message, answer.error.field, answer.error.issues, answer.error.retryAfterMs);
+  if (!answer.ok) throw new SocketCommandError(answer.error.code, answer.error.message, answer.error.field, answer.error.issues, answer.error.retryAfterMs, answer.error.case);
   return answer.data;
 }
 

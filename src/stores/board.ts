@@ -195,7 +195,7 @@ export const useBoardStore = defineStore('board', () => {
 
   /**
    * One action. A refusal because someone else acted first (409) or the page failed (502)
-   * fetches the case's truth, so this board agrees with the winner's, then rethrows for the card.
+   * carries the case's truth, so this board agrees with the winner's, then rethrows for the card.
    */
   async function act<A extends BoardAction>(caseId: number, action: A, body: Omit<BoardActionBody[A], 'rowVersion'>): Promise<CaseSummary> {
     const held = byId.value[caseId];
@@ -207,7 +207,10 @@ export const useBoardStore = defineStore('board', () => {
       return summary;
     } catch (error) {
       if (error instanceof ApiError && (error.status === 409 || error.status === 502)) {
-        await api.getCaseSummary(caseId).then((fresh) => upsert(fresh)).catch(() => load());
+        const current = api.refusedCase(error, caseId);
+        // An answer without the case (a proxy's error page) still leads to the truth, one read away.
+        if (current) upsert(current);
+        else await api.getCaseSummary(caseId).then((fresh) => upsert(fresh)).catch(() => load());
       }
       throw error;
     } finally {

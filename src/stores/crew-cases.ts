@@ -1,7 +1,7 @@
 import { defineStore } from 'pinia';
 import { ref, watch } from 'vue';
 import * as api from '../api/cases';
-import { connection, getSocket } from '../api/socket';
+import { connection, getSocket, SocketCommandError } from '../api/socket';
 import { keep, kept } from '../offline/device-store';
 import { OPEN_STATES, type CaseCancel, type CaseRedirect, type CaseSummary, type PreAlertUpdate } from '../../shared/schemas/cases';
 import type { CaseChange } from '../../shared/realtime/events';
@@ -84,18 +84,28 @@ export const useCrewCasesStore = defineStore('crew-cases', () => {
     void load();
   }
 
+  /** A refusal because the case changed first or has ended carries the case as it stands: shown at once, then rethrown. */
+  async function answered<T>(command: Promise<T>): Promise<T> {
+    try {
+      return await command;
+    } catch (err) {
+      if (err instanceof SocketCommandError && err.current) upsert(err.current);
+      throw err;
+    }
+  }
+
   async function update(payload: PreAlertUpdate): Promise<{ summary: CaseSummary; rose: boolean }> {
-    const answer = await api.updateCase(payload);
+    const answer = await answered(api.updateCase(payload));
     upsert(answer.summary);
     return answer;
   }
   async function cancel(payload: CaseCancel): Promise<CaseSummary> {
-    const { summary } = await api.cancelCase(payload);
+    const { summary } = await answered(api.cancelCase(payload));
     upsert(summary);
     return summary;
   }
   async function redirect(payload: CaseRedirect): Promise<CaseSummary> {
-    const { summary } = await api.redirectCase(payload);
+    const { summary } = await answered(api.redirectCase(payload));
     upsert(summary);
     return summary;
   }

@@ -2,7 +2,7 @@ import { randomUUID } from 'node:crypto';
 import { afterAll, beforeAll, expect, it } from 'vitest';
 import type { Browser, BrowserContext, Page } from 'playwright-core';
 import { announceCase } from '../../server/realtime/broadcast';
-import { caseSummary } from '../../server/services/cases/cases';
+import { caseSummary } from '../../server/services/cases/summary';
 import { startTestServer, type TestServer } from '../support/server';
 import type { SignedInClient } from '../support/sign-in';
 import { command, connectAs } from '../support/socket';

@@ -5,7 +5,7 @@ import type { Browser, Page } from 'playwright-core';
 import { startTestServer, type TestServer } from '../support/server';
 import { signIn } from '../support/sign-in';
 import { loadMe } from '../../server/auth/guards';
-import { submitPreAlert } from '../../server/services/cases/cases';
+import { submitPreAlert } from '../../server/services/cases/commands';
 import { OUTCOME_COLUMN_NAMES } from '../../shared/schemas/quality';
 import { EXAMPLE_POLICY } from '../../shared/triage/policy';
 import { collectPageErrors, describeInBrowser, expectAccessible, launchBrowser, newSignedInPage, screenshot } from './support/browser';

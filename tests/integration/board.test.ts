@@ -5,7 +5,7 @@ import type { CaseSummary } from '../../shared/schemas/cases';
 import type { BoardSnapshot } from '../../shared/schemas/board';
 import { hashPassword } from '../../server/auth/passwords';
 import { verifyAuditChain } from '../../server/services/audit/audit';
-import { listCaseSummaries, listCaseSummariesJson, primeCaseLists } from '../../server/services/cases/cases';
+import { listCaseSummaries, listCaseSummariesJson, primeCaseLists } from '../../server/services/cases/summary';
 import { OPEN_STATES } from '../../shared/schemas/cases';
 import { startTestServer, type TestServer } from '../support/server';
 import { signIn, type SignedInClient } from '../support/sign-in';

@@ -2,7 +2,7 @@ import { randomUUID } from 'node:crypto';
 import { afterAll, beforeAll, expect, it } from 'vitest';
 import type { CaseSummary } from '../../shared/schemas/cases';
 import { OPEN_STATES } from '../../shared/schemas/cases';
-import { listCaseSummariesPage } from '../../server/services/cases/cases';
+import { listCaseSummariesPage } from '../../server/services/cases/summary';
 import { startTestServer, type TestServer } from '../support/server';
 import { signIn } from '../support/sign-in';
 import { command, connectAs, type TestSocket } from '../support/socket';

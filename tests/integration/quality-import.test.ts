@@ -6,7 +6,7 @@ import { loadMe } from '../../server/auth/guards';
 import { createDb } from '../../server/db';
 import { importOutcomes } from '../../server/services/outcomes/import';
 import { verifyAuditChain } from '../../server/services/audit/audit';
-import { submitPreAlert } from '../../server/services/cases/cases';
+import { submitPreAlert } from '../../server/services/cases/commands';
 import { OUTCOME_COLUMN_NAMES, type ImportPreview } from '../../shared/schemas/quality';
 
 // The registry outcome import: every row checked and every problem named (row, column, what)

@@ -3,7 +3,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { startTestServer, type TestServer } from '../support/server';
 import { browserlessClient, signIn, type SignedInClient } from '../support/sign-in';
 import { loadMe } from '../../server/auth/guards';
-import { submitPreAlert } from '../../server/services/cases/cases';
+import { submitPreAlert } from '../../server/services/cases/commands';
 import { evaluationInputRow } from '../../server/services/cases/evaluation-input';
 import { up as backfillEvaluationInputs } from '../../migrations/20261205010001_case_evaluation_inputs_backfill';
 import type { Drilldown, QualityReport, WhatIfResult } from '../../shared/schemas/quality';

@@ -1,5 +1,5 @@
 import { io as connect, type Socket } from 'socket.io-client';
-import type { ClientToServerEvents, ServerToClientEvents } from '../../shared/realtime/events';
+import type { AckResponse, ClientToServerEvents, ServerToClientEvents } from '../../shared/realtime/events';
 import type { SignedInClient } from './sign-in';
 
 export type TestSocket = Socket<ServerToClientEvents, ClientToServerEvents>;
@@ -20,7 +20,7 @@ export async function connectAs(baseUrl: string, client: SignedInClient | null):
 }
 
 /** Emits a command and waits for its acknowledgement. */
-export function command<T = unknown>(socket: TestSocket, event: string, payload: unknown): Promise<{ ok: true; data: T } | { ok: false; error: { code: string; message: string; field?: string } }> {
+export function command<T = unknown>(socket: TestSocket, event: string, payload: unknown): Promise<AckResponse<T>> {
   return (socket as unknown as { timeout(ms: number): { emitWithAck(event: string, payload: unknown): Promise<never> } }).timeout(5000).emitWithAck(event, payload);
 }
 

@@ -1,6 +1,7 @@
 import { createHash, createHmac } from 'node:crypto';
 import type { Knex } from 'knex';
 import { auditKeyId } from '../../audit-key';
+import type { CaseEventDataOf, CaseEventKind } from '../../../shared/schemas/case-events';
 
 export interface Actor { id: number | null; role: string | null }
 export const systemActor: Actor = { id: null, role: 'system' };
@@ -201,19 +202,20 @@ async function walkChain(db: Knex): Promise<ChainCheck> {
   }
 }
 
-export interface CaseEvent {
+/** One step on a case: its kind decides what `data` records (shared/schemas/case-events.ts). */
+export interface CaseEvent<K extends CaseEventKind = CaseEventKind> {
   caseId: number;
-  kind: string;
+  kind: K;
   actor: Actor;
   at: number;
-  data?: unknown;
+  data: CaseEventDataOf[K];
   before?: unknown;
   after?: unknown;
   policy?: { id: string; version: number } | null;
 }
 
 /** One step on a case: the case's own timeline row and its audit row, in the caller's transaction. */
-export async function recordCaseEvent(db: Knex, event: CaseEvent): Promise<void> {
+export async function recordCaseEvent<K extends CaseEventKind>(db: Knex, event: CaseEvent<K>): Promise<void> {
   await db('case_events').insert({
     case_id: event.caseId,
     kind: event.kind,

@@ -14,14 +14,17 @@ import {
   BOARD_CURSOR,
 } from '../../../shared/schemas/board';
 import { OPEN_STATES, type CaseSummary } from '../../../shared/schemas/cases';
+import type { CaseEventDataOf, CaseEventKind } from '../../../shared/schemas/case-events';
 import type { CaseChange } from '../../../shared/realtime/events';
 import { EXAMPLE_POLICY, LEVEL_RANK, Policy } from '../../../shared/triage/policy';
 import { assertHospital, hospitalIdsOf } from '../../auth/guards';
 import type { Clock } from '../../deps';
-import { AppError, conflict, forbidden, invalid, parseOr400 } from '../../errors';
+import { AppError, CaseRefusal, conflict, forbidden, invalid, parseOr400 } from '../../errors';
 import type { Mailer } from '../../mail';
 import { GENESIS_HASH, newestAuditRow, recordCaseEvent, type Actor } from '../audit/audit';
-import { caseSummary, listCaseSummariesJson, listCaseSummariesPage, loadCaseRow, type CaseActor } from '../cases/cases';
+import type { CaseActor } from '../cases/commands';
+import { loadCaseRow } from '../cases/queries';
+import { caseSummary, listCaseSummariesJson, listCaseSummariesPage } from '../cases/summary';
 import { casesInBay } from './bays';
 import { composePage, hospitalClock, notificationList } from './paging';
 import { policyInForce } from '../policies/policies';
@@ -30,12 +33,6 @@ import { getSetting } from '../people/settings';
 
 type CaseRow = Awaited<ReturnType<typeof loadCaseRow>>;
 
-/** An action refused after the case was read: the body carries the case as it stands, so the loser's board catches up. */
-export class CaseActionError extends AppError {
-  constructor(status: number, code: string, message: string, readonly summary: CaseSummary) {
-    super(status, code, message);
-  }
-}
 
 export interface BoardOutcome { summary: CaseSummary; change: CaseChange }
 
@@ -146,17 +143,20 @@ async function staleMessage(db: Knex, row: CaseRow, action: BoardAction): Promis
   return `The case changed first (${what}). Your board now shows it as it stands; look again before acting.`;
 }
 
+/** An action refused after the case was read: the answer carries the case as it stands, so the loser's board catches up. */
 async function refuse(db: Knex, caseId: number, status: number, code: string, message: string): Promise<never> {
-  throw new CaseActionError(status, code, message, await caseSummary(db, caseId));
+  throw new CaseRefusal(status, code, message, await caseSummary(db, caseId));
 }
 
-interface Plan {
+/** The change an action makes, and what its case event records. */
+interface Plan<K extends CaseEventKind> {
   update: Record<string, unknown>;
-  data: Record<string, unknown>;
+  data: CaseEventDataOf[K];
   before?: Record<string, unknown>;
 }
 
-type Planner<A extends BoardAction> = (row: CaseRow, body: BoardActionBody[A], ctx: { at: number; db: Knex; actor: CaseActor }) => Promise<Plan> | Plan;
+type ActionPlan<A extends BoardAction> = Plan<(typeof ACTION_EVENT)[A]>;
+type Planner<A extends BoardAction> = (row: CaseRow, body: BoardActionBody[A], ctx: { at: number; db: Knex; actor: CaseActor }) => Promise<ActionPlan<A>> | ActionPlan<A>;
 
 function recordedTime(at: number | undefined, now: number, earliest: number, earliestWhat: string): number {
   const when = at ?? now;
@@ -246,7 +246,7 @@ async function openCase(db: Knex, actor: CaseActor, caseId: number, action: Boar
 }
 
 /** Writes the change only if nobody changed the case since it was read: the first of two nurses wins. */
-async function commit(db: Knex, actor: CaseActor, row: CaseRow, action: BoardAction, at: number, plan: Plan, kind = ACTION_EVENT[action]): Promise<void> {
+async function commit<K extends CaseEventKind>(db: Knex, actor: CaseActor, row: CaseRow, action: BoardAction, at: number, kind: K, plan: Plan<K>): Promise<void> {
   const won = await db.transaction(async (trx) => {
     const changed = await trx('cases').where({ id: row.id, row_version: row.row_version }).update({ ...plan.update, updated_at: at, row_version: row.row_version + 1 });
     if (!changed) return false;
@@ -271,15 +271,15 @@ export async function actOnCase(deps: BoardDeps, actor: CaseActor, caseId: numbe
   const at = clock.now();
   if (action === 'page') return pageTeam(deps, actor, row, at);
   const planner = planners[action] as Planner<typeof action>;
-  let plan: Plan;
+  let plan: ActionPlan<typeof action>;
   try {
-    plan = await planner(row, body as never, { at, db, actor });
+    plan = await planner(row, body, { at, db, actor });
   } catch (err) {
     // A state rule (409) still tells the board how the case stands; a 400 leaves it alone.
-    if (err instanceof AppError && err.status === 409 && !(err instanceof CaseActionError)) await refuse(db, row.id, 409, err.code, err.message);
+    if (err instanceof AppError && err.status === 409 && !(err instanceof CaseRefusal)) await refuse(db, row.id, 409, err.code, err.message);
     throw err;
   }
-  await commit(db, actor, row, action, at, plan);
+  await commit(db, actor, row, action, at, ACTION_EVENT[action], plan);
   return { summary: await caseSummary(db, row.id), change: { kind: ACTION_EVENT[action], at, by: actor.me.user.name } };
 }
 
@@ -293,14 +293,14 @@ async function pageTeam(deps: BoardDeps, actor: CaseActor, row: CaseRow, at: num
   const level = row.decided_level;
   const levels = await levelsOfCase(db, row);
   if (row.acknowledged_at == null) await refuse(db, row.id, 409, 'conflict', 'Acknowledge the case first.');
-  if (!level) await refuse(db, row.id, 409, 'conflict', 'Decide the level before paging the team.');
-  if (level === 'none') await refuse(db, row.id, 409, 'conflict', `${levelName(levels, 'none')} was decided, so there is no team to page.`);
-  const recipients = await notificationList(db, row.hospital_id, level as 'full' | 'limited' | 'consult');
-  if (!recipients.length && !(await hasTierOneEntries(db, row.hospital_id, level!))) await refuse(db, row.id, 409, 'no_recipients', `The ${levelName(levels, level)} list has no addresses. An administrator adds them in People & places.`);
+  if (!level) return refuse(db, row.id, 409, 'conflict', 'Decide the level before paging the team.');
+  if (level === 'none') return refuse(db, row.id, 409, 'conflict', `${levelName(levels, 'none')} was decided, so there is no team to page.`);
+  const recipients = await notificationList(db, row.hospital_id, level);
+  if (!recipients.length && !(await hasTierOneEntries(db, row.hospital_id, level))) await refuse(db, row.id, 409, 'no_recipients', `The ${levelName(levels, level)} list has no addresses. An administrator adds them in People & places.`);
 
   const before = await caseSummary(db, row.id);
-  const mail = composePage(before, level!, levels, at, await hospitalClock(db, row.hospital_id));
-  await commit(db, actor, row, 'page', at, {
+  const mail = composePage(before, level, levels, at, await hospitalClock(db, row.hospital_id));
+  await commit(db, actor, row, 'page', at, 'paged', {
     update: { paged_at: at },
     data: { level, list: level, recipients, subject: mail.subject, bay: row.bay, etaAt: row.eta_at == null ? null : Number(row.eta_at) },
     before: { pagedAt: row.paged_at == null ? null : Number(row.paged_at) },

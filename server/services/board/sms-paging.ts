@@ -7,6 +7,7 @@ import { OPEN_STATES, type CaseSummary } from '../../../shared/schemas/cases';
 import { surfaceOptions } from '../../../shared/schemas/clinical';
 import { PAGED_LEVELS, PagingPlan, type PagedLevel, type PagingContact, type PagingEntry, type PagingStatus, type ReplyAnswer } from '../../../shared/schemas/paging';
 import { roomOfHospital } from '../../../shared/realtime/events';
+import type { LevelId } from '../../../shared/triage/policy';
 import { assertHospital, hospitalIdsOf } from '../../auth/guards';
 import type { Clock } from '../../deps';
 import { forbidden, invalid, notFound } from '../../errors';
@@ -15,7 +16,8 @@ import type { RealtimeServer } from '../../realtime';
 import type { SmsSender } from '../../sms';
 import { appendAudit, recordCaseEvent, systemActor, type Actor } from '../audit/audit';
 import { levelsOfCase } from './board';
-import { caseSummary, loadCaseRow } from '../cases/cases';
+import { loadCaseRow } from '../cases/queries';
+import { caseSummary } from '../cases/summary';
 import { composePage, notificationList } from './paging';
 import { getSetting, setSetting } from '../people/settings';
 
@@ -107,13 +109,13 @@ export async function hasTierOneEntries(db: Knex, hospitalId: number, level: str
 const clockTime = (at: number) => dayjs(at).format('HH:mm');
 
 /** Short, for a lock screen: level, age and sex, mechanism, ETA, bay and case number; never a name. */
-export function composeSms(summary: CaseSummary, level: string, levels: readonly BoardLevel[], now: number, round: { tier: number; round: number } = { tier: 1, round: 1 }): string {
+export function composeSms(summary: CaseSummary, level: LevelId, levels: readonly BoardLevel[], now: number, round: { tier: number; round: number } = { tier: 1, round: 1 }): string {
   const input = summary.latest.input;
   const surface = surfaceOptions.find((o) => o.id === input.fall.surface);
   const mechanism = `fall ${formatFallHeight(input.fall.heightM, summary.hospital.heightUnit)}${surface && surface.id !== 'unknown' ? ` onto ${surface.label.toLowerCase()}` : ''}`;
   const eta = summary.arrivedAt ? `arrived ${clockTime(summary.arrivedAt)}` : summary.etaAt == null ? 'ETA not given' : `ETA ${clockTime(summary.etaAt)} (${Math.max(0, Math.round((summary.etaAt - now) / 60_000))} min)`;
   const prefix = round.tier > 1 ? `ESCALATED (tier ${round.tier}${round.round > 1 ? `, repeat ${round.round}` : ''}) ` : round.round > 1 ? `REPEAT ${round.round} ` : '';
-  return `${prefix}${levelName(levels, level as never).toUpperCase()} ${summary.hospital.name}: ${formatAgeSex(input.ageYears, input.sex)}, ${mechanism}, ${eta}, ${summary.bay ?? 'bay not yet assigned'}. Case ${summary.caseNumber}. Reply 1 on my way, 2 can't come.`;
+  return `${prefix}${levelName(levels, level).toUpperCase()} ${summary.hospital.name}: ${formatAgeSex(input.ageYears, input.sex)}, ${mechanism}, ${eta}, ${summary.bay ?? 'bay not yet assigned'}. Case ${summary.caseNumber}. Reply 1 on my way, 2 can't come.`;
 }
 
 // ---- Sending a round

@@ -1,7 +1,7 @@
 import type { Knex } from 'knex';
 import type { Me } from '../../../shared/roles';
 import type { CrewDestinations } from '../../../shared/schemas/crew';
-import type { CaseEventView, CaseSummary } from '../../../shared/schemas/cases';
+import type { CaseEventView, CaseSummary, CrewCaseEventView } from '../../../shared/schemas/cases';
 import { agencyIdsOf, hospitalIdsOf } from '../../auth/guards';
 import { forbidden } from '../../errors';
 import { policyInForce } from '../policies/policies';
@@ -57,7 +57,7 @@ export function crewView(summary: CaseSummary): CaseSummary {
 const CREW_EVENT_KINDS = new Set(['received', 'revised', 'cancelled', 'redirected', 'acknowledged', 'level-decided', 'bay-assigned', 'arrived', 'team-at-bedside', 'closed']);
 
 /** The crew's timeline of a case: its steps, who took them and when, without what the hospital wrote. */
-export function crewEvents(events: CaseEventView[]): CaseEventView[] {
+export function crewEvents(events: CaseEventView[]): CrewCaseEventView[] {
   return events.filter((event) => CREW_EVENT_KINDS.has(event.kind)).map((event) => ({ ...event, data: null }));
 }
 

@@ -3,7 +3,8 @@ import type { Knex } from 'knex';
 import { PreAlert, PreAlertUpdate } from '../../../shared/schemas/cases';
 import { loadMe } from '../../auth/guards';
 import type { Clock } from '../../deps';
-import { caseSummary, reviseCase, submitPreAlert } from './cases';
+import { reviseCase, submitPreAlert } from './commands';
+import { caseSummary } from './summary';
 
 // Patients for the rehearsal only [ours]; they never reach a board or the database.
 const REHEARSED = [

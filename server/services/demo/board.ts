@@ -8,7 +8,7 @@ import { LEVEL_RANK } from '../../../shared/triage/policy';
 import type { Clock } from '../../deps';
 import type { Mailer } from '../../mail';
 import { actOnCase } from '../board/board';
-import { reviseCase, submitPreAlert, type CaseActor } from '../cases/cases';
+import { reviseCase, submitPreAlert, type CaseActor } from '../cases/commands';
 import type { DemoIds } from './ids';
 
 // Demo cases, made through the same services a crew and a nurse use, each step at its own

@@ -4,7 +4,7 @@ import type { Clock } from '../../deps';
 import type { Mailer } from '../../mail';
 import { recordCaseEvent, systemActor } from '../audit/audit';
 import { levelsOfCase } from '../board/board';
-import { caseSummary } from '../cases/cases';
+import { caseSummary } from '../cases/summary';
 import type { Job } from './job';
 import { composeEscalation, composeEscalationDigest, hospitalClock, notificationList, type NotificationList } from '../board/paging';
 import { getSetting } from '../people/settings';

@@ -1,4 +1,5 @@
 import type { Knex } from 'knex';
+import { LRUCache } from 'lru-cache';
 import type { Me, Role } from '../../../shared/roles';
 import type { ApproveVersion, CreateDraft, LooseningWarning, PolicyStatus, PolicyVersionSummary, PublishVersion, SaveDraft } from '../../../shared/schemas/policies';
 import { EXAMPLE_POLICY, Policy, validatePolicy } from '../../../shared/triage/policy';
@@ -10,8 +11,9 @@ import { AppError, conflict, forbidden, invalid, notFound } from '../../errors';
 import { appendAudit, type Actor } from '../audit/audit';
 
 // The engine compiles a policy once per object; keyed by the stored text, the same version
-// stays the same object across evaluations.
-const publishedCache = new Map<string, Policy>();
+// stays the same object across evaluations. A region has a few dozen hospitals, each with one
+// version in force and perhaps one waiting for its date: 200 leaves room for all of them [ours].
+const publishedCache = new LRUCache<string, Policy>({ max: 200 });
 
 /**
  * The policy that decides a new evaluation at this hospital now: its latest published version

@@ -11,7 +11,8 @@ import { EXAMPLE_POLICY, LEVEL_IDS, LEVEL_RANK, type LevelId, type Policy } from
 import { assertHospital, hasRole, hospitalIdsOf } from '../../auth/guards';
 import { conflict, forbidden, notFound } from '../../errors';
 import { recordCaseEvent, type Actor } from '../audit/audit';
-import { caseEvents, caseRevisions, caseSummary } from '../cases/cases';
+import { caseEvents, caseRevisions } from '../cases/queries';
+import { caseSummary } from '../cases/summary';
 import { policyInForce } from '../policies/policies';
 import { getSetting } from '../people/settings';
 

@@ -3,7 +3,8 @@ import type { Knex } from 'knex';
 import { createDb, migrate } from '../../../server/db';
 import { seedDemo } from '../../../server/services/demo/seed';
 import { rehearsePreAlerts } from '../../../server/services/cases/rehearsal';
-import { listCaseSummaries, submitPreAlert } from '../../../server/services/cases/cases';
+import { submitPreAlert } from '../../../server/services/cases/commands';
+import { listCaseSummaries } from '../../../server/services/cases/summary';
 import { verifyAuditChain } from '../../../server/services/audit/audit';
 import { loadMe } from '../../../server/auth/guards';
 
