@@ -54,7 +54,7 @@ const ms = (us: number) => Math.round(us / 100) / 10;
  */
 export async function traceMainThread(cdp: CDPSession, open: () => Promise<number>): Promise<MainThreadSummary> {
   const events: TraceEvent[] = [];
-  cdp.on('Tracing.dataCollected', (e: { value: TraceEvent[] }) => events.push(...e.value));
+  cdp.on('Tracing.dataCollected', (e) => events.push(...(e.value as unknown as TraceEvent[])));
   const complete = new Promise((resolve) => cdp.once('Tracing.tracingComplete', resolve));
   await cdp.send('Tracing.start', { categories: 'devtools.timeline,disabled-by-default-devtools.timeline,loading,blink.user_timing,v8.execute', transferMode: 'ReportEvents' });
   const moment = await open();
