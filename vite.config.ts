@@ -5,6 +5,8 @@ import { defineConfig, type Plugin } from 'vitest/config';
 import vue from '@vitejs/plugin-vue';
 import { VitePWA } from 'vite-plugin-pwa';
 import { compression } from 'vite-plugin-compression2';
+import { plumblineTheme } from './src/theme/plumbline-preset.ts';
+import { primevueThemeCss } from './src/theme/theme-css.ts';
 import { BUILD_MANIFEST, CREW_VIEW, firstLoadFiles, type BuildManifest } from './server/cli/client-build.ts';
 
 const require = createRequire(import.meta.url);
@@ -106,6 +108,7 @@ export default defineConfig({
   publicDir: 'src/public',
   plugins: [
     vue(),
+    primevueThemeCss(plumblineTheme),
     usedIcons(),
     preloadCrewScreen(),
     VitePWA({

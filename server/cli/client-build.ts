@@ -55,11 +55,18 @@ export const BUILD_MANIFEST = 'dist/client/.vite/manifest.json';
 export const CREW_VIEW = 'src/views/NewPreAlertView.vue';
 
 /**
+ * What every start fetches as soon as the entry has run, though the entry imports it
+ * dynamically: the service worker's registration helper (vite-plugin-pwa's register code loads
+ * workbox-window). It belongs to every first load.
+ */
+const AT_EVERY_START = /(^|\/)node_modules\/workbox-window\//;
+
+/**
  * The files a first load of a screen fetches: the entry, the screen's chunk, everything they
- * import statically, their styles and the fonts those name. Dynamic imports (other screens) are
- * left out, since the browser fetches them only when the person opens those screens; with
- * `later`, what the screen itself fetches on first use (its dialogs, the overlays) is counted in,
- * which is what must be kept for the screen to work offline.
+ * import statically, what the entry loads at every start, their styles and the fonts those name.
+ * Other dynamic imports (other screens) are left out, since the browser fetches them only when
+ * the person opens those screens; with `later`, what the screen itself fetches on first use (its
+ * dialogs, the overlays) is counted in, which is what must be kept for the screen to work offline.
  */
 export function firstLoadFiles(manifest: BuildManifest, view: string, opts: { later?: boolean } = {}): { scripts: string[]; styles: string[]; assets: string[] } {
   const entry = Object.entries(manifest).find(([, c]) => c.isEntry)?.[0];
@@ -78,6 +85,7 @@ export function firstLoadFiles(manifest: BuildManifest, view: string, opts: { la
     if (opts.later) for (const imported of chunk.dynamicImports ?? []) if (!imported.startsWith('src/views/')) visit(imported);
   };
   visit(entry);
+  for (const imported of manifest[entry].dynamicImports ?? []) if (AT_EVERY_START.test(imported)) visit(imported);
   visit(view);
   return { scripts: [...scripts], styles: [...styles], assets: [...assets] };
 }

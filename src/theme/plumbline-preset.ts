@@ -1,36 +1,10 @@
 import { definePreset } from '@primeuix/themes';
-import base from '@primeuix/themes/aura/base';
-import css from '@primeuix/themes/aura/css';
-import badge from '@primeuix/themes/aura/badge';
-import button from '@primeuix/themes/aura/button';
-import checkbox from '@primeuix/themes/aura/checkbox';
-import chip from '@primeuix/themes/aura/chip';
-import confirmdialog from '@primeuix/themes/aura/confirmdialog';
-import datatable from '@primeuix/themes/aura/datatable';
-import dialog from '@primeuix/themes/aura/dialog';
-import iconfield from '@primeuix/themes/aura/iconfield';
-import inputnumber from '@primeuix/themes/aura/inputnumber';
-import inputtext from '@primeuix/themes/aura/inputtext';
-import message from '@primeuix/themes/aura/message';
-import multiselect from '@primeuix/themes/aura/multiselect';
-import paginator from '@primeuix/themes/aura/paginator';
-import ripple from '@primeuix/themes/aura/ripple';
-import select from '@primeuix/themes/aura/select';
-import tabs from '@primeuix/themes/aura/tabs';
-import tag from '@primeuix/themes/aura/tag';
-import textarea from '@primeuix/themes/aura/textarea';
-import toast from '@primeuix/themes/aura/toast';
-import virtualscroller from '@primeuix/themes/aura/virtualscroller';
+import Aura from '@primeuix/themes/aura';
+import type { StyledTheme } from './theme-css';
 
-// Aura's tokens for the PrimeVue components Plumbline uses (and those they are built from), not
-// for all ninety: every screen loads the theme, the crew's phone on a weak link included.
-// A component added to a screen needs its line here, or it shows unstyled.
-const Aura = {
-  ...base,
-  // The module's declaration names a `css` export; what it really exports is the string as default.
-  css: css as unknown as string,
-  components: { badge, button, checkbox, chip, confirmdialog, datatable, dialog, iconfield, inputnumber, inputtext, message, multiselect, paginator, ripple, select, tabs, tag, textarea, toast, virtualscroller },
-};
+// The preset is read at build only (src/theme/theme-css.ts makes its CSS): the page carries
+// neither Aura's tokens nor ours, so starting from the whole of Aura costs the phone nothing,
+// and a component added to a screen gets its style with no list to keep here.
 
 // Aura supplies the component structure; everything a person sees as colour, type size and
 // shape comes from here. Chosen for a dim room late in a night shift: a deep ink blue for
@@ -125,3 +99,16 @@ export const plumblinePreset = definePreset(Aura, {
     },
   },
 });
+
+/** The theme PrimeVue's CSS is made from at build (vite.config.ts). */
+export const plumblineTheme: StyledTheme = {
+  preset: plumblinePreset,
+  options: {
+    // Dark mode is opt-in by class, never by the operating system: a wall screen or a shared
+    // desk PC must not change look because of someone else's setting.
+    darkModeSelector: '.plumbline-dark',
+    // The element defaults in src/assets/base.css (layer base) come before PrimeVue's rules, so
+    // they never restyle a component.
+    cssLayer: { name: 'primevue', order: 'base, primevue' },
+  },
+};
