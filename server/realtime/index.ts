@@ -1,33 +1,19 @@
 import type { Server as HttpServer, IncomingMessage } from 'node:http';
-import { Server, type Socket } from 'socket.io';
+import { Server } from 'socket.io';
 import type { RequestHandler } from 'express';
 import type { Knex } from 'knex';
 import type { Logger } from 'pino';
 import type { Me } from '../../shared/roles';
-import { roomOfAgency, roomOfHospital, roomOfUser, type ClientToServerEvents, type ServerToClientEvents } from '../../shared/realtime/events';
+import type { ClientToServerEvents, ServerToClientEvents } from '../../shared/realtime/events';
 import { loadMe } from '../auth/guards';
 import { AppError, CaseRefusal } from '../errors';
 import { crewView, readsAsCrew } from '../services/cases/crew';
 import { RateLimited } from '../limits';
 import type { CatchUpLane } from './catch-up';
 import { sweepEndedSessions } from './session-follow';
+import { roomsOf, type RealtimeServer, type RealtimeSocket, type SocketFeature } from './socket-types';
 
-export interface SocketData {
-  me: Me;
-  /** The session the socket was opened with: it ends with it (session-follow.ts). */
-  sid?: string;
-  /** Roles an outside issuer claimed at sign-in, kept so a re-read of the person keeps them. */
-  claimedRoles?: Me['roles'];
-}
-export type RealtimeServer = Server<ClientToServerEvents, ServerToClientEvents, Record<string, never>, SocketData>;
-export type RealtimeSocket = Socket<ClientToServerEvents, ServerToClientEvents, Record<string, never>, SocketData>;
-
-/** A feature adds its socket events through one of these, given each authenticated connection. */
-export type SocketFeature = (io: RealtimeServer, socket: RealtimeSocket) => void;
-
-export function roomsOf(me: Me): string[] {
-  return [roomOfUser(me.user.id), ...me.memberships.map((m) => (m.kind === 'hospital' ? roomOfHospital(m.id) : roomOfAgency(m.id)))];
-}
+export { roomsOf, type RealtimeServer, type RealtimeSocket, type SocketData, type SocketFeature } from './socket-types';
 
 /**
  * Only allow-listed error details reach a client; anything else is logged and answered generically.

@@ -1,7 +1,7 @@
 import type { Knex } from 'knex';
 import type { Logger } from 'pino';
 import { findMe } from '../services/people/users';
-import { roomsOf, type RealtimeServer, type RealtimeSocket } from '.';
+import { roomsOf, type RealtimeServer, type RealtimeSocket } from './socket-types';
 
 // A socket follows the session it was opened with. Its person is read at connection, and read
 // again whenever an administrator changes their roles, places or password: the socket then leaves

@@ -26,9 +26,8 @@ import type { CaseActor } from '../cases/commands';
 import { loadCaseRow } from '../cases/queries';
 import { caseSummary, listCaseSummariesJson, listCaseSummariesPage } from '../cases/summary';
 import { casesInBay } from './bays';
-import { composePage, hospitalClock, notificationList } from './paging';
+import { composePage, hasTierOneEntries, hospitalClock, notificationList } from './paging';
 import { policyInForce } from '../policies/policies';
-import { hasTierOneEntries } from './sms-paging';
 import { getSetting } from '../people/settings';
 
 type CaseRow = Awaited<ReturnType<typeof loadCaseRow>>;

@@ -142,3 +142,8 @@ export function composeEscalationDigest(hospitalName: string, notices: readonly 
     ].join('\n'),
   };
 }
+
+/** Whether tier 1 of a level names anyone besides the level's own e-mail list. */
+export async function hasTierOneEntries(db: Knex, hospitalId: number, level: string): Promise<boolean> {
+  return Boolean(await db('paging_entries').where({ hospital_id: hospitalId, level, tier: 1 }).first('id'));
+}

@@ -99,11 +99,6 @@ export async function savePagingPlan(db: Knex, me: Me, hospitalId: number, plan:
   return getPagingPlan(db, hospitalId);
 }
 
-/** Whether tier 1 of a level names anyone besides the level's own e-mail list. */
-export async function hasTierOneEntries(db: Knex, hospitalId: number, level: string): Promise<boolean> {
-  return Boolean(await db('paging_entries').where({ hospital_id: hospitalId, level, tier: 1 }).first('id'));
-}
-
 // ---- What a page says by SMS
 
 const clockTime = (at: number) => dayjs(at).format('HH:mm');

@@ -1,0 +1,23 @@
+import type { Server, Socket } from 'socket.io';
+import type { Me } from '../../shared/roles';
+import { roomOfAgency, roomOfHospital, roomOfUser, type ClientToServerEvents, type ServerToClientEvents } from '../../shared/realtime/events';
+
+// The socket server's types and a person's rooms, apart from the server's set-up (index.ts) so
+// that the features it starts can import them without importing it back.
+
+export interface SocketData {
+  me: Me;
+  /** The session the socket was opened with: it ends with it (session-follow.ts). */
+  sid?: string;
+  /** Roles an outside issuer claimed at sign-in, kept so a re-read of the person keeps them. */
+  claimedRoles?: Me['roles'];
+}
+export type RealtimeServer = Server<ClientToServerEvents, ServerToClientEvents, Record<string, never>, SocketData>;
+export type RealtimeSocket = Socket<ClientToServerEvents, ServerToClientEvents, Record<string, never>, SocketData>;
+
+/** A feature adds its socket events through one of these, given each authenticated connection. */
+export type SocketFeature = (io: RealtimeServer, socket: RealtimeSocket) => void;
+
+export function roomsOf(me: Me): string[] {
+  return [roomOfUser(me.user.id), ...me.memberships.map((m) => (m.kind === 'hospital' ? roomOfHospital(m.id) : roomOfAgency(m.id)))];
+}
