@@ -1,5 +1,5 @@
 import type { Server as HttpServer, IncomingMessage } from 'node:http';
-import { Server, type Socket } from 'socket.io';
+import { Server, type ServerOptions, type Socket } from 'socket.io';
 import type { RequestHandler } from 'express';
 import type { Knex } from 'knex';
 import type { Logger } from 'pino';
@@ -46,9 +46,12 @@ export function createRealtime(opts: {
   publicOrigin: string;
   /** Sign-in checks of (re)connecting sockets wait here, so pre-alerts go first in a reconnect storm. */
   catchUp: CatchUpLane;
+  /** Carries broadcasts and recovery state between a region's processes (server/redis.ts); this process alone without. */
+  adapter?: ServerOptions['adapter'];
 }): RealtimeServer {
   const io: RealtimeServer = new Server(opts.httpServer, {
     serveClient: false,
+    ...(opts.adapter ? { adapter: opts.adapter } : {}),
     // A ping every 4 s, and a link that misses one for 4 s more is closed: both sides know within
     // 8 s that a crew's phone lost its signal (the defaults take up to 45 s).
     pingInterval: 4000,

@@ -1,0 +1,136 @@
+// Two server processes' worth of the product on one database and one Redis: what one process
+// does, the other's sockets hear, and a limit counts across both. Readiness names what fails.
+import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
+import { randomUUID } from 'node:crypto';
+import { mkdtempSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { CaseSummary } from '../../shared/schemas/cases';
+import { startTestServer, type TestServer } from '../support/server';
+import { signIn } from '../support/sign-in';
+import { command, connectAs, nextEvent, type TestSocket } from '../support/socket';
+import { redisUnavailable, testRedisPrefix, testRedisUrl } from '../support/redis';
+import { freePort } from '../bench/support/child-server';
+
+const unavailable = await redisUnavailable();
+if (unavailable) console.warn(`region.test.ts skipped: ${unavailable}`);
+
+// A fall over 10 ft is 2021 moderate risk [source: Newgard 2022, as in pre-alert.test.ts].
+const ladderFall = { ageYears: 41, sex: 'male', fall: { heightM: 3.5, surface: 'concrete' }, vitals: { sbp: 132, hr: 90 } };
+
+describe.skipIf(Boolean(unavailable))('several processes on one database and one Redis', () => {
+  const dataDir = mkdtempSync(join(tmpdir(), 'plumbline-region-'));
+  const prefix = testRedisPrefix();
+  // Both on the same SQLite file, as two processes of one region; three commands a minute per account.
+  const shared = { dataDir, redisUrl: testRedisUrl, redisPrefix: prefix, crewCommandLimits: { perAccountPerMinute: 3, perUnitPerMinute: 100 } };
+  let a: TestServer;
+  let b: TestServer;
+  const sockets: TestSocket[] = [];
+  let general: number;
+
+  beforeAll(async () => {
+    a = await startTestServer(shared);
+    b = await startTestServer(shared);
+    general = (await a.db('hospitals').where({ name: 'Alderwick General Hospital' }).first('id')).id;
+  }, 60_000);
+  afterAll(async () => {
+    for (const socket of sockets) socket.close();
+    await a?.close();
+    await b?.close();
+    rmSync(dataDir, { recursive: true, force: true });
+  });
+
+  it('reports ready with the database and Redis answering', async () => {
+    const res = await fetch(`${a.url}/api/health/ready`);
+    expect(res.status).toBe(200);
+    expect(await res.json()).toEqual({ ready: true, database: 'ok', redis: 'ok' });
+  });
+
+  it('a board on one process hears a pre-alert sent to the other, once', async () => {
+    const crew = await connectAs(a.url, await signIn(a.url, 'paramedic@plumbline.test'));
+    const board = await connectAs(b.url, await signIn(b.url, 'nurse@plumbline.test'));
+    sockets.push(crew, board);
+    const clientId = randomUUID();
+    const heard: CaseSummary[] = [];
+    board.on('case:submitted', (summary) => void (summary.clientId === clientId && heard.push(summary)));
+    const seen = nextEvent<[CaseSummary]>(board, 'case:submitted', 5000, (s) => s.clientId === clientId);
+    const answer = await command<{ caseId: number }>(crew, 'case:submit', { clientId, hospitalId: general, etaMinutes: 12, clinical: ladderFall });
+    expect(answer.ok).toBe(true);
+    const [summary] = await seen;
+    expect(summary.id).toBe(answer.ok && answer.data.caseId);
+    await new Promise((r) => setTimeout(r, 500));
+    expect(heard).toHaveLength(1);
+  });
+
+  it("counts one account's pre-alerts across both processes: the fourth in a minute is refused on either", async () => {
+    const medic = await signIn(a.url, 'paramedic@plumbline.test');
+    const onA = await connectAs(a.url, medic);
+    const onB = await connectAs(b.url, await signIn(b.url, 'paramedic@plumbline.test'));
+    sockets.push(onA, onB);
+    // The test before sent one from this account.
+    const send = (socket: TestSocket) => command(socket, 'case:submit', { clientId: randomUUID(), hospitalId: general, etaMinutes: 9, clinical: ladderFall });
+    expect((await send(onA)).ok).toBe(true);
+    expect((await send(onB)).ok).toBe(true);
+    const refused = await send(onA);
+    expect(refused.ok).toBe(false);
+    expect(!refused.ok && refused.error.code).toBe('rate_limited');
+    const alsoRefused = await send(onB);
+    expect(!alsoRefused.ok && alsoRefused.error.code).toBe('rate_limited');
+  });
+});
+
+const redisBinary = spawnSync('redis-server', ['--version']).status === 0;
+describe.skipIf(!redisBinary)('readiness when Redis goes away', () => {
+  let redis: ChildProcess | null = null;
+  let port: number;
+  let server: TestServer;
+  const startRedis = async () => {
+    redis = spawn('redis-server', ['--port', String(port), '--bind', '127.0.0.1', '--save', '', '--appendonly', 'no'], { stdio: 'ignore' });
+    for (let i = 0; i < 50 && (await redisUnavailable(`redis://127.0.0.1:${port}`)); i++) await new Promise((r) => setTimeout(r, 100));
+  };
+  const stopRedis = async () => {
+    const proc = redis;
+    redis = null;
+    if (!proc || proc.exitCode !== null) return;
+    const gone = new Promise((r) => proc.once('exit', r));
+    proc.kill('SIGKILL');
+    await gone;
+  };
+  const ready = async () => {
+    const res = await fetch(`${server.url}/api/health/ready`);
+    return { status: res.status, body: await res.json() };
+  };
+
+  beforeAll(async () => {
+    port = await freePort();
+    await startRedis();
+    server = await startTestServer({ redisUrl: `redis://127.0.0.1:${port}`, redisPrefix: testRedisPrefix() });
+  }, 60_000);
+  afterAll(async () => {
+    await server?.close();
+    await stopRedis();
+  });
+
+  it('answers 503 naming Redis while it is away, still stores and acknowledges pre-alerts, and is ready again when it is back', async () => {
+    expect((await ready()).status).toBe(200);
+    await stopRedis();
+    let answer = await ready();
+    for (let i = 0; i < 20 && answer.status === 200; i++) answer = (await new Promise((r) => setTimeout(r, 100)), await ready());
+    expect(answer.status).toBe(503);
+    expect(answer.body).toMatchObject({ ready: false, database: 'ok', failed: ['redis'] });
+    expect(answer.body.redis).toMatch(/^failed: /);
+
+    // The rate limit counts in this process meanwhile; the pre-alert is not held up by the missing counter.
+    const crew = await connectAs(server.url, await signIn(server.url, 'paramedic@plumbline.test'));
+    const general = (await server.db('hospitals').where({ name: 'Alderwick General Hospital' }).first('id')).id;
+    const sent = await command(crew, 'case:submit', { clientId: randomUUID(), hospitalId: general, etaMinutes: 10, clinical: ladderFall });
+    crew.close();
+    expect(sent.ok).toBe(true);
+
+    await startRedis();
+    answer = await ready();
+    for (let i = 0; i < 50 && answer.status !== 200; i++) answer = (await new Promise((r) => setTimeout(r, 100)), await ready());
+    expect(answer).toEqual({ status: 200, body: { ready: true, database: 'ok', redis: 'ok' } });
+  }, 30_000);
+});
