@@ -11,7 +11,9 @@ import { startTestServer, type TestServer } from '../support/server';
 import { signIn } from '../support/sign-in';
 import { command, connectAs, nextEvent, type TestSocket } from '../support/socket';
 import { redisUnavailable, testRedisPrefix, testRedisUrl } from '../support/redis';
+import { io as connect } from 'socket.io-client';
 import { freePort } from '../bench/support/child-server';
+import { startRelay } from '../bench/support/relay';
 
 const unavailable = await redisUnavailable();
 if (unavailable) console.warn(`region.test.ts skipped: ${unavailable}`);
@@ -63,15 +65,49 @@ describe.skipIf(Boolean(unavailable))('several processes on one database and one
     expect(heard).toHaveLength(1);
   });
 
-  it("counts one account's pre-alerts across both processes: the fourth in a minute is refused on either", async () => {
+  it('a board cut off from one process recovers its missed pre-alert on the other (connection-state recovery across processes)', async () => {
+    // The balancer: the first connection to the first process, the next to the second.
+    const relay = await startRelay([a.port, b.port]);
+    try {
+      const nurse = await signIn(a.url, 'nurse@plumbline.test');
+      const board = connect(relay.url, { transports: ['websocket'], forceNew: true, reconnectionDelay: 100, reconnectionDelayMax: 200, extraHeaders: { cookie: await nurse.cookieHeader() } }) as TestSocket;
+      sockets.push(board);
+      await nextEvent(board, 'session:ready', 5000);
+      expect(relay.open().get(a.port)).toBe(1);
+      const crew = await connectAs(b.url, await signIn(b.url, 'paramedic@plumbline.test'));
+      sockets.push(crew);
+      // Recovery resumes from the last broadcast the board had: one arrives first, from the other process.
+      const firstId = randomUUID();
+      const heard = nextEvent<[CaseSummary]>(board, 'case:submitted', 5000, (s) => s.clientId === firstId);
+      expect((await command(crew, 'case:submit', { clientId: firstId, hospitalId: general, etaMinutes: 20, clinical: ladderFall })).ok).toBe(true);
+      await heard;
+      // The board's link drops (its process stays up, and keeps its session for recovery) ...
+      const away = new Promise<void>((resolve) => board.once('disconnect', () => resolve()));
+      (board.io as unknown as { engine: { close(): void } }).engine.close();
+      await away;
+      // ... a pre-alert is sent meanwhile on the other process ...
+      const clientId = randomUUID();
+      const missed = new Promise<CaseSummary>((resolve) => board.on('case:submitted', (summary) => summary.clientId === clientId && resolve(summary)));
+      const sent = await command<{ caseId: number }>(crew, 'case:submit', { clientId, hospitalId: general, etaMinutes: 14, clinical: ladderFall });
+      expect(sent.ok).toBe(true);
+      // ... and the board, reconnected through the relay to the second process, is handed it there.
+      const back = new Promise<void>((resolve) => board.once('connect', () => resolve()));
+      await back;
+      expect(relay.made().get(b.port)).toBe(1);
+      expect(board.recovered).toBe(true);
+      expect((await missed).id).toBe(sent.ok && sent.data.caseId);
+    } finally {
+      await relay.close();
+    }
+  });
+
+  it("counts one account's pre-alerts across both processes: the fourth in a minute is refused on either process", async () => {
     const medic = await signIn(a.url, 'paramedic@plumbline.test');
     const onA = await connectAs(a.url, medic);
     const onB = await connectAs(b.url, await signIn(b.url, 'paramedic@plumbline.test'));
     sockets.push(onA, onB);
-    // The test before sent one from this account.
+    // The tests before sent three from this account.
     const send = (socket: TestSocket) => command(socket, 'case:submit', { clientId: randomUUID(), hospitalId: general, etaMinutes: 9, clinical: ladderFall });
-    expect((await send(onA)).ok).toBe(true);
-    expect((await send(onB)).ok).toBe(true);
     const refused = await send(onA);
     expect(refused.ok).toBe(false);
     expect(!refused.ok && refused.error.code).toBe('rate_limited');
