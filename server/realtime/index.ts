@@ -9,7 +9,7 @@ import { loadMe } from '../auth/guards';
 import { AppError } from '../errors';
 import { RateLimited } from '../limits';
 import type { CatchUpLane } from './catch-up';
-import { sweepEndedSessions } from './session-follow';
+import { refreshSocketsOf, sweepEndedSessions } from './session-follow';
 
 export interface SocketData {
   me: Me;
@@ -18,8 +18,10 @@ export interface SocketData {
   /** Roles an outside issuer claimed at sign-in, kept so a re-read of the person keeps them. */
   claimedRoles?: Me['roles'];
 }
-export type RealtimeServer = Server<ClientToServerEvents, ServerToClientEvents, Record<string, never>, SocketData>;
-export type RealtimeSocket = Socket<ClientToServerEvents, ServerToClientEvents, Record<string, never>, SocketData>;
+/** Between the processes of a region (through the Redis adapter): a person's roles or places changed. */
+export interface InterServerEvents { 'person:changed': (userId: number) => void }
+export type RealtimeServer = Server<ClientToServerEvents, ServerToClientEvents, InterServerEvents, SocketData>;
+export type RealtimeSocket = Socket<ClientToServerEvents, ServerToClientEvents, InterServerEvents, SocketData>;
 
 /** A feature adds its socket events through one of these, given each authenticated connection. */
 export type SocketFeature = (io: RealtimeServer, socket: RealtimeSocket) => void;
@@ -79,6 +81,8 @@ export function createRealtime(opts: {
       next(new Error('unauthenticated'));
     }
   });
+  // Another process changed a person: their sockets here take the new roles and places too.
+  if (opts.adapter) io.on('person:changed', (userId) => void refreshSocketsOf(io, opts.db, userId).catch((err: unknown) => opts.logger.error({ err, userId }, 'sockets could not follow a change of person')));
   const stopSweep = sweepEndedSessions(io, opts.db, opts.logger);
   opts.httpServer.once('close', stopSweep);
   io.on('connection', (socket) => {

@@ -101,6 +101,20 @@ describe.skipIf(Boolean(unavailable))('several processes on one database and one
     }
   });
 
+  it("moves a nurse's socket on one process to her new hospital when an administrator on the other changes her places", async () => {
+    const community = (await a.db('hospitals').where({ name: 'Fenmoor Community Hospital' }).first('id')).id;
+    const nurse = await a.db('users').where({ email: 'fenmoor.nurse@plumbline.test' }).first('id');
+    const board = await connectAs(b.url, await signIn(b.url, 'fenmoor.nurse@plumbline.test'));
+    sockets.push(board);
+    const rooms = async () => ((await board.timeout(5000).emitWithAck('session:rooms')) as { data: { rooms: string[] } }).data.rooms.sort();
+    expect(await rooms()).toEqual([`hospital:${community}`, `user:${nurse.id}`]);
+    const admin = await signIn(a.url, 'admin@plumbline.test');
+    expect((await admin.send('PATCH', `/api/people/users/${nurse.id}`, { memberships: [{ kind: 'hospital', id: general }] })).status).toBe(200);
+    let now = await rooms();
+    for (let i = 0; i < 20 && now.includes(`hospital:${community}`); i++) now = (await new Promise((r) => setTimeout(r, 100)), await rooms());
+    expect(now).toEqual([`hospital:${general}`, `user:${nurse.id}`]);
+  });
+
   it("counts one account's pre-alerts across both processes: the fourth in a minute is refused on either process", async () => {
     const medic = await signIn(a.url, 'paramedic@plumbline.test');
     const onA = await connectAs(a.url, medic);
