@@ -20,7 +20,8 @@ import { percentile, round1 } from './support/traffic';
 const json = process.argv.includes('--json');
 /** `-- --cluster`: the load run on two processes, one database and a Redis, behind a relay (README in this folder). */
 const cluster = process.argv.includes('--cluster');
-const LIMIT_MS = 5 * 60_000;
+// Two server processes and their faults take longer to run on a small machine than one [ours].
+const LIMIT_MS = (process.argv.includes('--cluster') ? 8 : 5) * 60_000;
 const log = (line: string) => process.stderr.write(`${line}\n`);
 
 // The promises of the README's "Guarantees" section [ours].
@@ -304,7 +305,7 @@ Took      ${result.seconds} s, while other guests of the machine took ${result.m
 }
 
 const deadline = setTimeout(() => {
-  log('bench: over the 5-minute limit; stopping');
+  log(`bench: over the ${LIMIT_MS / 60_000}-minute limit; stopping`);
   process.exit(2);
 }, LIMIT_MS);
 deadline.unref();
