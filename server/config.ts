@@ -22,6 +22,10 @@ export interface Config {
   seedDemo: boolean;
   /** Pre-alerts and updates a minute, per account and per unit (server/limits.ts). */
   crewCommandLimits: CrewCommandLimits;
+  /** Redis shared by a region's processes (server/redis.ts); null for one process on its own. */
+  redisUrl: string | null;
+  /** What the region's keys and channels in Redis start with. */
+  redisPrefix: string;
 }
 
 function perMinute(value: string | undefined, name: string, fallback: number): number {
@@ -71,6 +75,8 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env, overrides: Part
       perAccountPerMinute: perMinute(env.CREW_COMMANDS_PER_MINUTE, 'CREW_COMMANDS_PER_MINUTE', DEFAULT_CREW_COMMAND_LIMITS.perAccountPerMinute),
       perUnitPerMinute: perMinute(env.UNIT_COMMANDS_PER_MINUTE, 'UNIT_COMMANDS_PER_MINUTE', DEFAULT_CREW_COMMAND_LIMITS.perUnitPerMinute),
     },
+    redisUrl: env.REDIS_URL || null,
+    redisPrefix: env.REDIS_PREFIX || 'plumbline',
     ...overrides,
   };
 }

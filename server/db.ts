@@ -49,6 +49,16 @@ export function keepStatements(conn: SqliteConnection, size = 500): void {
 }
 
 /**
+ * Transactions take SQLite's write lock when they begin. Several processes may share one file
+ * (WAL allows it on one machine); a transaction that read first and wrote later would fail at
+ * its first write whenever another process had committed in between, instead of waiting its turn.
+ */
+export function beginImmediately(conn: SqliteConnection): void {
+  const prepare = conn.prepare.bind(conn);
+  conn.prepare = (sql: string) => prepare(sql === 'BEGIN;' ? 'BEGIN IMMEDIATE;' : sql);
+}
+
+/**
  * Opens the database with its audit key: `auditKey` when given, else AUDIT_KEY or the key file
  * in the database's folder (DATA_DIR). An in-memory database gets a key of its own for its life.
  */
@@ -68,6 +78,7 @@ export function createDb(filename: string, opts: { auditKey?: Buffer } = {}): Db
         conn.pragma('foreign_keys = ON');
         conn.pragma('busy_timeout = 5000');
         keepStatements(conn);
+        beginImmediately(conn);
         done(null, conn);
       },
     },

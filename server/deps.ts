@@ -7,6 +7,7 @@ import type { SmsSender } from './sms';
 import type { RealtimeServer } from './realtime';
 import type { CatchUpLane } from './realtime/catch-up';
 import type { LimiterStore } from './limits';
+import type { RegionRedis } from './redis';
 
 export interface Clock { now(): number }
 export const systemClock: Clock = { now: () => Date.now() };
@@ -29,4 +30,6 @@ export interface AppDeps {
   catchUp: CatchUpLane;
   /** Where rate limits count; the memory store unless a shared one is given (server/limits.ts). */
   limiterStore?: LimiterStore;
+  /** Redis shared by the region's processes, when REDIS_URL is set (server/redis.ts). */
+  redis?: RegionRedis;
 }

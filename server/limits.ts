@@ -1,9 +1,9 @@
-import { RateLimiterMemory, RateLimiterRes, type RateLimiterAbstract } from 'rate-limiter-flexible';
+import { RateLimiterMemory, RateLimiterRedis, RateLimiterRes, type RateLimiterAbstract } from 'rate-limiter-flexible';
 import { AppError } from './errors';
 
 // Rate limits, counted by rate-limiter-flexible. Each limiter is made by a store factory: the
-// memory store counts in this process; a shared store (RateLimiterRedis, say) passed instead counts
-// across several server processes, with no other change.
+// memory store counts in this process; the Redis store (with REDIS_URL) counts across every
+// server process of a region, so a flood spread over several processes meets one limit.
 
 export interface LimiterSpec {
   /** Keeps the counts of one limiter apart from another's in a shared store. */
@@ -18,6 +18,23 @@ export interface LimiterSpec {
 export type LimiterStore = (spec: LimiterSpec) => RateLimiterAbstract;
 
 export const memoryLimiterStore: LimiterStore = (spec) => new RateLimiterMemory(spec);
+
+/**
+ * Counts in Redis under `prefix`, shared by every process. While Redis is away a limiter answers
+ * at once from this process's memory instead (the library's insurance limiter), so a pre-alert
+ * is never held up or refused because the counter is unreachable.
+ */
+export function redisLimiterStore(client: unknown, prefix: string): LimiterStore {
+  return (spec) =>
+    new RateLimiterRedis({
+      ...spec,
+      keyPrefix: `${prefix}:limit:${spec.keyPrefix}`,
+      storeClient: client,
+      useRedisPackage: true,
+      rejectIfRedisNotReady: true,
+      insuranceLimiter: new RateLimiterMemory(spec),
+    });
+}
 
 /** A refusal that waits out a limit: the sender may try again after `retryAfterMs`. */
 export class RateLimited extends AppError {

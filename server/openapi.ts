@@ -61,6 +61,7 @@ const CsvUpload = z.object({ file: z.string().meta({ format: 'binary' }), hospit
 /** Every /api route. The test in tests/integration/openapi.test.ts walks the Express router and compares. */
 export const API_OPERATIONS: readonly Operation[] = [
   { method: 'get', path: '/api/health', summary: 'Whether the server and its database answer', roles: null },
+  { method: 'get', path: '/api/health/ready', summary: 'For a load balancer: 200 when the database and Redis (when configured) answer, 503 naming what failed', roles: null },
   { method: 'get', path: '/api/me', summary: 'The signed-in person, their roles and memberships', roles: [], response: { type: 'application/json', schema: Me, description: 'The signed-in person' } },
   { method: 'get', path: '/api/mail', summary: "The built-in mail catcher's inbox", roles: admin, query: MailQuery },
 

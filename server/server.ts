@@ -12,6 +12,8 @@ import { createSessionMiddleware } from './auth/session';
 import { createLocalIdp } from './idp/provider';
 import { machineAudienceOf } from './exchange/machine-auth';
 import type { LimiterStore } from './limits';
+import { connectRegionRedis } from './redis';
+import { signInThrottle } from './auth/sign-in-throttle';
 import { createMailer, type Mailer } from './mail';
 import { createSmsSender, type SmsSender } from './sms';
 import { recordingMailer } from './services/messages/messages';
@@ -91,6 +93,10 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
   });
   if (rehearsed) logger.info({ rounds: rehearsed, ms: Date.now() - started }, 'pre-alert path rehearsed');
 
+  const redis = config.redisUrl ? await connectRegionRedis(config.redisUrl, config.redisPrefix, logger) : undefined;
+  if (redis) logger.info({ prefix: config.redisPrefix }, 'Redis connected: sockets, recovery and rate limits are shared with the other processes');
+  const limiterStore = opts.limiterStore ?? redis?.limiterStore;
+
   const http = createServer();
   await new Promise<void>((resolve, reject) => {
     http.once('error', reject);
@@ -105,8 +111,8 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
   if (sms.local) logger.info({ url: sms.fakeUrl }, 'no SMS account configured: the local SMS fake receives pages');
   const sessionMiddleware = createSessionMiddleware({ db, secret: config.sessionSecret, secure: publicUrl.startsWith('https://') });
   const catchUp = catchUpLane();
-  const io = createRealtime({ httpServer: http, sessionMiddleware, db, logger, publicOrigin: new URL(publicUrl).origin, catchUp });
-  const deps: AppDeps = { config, db, logger, clock, mailer: recordingMailer(mailer, db, clock, logger), sms, publicUrl, sessionMiddleware, io, catchUp, limiterStore: opts.limiterStore };
+  const io = createRealtime({ httpServer: http, sessionMiddleware, db, logger, publicOrigin: new URL(publicUrl).origin, catchUp, adapter: redis?.adapter });
+  const deps: AppDeps = { config, db, logger, clock, mailer: recordingMailer(mailer, db, clock, logger), sms, publicUrl, sessionMiddleware, io, catchUp, limiterStore, redis };
   attachSocketFeatures(io, socketFeatures(deps));
 
   const idp = config.oidc.issuer
@@ -119,6 +125,7 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
         cookieSecret: config.sessionSecret,
         clock,
         machineAudience: machineAudienceOf(publicUrl),
+        throttle: limiterStore ? signInThrottle(limiterStore) : undefined,
         client: { id: config.oidc.clientId, secret: config.oidc.clientSecret, redirectUri: `${publicUrl}/auth/callback`, postLogoutRedirectUri: `${publicUrl}/signed-out` },
       });
   if (idp && publicUrl.startsWith('https://')) idp.provider.proxy = true;
@@ -163,6 +170,7 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
           await jobsStopped;
         })(),
       ]);
+      await step('Redis', () => redis?.close());
       await step('client dev server', () => vite?.close());
       await step('WAL checkpoint thread', () => checkpoints?.stop());
       if (!opts.db) await step('database', () => db.destroy());

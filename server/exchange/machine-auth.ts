@@ -1,9 +1,10 @@
 import type { NextFunction, Request, Response } from 'express';
 import { createLocalJWKSet, errors as joseErrors, jwtVerify, type JWTVerifyGetKey } from 'jose';
-import { RateLimiterMemory, RateLimiterRes } from 'rate-limiter-flexible';
+import type { RateLimiterAbstract } from 'rate-limiter-flexible';
 import type { Me } from '../../shared/roles';
 import type { AppDeps } from '../deps';
 import { AppError } from '../errors';
+import { isLimiterAnswer, memoryLimiterStore } from '../limits';
 import { localIdpPublicKeys } from '../idp/provider';
 import { activeMachineClient, type MachineClientRow } from './machine-clients';
 
@@ -29,15 +30,16 @@ const refused = (why: string) => new AppError(401, 'invalid_token', why);
  * for this API (issuer, audience, expiry and type checked), from a registered client that is
  * still active, within that client's own request budget.
  */
-export function requireMachineClient({ db, config, publicUrl }: AppDeps) {
+export function requireMachineClient({ db, config, publicUrl, limiterStore = memoryLimiterStore }: AppDeps) {
   const issuer = config.oidc.issuer ?? `${publicUrl}/idp`;
   const audience = machineAudienceOf(publicUrl);
   // Only the built-in provider issues machine clients; with an outside issuer there are none.
   const keys: JWTVerifyGetKey | null = config.oidc.issuer ? null : createLocalJWKSet(localIdpPublicKeys(config.dataDir) as never);
-  const limiters = new Map<number, RateLimiterMemory>();
+  // One limiter per budget, counted where every other limit is (shared by the region's processes with Redis).
+  const limiters = new Map<number, RateLimiterAbstract>();
   const limiterFor = (perMinute: number) => {
     let limiter = limiters.get(perMinute);
-    if (!limiter) limiters.set(perMinute, (limiter = new RateLimiterMemory({ points: perMinute, duration: 60, keyPrefix: `machine-${perMinute}` })));
+    if (!limiter) limiters.set(perMinute, (limiter = limiterStore({ points: perMinute, duration: 60, keyPrefix: `machine-${perMinute}` })));
     return limiter;
   };
 
@@ -65,7 +67,7 @@ export function requireMachineClient({ db, config, publicUrl }: AppDeps) {
     try {
       await limiterFor(client.requests_per_minute).consume(client.client_id);
     } catch (limit) {
-      if (!(limit instanceof RateLimiterRes)) return next(limit);
+      if (!isLimiterAnswer(limit)) return next(limit);
       res.set('Retry-After', String(Math.ceil(limit.msBeforeNext / 1000)));
       return next(new AppError(429, 'too_many_requests', `This client may send ${client.requests_per_minute} requests a minute; wait ${Math.ceil(limit.msBeforeNext / 1000)} s.`));
     }

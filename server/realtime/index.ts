@@ -1,5 +1,5 @@
 import type { Server as HttpServer, IncomingMessage } from 'node:http';
-import { Server } from 'socket.io';
+import { Server, type ServerOptions } from 'socket.io';
 import type { RequestHandler } from 'express';
 import type { Knex } from 'knex';
 import type { Logger } from 'pino';
@@ -10,10 +10,10 @@ import { AppError, CaseRefusal } from '../errors';
 import { crewView, readsAsCrew } from '../services/cases/crew';
 import { RateLimited } from '../limits';
 import type { CatchUpLane } from './catch-up';
-import { sweepEndedSessions } from './session-follow';
+import { refreshSocketsOf, sweepEndedSessions } from './session-follow';
 import { roomsOf, type RealtimeServer, type RealtimeSocket, type SocketFeature } from './socket-types';
 
-export { roomsOf, type RealtimeServer, type RealtimeSocket, type SocketData, type SocketFeature } from './socket-types';
+export { roomsOf, type InterServerEvents, type RealtimeServer, type RealtimeSocket, type SocketData, type SocketFeature } from './socket-types';
 
 /**
  * Only allow-listed error details reach a client; anything else is logged and answered generically.
@@ -37,9 +37,12 @@ export function createRealtime(opts: {
   publicOrigin: string;
   /** Sign-in checks of (re)connecting sockets wait here, so pre-alerts go first in a reconnect storm. */
   catchUp: CatchUpLane;
+  /** Carries broadcasts and recovery state between a region's processes (server/redis.ts); this process alone without. */
+  adapter?: ServerOptions['adapter'];
 }): RealtimeServer {
   const io: RealtimeServer = new Server(opts.httpServer, {
     serveClient: false,
+    ...(opts.adapter ? { adapter: opts.adapter } : {}),
     // A ping every 4 s, and a link that misses one for 4 s more is closed: both sides know within
     // 8 s that a crew's phone lost its signal (the defaults take up to 45 s).
     pingInterval: 4000,
@@ -67,6 +70,8 @@ export function createRealtime(opts: {
       next(new Error('unauthenticated'));
     }
   });
+  // Another process changed a person: their sockets here take the new roles and places too.
+  if (opts.adapter) io.on('person:changed', (userId) => void refreshSocketsOf(io, opts.db, userId).catch((err: unknown) => opts.logger.error({ err, userId }, 'sockets could not follow a change of person')));
   const stopSweep = sweepEndedSessions(io, opts.db, opts.logger);
   opts.httpServer.once('close', stopSweep);
   io.on('connection', (socket) => {

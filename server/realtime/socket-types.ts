@@ -12,8 +12,10 @@ export interface SocketData {
   /** Roles an outside issuer claimed at sign-in, kept so a re-read of the person keeps them. */
   claimedRoles?: Me['roles'];
 }
-export type RealtimeServer = Server<ClientToServerEvents, ServerToClientEvents, Record<string, never>, SocketData>;
-export type RealtimeSocket = Socket<ClientToServerEvents, ServerToClientEvents, Record<string, never>, SocketData>;
+/** Between the processes of a region (through the Redis adapter): a person's roles or places changed. */
+export interface InterServerEvents { 'person:changed': (userId: number) => void }
+export type RealtimeServer = Server<ClientToServerEvents, ServerToClientEvents, InterServerEvents, SocketData>;
+export type RealtimeSocket = Socket<ClientToServerEvents, ServerToClientEvents, InterServerEvents, SocketData>;
 
 /** A feature adds its socket events through one of these, given each authenticated connection. */
 export type SocketFeature = (io: RealtimeServer, socket: RealtimeSocket) => void;

@@ -9,7 +9,7 @@ import * as people from '../services/people/people';
 
 const idOf = (req: Request) => parseOr400(IdParam, req.params).id;
 
-export function peopleRouter({ db, clock, io, config }: AppDeps): Router {
+export function peopleRouter({ db, clock, io, config, redis }: AppDeps): Router {
   const router = Router();
   const user = requireUser(db);
   const admin = requireRole('admin');
@@ -17,8 +17,10 @@ export function peopleRouter({ db, clock, io, config }: AppDeps): Router {
   router.post('/api/people/users', user, admin, async (req, res) => res.status(201).json(await people.createPerson(db, req.me!, parseOr400(CreateUser, req.body), clock.now())));
   router.patch('/api/people/users/:id', user, admin, async (req, res) => {
     const person = await people.updatePerson(db, req.me!, idOf(req), parseOr400(UpdateUser, req.body), clock.now());
-    // Their open sockets take the new roles and places now, not at their next connection.
+    // Their open sockets take the new roles and places now, not at their next connection, on
+    // this process and (with Redis) on the region's others.
     await refreshSocketsOf(io, db, person.id);
+    if (redis) io.serverSideEmit('person:changed', person.id);
     res.json(person);
   });
   router.post('/api/people/users/:id/password', user, admin, async (req, res) => {

@@ -8,7 +8,8 @@ import type { AckResponse, ClientToServerEvents, ServerToClientEvents } from '..
 import { createDb } from '../../server/db';
 import { verifyAuditChain } from '../../server/services/audit/audit';
 import { signIn } from '../support/sign-in';
-import { childServer, databaseFileOf, tempDataDir, type ChildServer } from './support/child-server';
+import { childServer, databaseFileOf, freePort, tempDataDir, type ChildServer } from './support/child-server';
+import { startRelay, type Relay } from './support/relay';
 import { boardScreens, monotonicMs } from './support/board-screens';
 import { unreadBroadcasts } from './support/unread-broadcasts';
 import { prepareRegion } from './support/fixtures';
@@ -35,6 +36,11 @@ export interface LoadOptions {
   warmUpMs: number;
   /** How long, after the last send, the ambulances may take to empty their outboxes. */
   settleMs: number;
+  /**
+   * Two server processes on the one database and a Redis, behind a TCP relay that hands each
+   * connection to the next process (support/relay.ts); each fault then hits one process.
+   */
+  cluster: { redisUrl: string; redisPrefix: string } | null;
   log(line: string): void;
 }
 
@@ -49,10 +55,13 @@ export const defaultLoadOptions: LoadOptions = {
   dropsPerSecond: 1,
   warmUpMs: 2000,
   settleMs: 45_000,
+  cluster: null,
   log: () => {},
 };
 
 export interface LoadResult {
+  /** Server processes serving the run (2 with --cluster). */
+  processes: number;
   ambulances: number;
   boards: number;
   hospitals: number;
@@ -153,13 +162,29 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
   // sends of many ambulances: its per-account limit is raised to what it is asked to carry, with
   // room to spare. No send names a unit, so the per-unit limit does not apply.
   const perSession = Math.ceil((opts.sendsPerSecond * 60) / opts.crewSessions) * 4;
-  const server = await childServer({ dataDir, env: { CREW_COMMANDS_PER_MINUTE: String(perSession) } });
+  const env = { CREW_COMMANDS_PER_MINUTE: String(perSession) };
+  let servers: ChildServer[];
+  let relay: Relay | null = null;
+  if (opts.cluster) {
+    const ports = [await freePort(), await freePort()];
+    relay = await startRelay(ports);
+    const regionEnv = { ...env, REDIS_URL: opts.cluster.redisUrl, REDIS_PREFIX: opts.cluster.redisPrefix, PUBLIC_URL: relay.url };
+    // A process that starts while the other one carries the whole load may take longer to answer [ours].
+    servers = await Promise.all(ports.map((port) => childServer({ dataDir, port, env: regionEnv, startTimeoutMs: 120_000 })));
+  } else {
+    servers = [await childServer({ dataDir, env })];
+  }
+  // Where the clients connect: the one server, or the relay in front of the two.
+  const server = { url: relay?.url ?? servers[0].url };
   const sockets: ClientSocket[] = [];
   let screens: ReturnType<typeof boardScreens> | undefined;
   const started = now();
   try {
-    await server.start();
-    log(`load: server up at ${server.url} (pid ${server.pid})`);
+    // One after the other: the first migrates the database, the second finds it done.
+    for (const one of servers) {
+      await one.start();
+      log(`load: server up at ${one.url} (pid ${one.pid})`);
+    }
 
     const crews = await Promise.all(region.paramedicEmails.map((email) => signIn(server.url, email)));
     // Two screens per ED (the desk and the wall), each its own session, as in a real department.
@@ -282,15 +307,17 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
     }, 2000 / Math.max(1, opts.dropsPerSecond));
 
     const restart = (signal: NodeJS.Signals) => {
+      // With two processes, the first fault hits the first and the second the other.
+      const target = servers[restartKinds.length % servers.length];
       restartKinds.push(signal);
-      const pid = server.pid;
+      const pid = target.pid;
       const from = now();
       faults.restarting = (async () => {
-        await server.stop(signal);
+        await target.stop(signal);
         log(`load: server ${pid} stopped by ${signal}; starting again on the same port and file`);
-        await server.start();
+        await target.start();
         restartWindows.push({ from, to: now() + RESTART_WINDOW_MS });
-        log(`load: server up again (pid ${server.pid})`);
+        log(`load: server up again (pid ${target.pid})`);
       })().finally(() => {
         faults.restarting = null;
       });
@@ -416,6 +443,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
     const nearRestart = (at: number) => restartWindows.some((w) => at >= w.from && at < w.to);
     const steady = timed.filter((t) => !nearRestart(t.at)).map((t) => t.ms).sort((a, b) => a - b);
     return {
+      processes: servers.length,
       ambulances: ambulances.length,
       boards: boardSpecs.length,
       hospitals: region.hospitals.length,
@@ -452,6 +480,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
   } finally {
     for (const socket of sockets) socket.close();
     await screens?.close();
-    await server.dispose();
+    await relay?.close();
+    for (const one of servers) await one.dispose();
   }
 }

@@ -41,6 +41,7 @@ const all = ROLES;
 
 const TABLE: Record<string, RouteEntry> = {
   'GET /api/health': { access: 'public', request: () => ({ path: '/api/health' }), allowed: 200 },
+  'GET /api/health/ready': { access: 'public', request: () => ({ path: '/api/health/ready' }), allowed: 200 },
   'GET /api/me': { access: 'signed-in', request: () => ({ path: '/api/me' }), allowed: 200 },
   'GET /api/mail': { access: ['admin'], request: () => ({ path: '/api/mail' }), allowed: 200 },
 

@@ -9,7 +9,8 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { AUDIT_KEY_FILE, loadAuditKey } from '../../server/audit-key';
 import { createDb, migrate } from '../../server/db';
 import { appendAudit, GENESIS_HASH, rowHash, startKeyedChain, systemActor, verifyAuditChain } from '../../server/services/audit/audit';
-import { CHECKPOINT_FILE, checkCheckpoints, checkpointJob, PROGRAMME_EMAIL_SETTING, writeCheckpoint } from '../../server/services/audit/checkpoints';
+import { periodStart } from '../../server/services/jobs/claims';
+import { CHECKPOINT_FILE, CHECKPOINT_JOB, checkCheckpoints, checkpointJob, PROGRAMME_EMAIL_SETTING, writeCheckpoint } from '../../server/services/audit/checkpoints';
 import { setSetting } from '../../server/services/people/settings';
 import { startTestServer, type TestServer } from '../support/server';
 import { createForeignRegion, FOREIGN_PASSWORD } from '../support/foreign-region';
@@ -156,6 +157,24 @@ describe('signed checkpoints', () => {
     await new Promise((r) => setTimeout(r, 200));
     expect(readFileSync(file, 'utf8').split('\n').filter(Boolean).length).toBe(count);
     expect((await checkCheckpoints(server.db, readFileSync(file, 'utf8'))).problems).toEqual([]);
+  });
+
+  it('with two processes running the hourly job, each period is written and mailed by one of them', async () => {
+    const dir = mkdtempSync(join(tmpdir(), 'plumbline-cp-'));
+    dirs.push(dir);
+    const files = [join(dir, 'first.jsonl'), join(dir, 'second.jsonl')];
+    const everyMs = 300;
+    const started = Date.now();
+    // Two jobs with the same period, as two processes of a region run it.
+    const jobs = files.map((file) => checkpointJob({ db: server.db, clock: { now: () => Date.now() }, mailer: server.mailer, logger: server.logger, file }, everyMs));
+    await new Promise((r) => setTimeout(r, 4 * everyMs + 150));
+    await Promise.all(jobs.map((job) => job.stop()));
+    const written = files.flatMap((file) => (existsSync(file) ? readFileSync(file, 'utf8').split('\n').filter(Boolean).map((line) => JSON.parse(line).at as number) : []));
+    const periods = written.map((at) => periodStart(at, everyMs));
+    expect(written.length).toBeGreaterThanOrEqual(3);
+    expect(new Set(periods).size).toBe(periods.length);
+    const claims = await server.db('job_claims').where({ job: CHECKPOINT_JOB }).where('claimed_at', '>=', started).select('period_start');
+    expect(claims.map((c) => Number(c.period_start)).sort()).toEqual([...periods].sort());
   });
 
   it('a copy whose tail was cut off still passes the chain check, and fails against the checkpoints', async () => {

@@ -3,6 +3,10 @@
 // SIGTERM) and dropped links, as in the full run, at a tenth of its size.
 import { describe, expect, it } from 'vitest';
 import { runLoad } from '../bench/load';
+import { redisUnavailable, testRedisPrefix, testRedisUrl } from '../support/redis';
+
+const noRedis = await redisUnavailable();
+if (noRedis) console.warn(`load-run.test.ts: the two-process run is skipped: ${noRedis}`);
 
 describe('a small load run through a kill -9 and a restart', () => {
   it('counts every acknowledged pre-alert on every board of its ED, none lost or doubled, and times the clean ones', async () => {
@@ -26,4 +30,18 @@ describe('a small load run through a kill -9 and a restart', () => {
     // Sends and sightings are stamped on two threads: on one shared clock no sample can exceed the acknowledgement timeout.
     expect(run.p99Ms!).toBeLessThan(10_000);
   }, 120_000);
+});
+
+describe.skipIf(Boolean(noRedis))('the same small run on two processes behind a relay (npm run bench -- --cluster)', () => {
+  it('loses and doubles nothing while each process is killed or restarted once, and times the clean ones', async () => {
+    const run = await runLoad({ ambulances: 12, boards: 4, hospitals: 2, crewSessions: 2, alerts: 60, updates: 12, sendsPerSecond: 20, warmUpMs: 500, settleMs: 30_000, cluster: { redisUrl: testRedisUrl, redisPrefix: testRedisPrefix() } });
+    expect(run.processes).toBe(2);
+    expect(run.restartKinds).toEqual(['SIGKILL', 'SIGTERM']);
+    expect({ acknowledged: run.acknowledged, delivered: run.delivered, lost: run.lost, duplicated: run.duplicated, missing: run.missingInDatabase, foreign: run.foreignDeliveries }).toEqual({ acknowledged: 60, delivered: 60, lost: 0, duplicated: 0, missing: 0, foreign: 0 });
+    expect(run.updatesLost).toBe(0);
+    expect(run.auditChain.ok).toBe(true);
+    // With one process up through each fault, most pre-alerts reach the boards live and are timed.
+    expect(run.latencySamples).toBeGreaterThan(0);
+    expect(run.p99Ms!).toBeLessThan(10_000);
+  }, 150_000);
 });

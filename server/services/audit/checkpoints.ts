@@ -7,6 +7,7 @@ import { auditKeyId } from '../../audit-key';
 import type { Clock } from '../../deps';
 import type { Mailer } from '../../mail';
 import type { Job } from '../jobs/job';
+import { claimPeriod, periodStart } from '../jobs/claims';
 import { auditKeyOf, keyedStart, newestAuditRow } from './audit';
 
 // A checkpoint is the chain's head (its newest row's id and hash) signed with the audit key. It
@@ -89,13 +90,26 @@ export async function writeCheckpoint(deps: { db: Knex; clock: Clock; mailer: Ma
   return { checkpoint, mailedTo: to };
 }
 
-/** The hourly checkpoint; a failure is logged, and the next hour tries again. */
+export const CHECKPOINT_JOB = 'audit-checkpoint';
+
+/**
+ * The hourly checkpoint; a failure is logged, and the next hour tries again. Every process of a
+ * region runs it; each hour's checkpoint is claimed in the database first, so one process writes
+ * and mails it and the others skip that hour.
+ */
 export function checkpointJob(deps: { db: Knex; clock: Clock; mailer: Mailer; logger: Logger; file: string }, everyMs = CHECKPOINT_EVERY_MS): Job {
   let running: Promise<void> | null = null;
+  const claimAndWrite = async () => {
+    const now = deps.clock.now();
+    if (!(await claimPeriod(deps.db, CHECKPOINT_JOB, periodStart(now, everyMs), now))) return null;
+    return writeCheckpoint(deps);
+  };
   const tick = () => {
     if (running) return;
-    running = writeCheckpoint(deps)
-      .then(({ checkpoint }) => deps.logger.info({ headId: checkpoint.headId }, 'audit checkpoint written'))
+    running = claimAndWrite()
+      .then((written) => {
+        if (written) deps.logger.info({ headId: written.checkpoint.headId }, 'audit checkpoint written');
+      })
       .catch((err: unknown) => deps.logger.error({ err }, 'audit checkpoint failed'))
       .finally(() => (running = null));
   };

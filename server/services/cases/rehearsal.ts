@@ -34,9 +34,11 @@ export async function rehearsePreAlerts(db: Knex, clock: Clock, rounds = 12): Pr
   if (!me) return 0;
   const actor = { me, role: 'paramedic' as const };
   let done = 0;
-  try {
-    await db.transaction(async (trx) => {
-      for (; done < rounds; done++) {
+  // One transaction a round: with several processes on one database, a rehearsal holds the
+  // write (and the audit chain's turn) only as long as one pre-alert does.
+  for (; done < rounds; done++) {
+    try {
+      await db.transaction(async (trx) => {
         const clinical = REHEARSED[done % REHEARSED.length];
         const payload = PreAlert.parse({ clientId: randomUUID(), hospitalId: crew.hospitalId, etaMinutes: 12, clinical });
         const { caseId } = await submitPreAlert(trx, clock, actor, payload);
@@ -44,11 +46,11 @@ export async function rehearsePreAlerts(db: Knex, clock: Clock, rounds = 12): Pr
         const update = PreAlertUpdate.parse({ caseId, etaMinutes: 8, clinical: { ...clinical, vitals: { ...clinical.vitals, sbp: 96 } } });
         await reviseCase(trx, clock, actor, update);
         JSON.stringify(await caseSummary(trx, caseId));
-      }
-      throw new Rehearsed();
-    });
-  } catch (err) {
-    if (!(err instanceof Rehearsed)) throw err;
+        throw new Rehearsed();
+      });
+    } catch (err) {
+      if (!(err instanceof Rehearsed)) throw err;
+    }
   }
   return done;
 }
