@@ -7,7 +7,7 @@ import { afterAll, describe, expect, it } from 'vitest';
 import { createDb, migrate } from '../../server/db';
 import { loadMe } from '../../server/auth/guards';
 import { seedDemo } from '../../server/services/demo/seed';
-import { submitPreAlert } from '../../server/services/cases/cases';
+import { submitPreAlert } from '../../server/services/cases/commands';
 import { systemClock } from '../../server/deps';
 import { childServer, databaseFileOf, tempDataDir, type ChildServer } from '../bench/support/child-server';
 
