@@ -1,8 +1,8 @@
 // The Inbound board's calls: the snapshot it (re)loads, one case's truth after a refused
 // action, and the charge nurse's actions. Live changes arrive over the socket.
 import { apiGet, apiSend } from './http';
-import type { BoardAction, BoardActionBody, BoardActionResult, BoardSnapshot } from '../../shared/schemas/board';
-import type { CaseSummary } from '../../shared/schemas/cases';
+import type { BoardAction, BoardActionBody, BoardActionResult, BoardSnapshot } from '@shared/schemas/board';
+import type { CaseSummary } from '@shared/schemas/cases';
 
 export type { BoardAction, BoardSnapshot, CaseSummary };
 

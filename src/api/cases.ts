@@ -1,7 +1,7 @@
 // Reads over REST; the crew's writes go over the socket so that each one is acknowledged.
 import { apiGet } from './http';
 import { sendCommand } from './socket';
-import type { CaseCancel, CaseEventView, CaseRedirect, CaseRevisionView, CaseSummary, PreAlert, PreAlertUpdate } from '../../shared/schemas/cases';
+import type { CaseCancel, CaseEventView, CaseRedirect, CaseRevisionView, CaseSummary, PreAlert, PreAlertUpdate } from '@shared/schemas/cases';
 
 export type { CaseEventView, CaseRevisionView, CaseSummary };
 

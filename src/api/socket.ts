@@ -7,7 +7,7 @@
 // socket.io notices and reconnects, recovering what it missed.
 import { io, type Socket } from 'socket.io-client';
 import { readonly, ref } from 'vue';
-import type { AckResponse, ClientToServerEvents, ServerToClientEvents } from '../../shared/realtime/events';
+import type { AckResponse, ClientToServerEvents, ServerToClientEvents } from '@shared/realtime/events';
 
 export type PlumblineSocket = Socket<ServerToClientEvents, ClientToServerEvents>;
 

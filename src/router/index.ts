@@ -1,7 +1,7 @@
 import { createRouter, createWebHistory, type RouteRecordRaw } from 'vue-router';
-import { ApiError } from '../api/http';
-import { signInUrl, type Role } from '../api/me';
-import { useSessionStore } from '../stores/session';
+import { ApiError } from '@/api/http';
+import { signInUrl, type Role } from '@/api/me';
+import { useSessionStore } from '@/stores/session';
 import { canOpen } from './access';
 
 declare module 'vue-router' {

@@ -1,14 +1,15 @@
 import { defineStore } from 'pinia';
+import { useLocalStorage, useSessionStorage } from '@vueuse/core';
 import { computed, ref, watch } from 'vue';
-import { getDestinations, type CrewDestinations } from '../api/crew';
-import { PreAlert } from '../../shared/schemas/cases';
-import { describeIssues, type FieldIssue } from '../../shared/schemas/issues';
-import { evaluate, type Evaluation } from '../../shared/triage/evaluate';
-import { withLocalCriteria } from '../../shared/triage/local-criteria';
-import { EXAMPLE_POLICY } from '../../shared/triage/policy';
-import { describePatient, emptyDraft, emptyHandover, toClinical, type ClinicalDraft, type HeightUnit } from '../components/pre-alert/clinical-draft';
-import { useOutbox } from '../composables/use-outbox';
-import { keep, kept } from '../offline/device-store';
+import { getDestinations, type CrewDestinations } from '@/api/crew';
+import { PreAlert } from '@shared/schemas/cases';
+import { describeIssues, type FieldIssue } from '@shared/schemas/issues';
+import { evaluate, type Evaluation } from '@shared/triage/evaluate';
+import { withLocalCriteria } from '@shared/triage/local-criteria';
+import { EXAMPLE_POLICY } from '@shared/triage/policy';
+import { describePatient, emptyDraft, emptyHandover, toClinical, type ClinicalDraft, type HeightUnit } from '@/forms/clinical-draft';
+import { useOutboxStore } from './outbox';
+import { keep, kept } from '@/offline/device-store';
 
 interface FormState {
   hospitalId: number | null;
@@ -35,20 +36,14 @@ const DRAFT_KEY = 'plumbline.crew.draft';
 
 interface Remembered { hospitalId: number | null; unitId: number | null; heightUnit: HeightUnit | null }
 
-function readJson<T>(storage: Storage, key: string): T | null {
-  try {
-    const text = storage.getItem(key);
-    return text ? (JSON.parse(text) as T) : null;
-  } catch {
-    return null;
-  }
-}
+/** Read at the start (a value that cannot be read is left out), written on every change, never before. */
+const STORED = { writeDefaults: false, listenToStorageChanges: false } as const;
 
 export const usePreAlertStore = defineStore('pre-alert', () => {
   const destinations = ref<CrewDestinations | null>(null);
   const loadError = ref<string | null>(null);
-  const remembered = ref<Remembered>({ hospitalId: null, unitId: null, heightUnit: null, ...readJson<Remembered>(localStorage, REMEMBER_KEY) });
-  const form = ref<FormState>(readJson<FormState>(sessionStorage, DRAFT_KEY) ?? blankForm());
+  const remembered = useLocalStorage<Remembered>(REMEMBER_KEY, { hospitalId: null, unitId: null, heightUnit: null }, { ...STORED, mergeDefaults: true });
+  const form = useSessionStorage<FormState>(DRAFT_KEY, blankForm(), STORED);
   // A draft kept by an older version of the form has no handover part yet.
   form.value.clinical.handover ??= emptyHandover();
   /** Set once the paramedic pressed Send: from then on every problem shows, not just typed ones. */
@@ -60,13 +55,9 @@ export const usePreAlertStore = defineStore('pre-alert', () => {
     return { hospitalId: r?.hospitalId ?? null, unitId: r?.unitId ?? null, eta: '', notes: '', clinical: emptyDraft(r?.heightUnit ?? 'm') };
   }
 
-  watch(form, (value) => sessionStorage.setItem(DRAFT_KEY, JSON.stringify(value)), { deep: true });
   watch(
     () => [form.value.hospitalId, form.value.unitId, form.value.clinical.heightUnit] as const,
-    ([hospitalId, unitId, heightUnit]) => {
-      remembered.value = { hospitalId, unitId, heightUnit };
-      localStorage.setItem(REMEMBER_KEY, JSON.stringify(remembered.value));
-    },
+    ([hospitalId, unitId, heightUnit]) => (remembered.value = { hospitalId, unitId, heightUnit }),
   );
 
   /** The destinations from the server, or with no signal the ones this device last had. */
@@ -149,7 +140,7 @@ export const usePreAlertStore = defineStore('pre-alert', () => {
     }
     const unit = destinations.value?.units.find((u) => u.id === parsed.data.unitId)?.callSign;
     const title = [hospital.value?.shortName, unit, describePatient(parsed.data.clinical)].filter(Boolean).join(' · ');
-    await useOutbox().enqueue(parsed.data, title);
+    await useOutboxStore().enqueue(parsed.data, title);
     reset();
     return { clientId: parsed.data.clientId };
   }

@@ -1,7 +1,7 @@
 // Pre-alerts that have not yet been acknowledged by the server, kept in IndexedDB so that a
 // reload, a closed tab or a flat battery on the way never loses one.
 import { openDB, type DBSchema, type IDBPDatabase } from 'idb';
-import type { PreAlert } from '../../shared/schemas/cases';
+import type { PreAlert } from '@shared/schemas/cases';
 
 export interface OutboxRejection {
   code: string;
@@ -21,6 +21,21 @@ export interface OutboxEntry {
   lastAttemptAt: number | null;
   /** The server refused it as it stands; it stays here, shown, and is not sent again by itself. */
   rejected: OutboxRejection | null;
+}
+
+/** A new entry: not tried yet. Its clientId is the pre-alert's own, and stays with it through every try. */
+export function newEntry(userId: number, payload: PreAlert, title: string, at: number): OutboxEntry {
+  return { clientId: payload.clientId, userId, payload, title, createdAt: at, attempts: 0, lastAttemptAt: null, rejected: null };
+}
+
+/** The entry as it is about to be sent once more: the same pre-alert, the same id, one try more. */
+export function nextAttempt(entry: OutboxEntry, at: number): OutboxEntry {
+  return { ...entry, attempts: entry.attempts + 1, lastAttemptAt: at };
+}
+
+/** The order the outbox sends in and shows: first made, first sent. */
+export function inOrderMade(entries: readonly OutboxEntry[]): OutboxEntry[] {
+  return [...entries].sort((a, b) => a.createdAt - b.createdAt);
 }
 
 interface OutboxSchema extends DBSchema {
@@ -45,8 +60,7 @@ export async function putEntry(entry: OutboxEntry): Promise<void> {
 }
 
 export async function entriesOf(userId: number): Promise<OutboxEntry[]> {
-  const rows = await (await database()).getAllFromIndex('outbox', 'by-user', userId);
-  return rows.sort((a, b) => a.createdAt - b.createdAt);
+  return inOrderMade(await (await database()).getAllFromIndex('outbox', 'by-user', userId));
 }
 
 export async function getEntry(clientId: string): Promise<OutboxEntry | undefined> {
