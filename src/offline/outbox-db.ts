@@ -23,20 +23,11 @@ export interface OutboxEntry {
   rejected: OutboxRejection | null;
 }
 
-/** A new entry: not tried yet. Its clientId is the pre-alert's own, and stays with it through every try. */
-export function newEntry(userId: number, payload: PreAlert, title: string, at: number): OutboxEntry {
-  return { clientId: payload.clientId, userId, payload, title, createdAt: at, attempts: 0, lastAttemptAt: null, rejected: null };
-}
-
 /** The entry as it is about to be sent once more: the same pre-alert, the same id, one try more. */
-export function nextAttempt(entry: OutboxEntry, at: number): OutboxEntry {
-  return { ...entry, attempts: entry.attempts + 1, lastAttemptAt: at };
-}
+export const nextAttempt = (entry: OutboxEntry, at: number): OutboxEntry => ({ ...entry, attempts: entry.attempts + 1, lastAttemptAt: at });
 
-/** The order the outbox sends in and shows: first made, first sent. */
-export function inOrderMade(entries: readonly OutboxEntry[]): OutboxEntry[] {
-  return [...entries].sort((a, b) => a.createdAt - b.createdAt);
-}
+/** Puts entries in the order the outbox sends and shows them: first made, first sent. */
+export const inOrderMade = (entries: OutboxEntry[]): OutboxEntry[] => entries.sort((a, b) => a.createdAt - b.createdAt);
 
 interface OutboxSchema extends DBSchema {
   outbox: { key: string; value: OutboxEntry; indexes: { 'by-user': number } };

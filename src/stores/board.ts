@@ -9,7 +9,7 @@ import type { CaseSummary } from '@shared/schemas/cases';
 import type { CaseChange } from '@shared/realtime/events';
 import type { LevelId } from '@shared/triage/policy';
 import { byUrgency, urgencyGroup } from '@shared/board/urgency';
-import { arrivalOf, newerCopy } from './row-version';
+import { newerCopy } from './row-version';
 
 // The board trusts the server, never its own memory: a snapshot over REST first, live events
 // after, and the snapshot again every minute. After a connection that did not recover its state,
@@ -76,19 +76,20 @@ export const useBoardStore = defineStore('board', () => {
 
   /** Applies one copy of a case; returns false when it was older than what the board holds. */
   function upsert(summary: CaseSummary, why?: string): boolean {
-    const belongs = hospital.value !== null && summary.hospital.id === hospital.value.id && OPEN.has(summary.state);
-    const arrival = arrivalOf(byId.value[summary.id], summary, belongs);
-    if (arrival === 'older') return false;
+    const held = byId.value[summary.id];
+    if (newerCopy(held, summary) !== summary) return false;
     touchedDuringLoad.add(summary.id);
-    if (arrival === 'left') {
-      const next = { ...byId.value };
-      delete next[summary.id];
-      byId.value = next;
-      const what = summary.state === 'cancelled' ? `cancelled by the crew${summary.cancelReason ? `: ${summary.cancelReason}` : ''}` : summary.state === 'closed' ? 'closed' : why ?? 'sent elsewhere';
-      say(`Case ${summary.caseNumber} left the board: ${what}.`);
-    } else if (arrival !== 'absent') {
-      byId.value = { ...byId.value, [summary.id]: summary };
+    if (!hospital.value || summary.hospital.id !== hospital.value.id || !OPEN.has(summary.state)) {
+      if (held) {
+        const next = { ...byId.value };
+        delete next[summary.id];
+        byId.value = next;
+        const what = summary.state === 'cancelled' ? `cancelled by the crew${summary.cancelReason ? `: ${summary.cancelReason}` : ''}` : summary.state === 'closed' ? 'closed' : why ?? 'sent elsewhere';
+        say(`Case ${summary.caseNumber} left the board: ${what}.`);
+      }
+      return true;
     }
+    byId.value = { ...byId.value, [summary.id]: summary };
     return true;
   }
 

@@ -5,7 +5,7 @@ import { connection, getSocket } from '@/api/socket';
 import { keep, kept } from '@/offline/device-store';
 import { OPEN_STATES, type CaseCancel, type CaseRedirect, type CaseSummary, type PreAlertUpdate } from '@shared/schemas/cases';
 import type { CaseChange } from '@shared/realtime/events';
-import { arrivalOf, mergeReload } from './row-version';
+import { mergeReload, newerCopy } from './row-version';
 
 /** The crew's open cases: the truth from GET /api/cases, kept live by the agency room's broadcasts. */
 export const useCrewCasesStore = defineStore('crew-cases', () => {
@@ -23,14 +23,15 @@ export const useCrewCasesStore = defineStore('crew-cases', () => {
   function upsert(summary: CaseSummary): void {
     const list = cases.value;
     const at = list.findIndex((c) => c.id === summary.id);
-    const arrival = arrivalOf(at >= 0 ? list[at] : undefined, summary, OPEN_STATES.includes(summary.state));
-    if (arrival === 'older' || arrival === 'absent') return;
-    if (arrival === 'left') {
-      list.splice(at, 1);
-      ended.value = [summary, ...ended.value.filter((c) => c.id !== summary.id)].slice(0, 5);
+    if (at >= 0 && newerCopy(list[at], summary) !== summary) return;
+    if (!OPEN_STATES.includes(summary.state)) {
+      if (at >= 0) {
+        list.splice(at, 1);
+        ended.value = [summary, ...ended.value.filter((c) => c.id !== summary.id)].slice(0, 5);
+      }
       return;
     }
-    if (arrival === 'updated') list.splice(at, 1, summary);
+    if (at >= 0) list.splice(at, 1, summary);
     else list.unshift(summary);
     list.sort((a, b) => b.createdAt - a.createdAt);
   }

@@ -10,7 +10,7 @@ import { ref, watch } from 'vue';
 import type { PreAlert } from '@shared/schemas/cases';
 import { submitPreAlert, type SubmitAnswer } from '@/api/cases';
 import { connection, getSocket, SocketCommandError } from '@/api/socket';
-import { entriesOf, getEntry, newEntry, nextAttempt, putEntry, removeEntry, type OutboxEntry } from '@/offline/outbox-db';
+import { entriesOf, getEntry, nextAttempt, putEntry, removeEntry, type OutboxEntry } from '@/offline/outbox-db';
 
 export type { OutboxEntry };
 
@@ -65,6 +65,19 @@ export const useOutboxStore = defineStore('outbox', () => {
     }
   }
 
+  /** Reads the outbox again, and tells this device's other tabs to. */
+  async function changed(): Promise<void> {
+    await refresh();
+    channel?.postMessage('changed');
+  }
+
+  /** Forgets the wait between tries: the next one may go at once. */
+  function resetBackoff(): void {
+    failures = 0;
+    clearTimeout(retryTimer);
+    retryAt.value = null;
+  }
+
   function scheduleRetry(ms: number): void {
     clearTimeout(retryTimer);
     retryAt.value = Date.now() + ms;
@@ -108,8 +121,7 @@ export const useOutboxStore = defineStore('outbox', () => {
         }
       } finally {
         sendingId.value = null;
-        await refresh();
-        channel?.postMessage('changed');
+        await changed();
       }
     }
   }
@@ -137,9 +149,7 @@ export const useOutboxStore = defineStore('outbox', () => {
   watch(connection.connected, (up) => {
     if (!up || userId === null) return;
     // A link that has just come back deserves a prompt first try.
-    failures = 0;
-    clearTimeout(retryTimer);
-    retryAt.value = null;
+    resetBackoff();
     void drain();
   });
 
@@ -157,10 +167,9 @@ export const useOutboxStore = defineStore('outbox', () => {
   /** Keeps the pre-alert on this device first, then tries to send it. */
   async function enqueue(payload: PreAlert, title: string): Promise<OutboxEntry> {
     if (userId === null) throw new Error('The outbox has not started.');
-    const entry = newEntry(userId, payload, title, Date.now());
+    const entry: OutboxEntry = { clientId: payload.clientId, userId, payload, title, createdAt: Date.now(), attempts: 0, lastAttemptAt: null, rejected: null };
     await putEntry(entry);
-    await refresh();
-    channel?.postMessage('changed');
+    await changed();
     void drain();
     return entry;
   }
@@ -172,16 +181,13 @@ export const useOutboxStore = defineStore('outbox', () => {
       if (entry?.rejected) await putEntry({ ...entry, rejected: null });
       await refresh();
     }
-    failures = 0;
-    clearTimeout(retryTimer);
-    retryAt.value = null;
+    resetBackoff();
     await drain();
   }
 
   async function discard(clientId: string): Promise<void> {
     await removeEntry(clientId);
-    await refresh();
-    channel?.postMessage('changed');
+    await changed();
   }
 
   /** Called with each acknowledgement, so the case list shows the new case at once; returns the release. */

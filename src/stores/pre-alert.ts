@@ -1,5 +1,4 @@
 import { defineStore } from 'pinia';
-import { useLocalStorage, useSessionStorage } from '@vueuse/core';
 import { computed, ref, watch } from 'vue';
 import { getDestinations, type CrewDestinations } from '@/api/crew';
 import { PreAlert } from '@shared/schemas/cases';
@@ -36,14 +35,20 @@ const DRAFT_KEY = 'plumbline.crew.draft';
 
 interface Remembered { hospitalId: number | null; unitId: number | null; heightUnit: HeightUnit | null }
 
-/** Read at the start (a value that cannot be read is left out), written on every change, never before. */
-const STORED = { writeDefaults: false, listenToStorageChanges: false } as const;
+function readJson<T>(storage: Storage, key: string): T | null {
+  try {
+    const text = storage.getItem(key);
+    return text ? (JSON.parse(text) as T) : null;
+  } catch {
+    return null;
+  }
+}
 
 export const usePreAlertStore = defineStore('pre-alert', () => {
   const destinations = ref<CrewDestinations | null>(null);
   const loadError = ref<string | null>(null);
-  const remembered = useLocalStorage<Remembered>(REMEMBER_KEY, { hospitalId: null, unitId: null, heightUnit: null }, { ...STORED, mergeDefaults: true });
-  const form = useSessionStorage<FormState>(DRAFT_KEY, blankForm(), STORED);
+  const remembered = ref<Remembered>({ hospitalId: null, unitId: null, heightUnit: null, ...readJson<Remembered>(localStorage, REMEMBER_KEY) });
+  const form = ref<FormState>(readJson<FormState>(sessionStorage, DRAFT_KEY) ?? blankForm());
   // A draft kept by an older version of the form has no handover part yet.
   form.value.clinical.handover ??= emptyHandover();
   /** Set once the paramedic pressed Send: from then on every problem shows, not just typed ones. */
@@ -55,9 +60,13 @@ export const usePreAlertStore = defineStore('pre-alert', () => {
     return { hospitalId: r?.hospitalId ?? null, unitId: r?.unitId ?? null, eta: '', notes: '', clinical: emptyDraft(r?.heightUnit ?? 'm') };
   }
 
+  watch(form, (value) => sessionStorage.setItem(DRAFT_KEY, JSON.stringify(value)), { deep: true });
   watch(
     () => [form.value.hospitalId, form.value.unitId, form.value.clinical.heightUnit] as const,
-    ([hospitalId, unitId, heightUnit]) => (remembered.value = { hospitalId, unitId, heightUnit }),
+    ([hospitalId, unitId, heightUnit]) => {
+      remembered.value = { hospitalId, unitId, heightUnit };
+      localStorage.setItem(REMEMBER_KEY, JSON.stringify(remembered.value));
+    },
   );
 
   /** The destinations from the server, or with no signal the ones this device last had. */

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { arrivalOf, mergeReload, newerCopy } from '../../../src/stores/row-version';
+import { mergeReload, newerCopy } from '../../../src/stores/row-version';
 
 // The product's own rule (no source): every change to a case raises its row version, so of two
 // copies of a case the higher version is the later one. Hand-made copies: only what the rule reads,
@@ -11,29 +11,26 @@ describe('one row-version merge for the board and the crew’s list', () => {
   it('never lets an older copy overwrite a newer one', () => {
     const held = copy(7, 5);
     expect(newerCopy(held, copy(7, 4))).toBe(held);
-    expect(arrivalOf(held, copy(7, 4), true)).toBe('older');
-    // Older still, even when it says the case is over: the later copy stands.
-    expect(arrivalOf(held, copy(7, 1), false)).toBe('older');
+    expect(newerCopy(held, copy(7, 1, 'Harrow Vale'))).toBe(held);
+    // The same held against a reload that carries the older copy.
+    expect(mergeReload([held], [copy(7, 4, 'reload')]).get(7)).toBe(held);
   });
 
   it('takes a newer copy in place of the one held', () => {
     const newer = copy(7, 6);
     expect(newerCopy(copy(7, 5), newer)).toBe(newer);
-    expect(arrivalOf(copy(7, 5), newer, true)).toBe('updated');
+    expect(newerCopy(copy(7, 5), copy(7, 60))).toEqual(copy(7, 60));
   });
 
   it('takes a copy of the same version: a renamed hospital keeps the case’s version', () => {
     const renamed = copy(7, 5, 'Alderwick General Hospital');
     expect(newerCopy(copy(7, 5), renamed)).toBe(renamed);
-    expect(arrivalOf(copy(7, 5), renamed, true)).toBe('updated');
+    expect(mergeReload([copy(7, 5)], [renamed]).get(7)).toBe(renamed);
   });
 
-  it('tells a case new to the screen from one that leaves it or never belonged', () => {
-    expect(arrivalOf(undefined, copy(8, 1), true)).toBe('arrived');
-    expect(arrivalOf(copy(8, 2), copy(8, 3), false)).toBe('left');
-    expect(arrivalOf(copy(8, 2), copy(8, 2), false)).toBe('left');
-    expect(arrivalOf(undefined, copy(9, 3), false)).toBe('absent');
-    expect(newerCopy(undefined, copy(9, 3))).toEqual(copy(9, 3));
+  it('takes a case the screen has never held', () => {
+    const arriving = copy(8, 1);
+    expect(newerCopy(undefined, arriving)).toBe(arriving);
   });
 
   it('lays a reload over the copies held: newer kept, older replaced, new ones added, unlisted ones dropped', () => {
