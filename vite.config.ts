@@ -1,6 +1,7 @@
 import { existsSync, readdirSync, readFileSync } from 'node:fs';
 import { createRequire } from 'node:module';
 import { join } from 'node:path';
+import { fileURLToPath } from 'node:url';
 import { defineConfig, type Plugin } from 'vitest/config';
 import vue from '@vitejs/plugin-vue';
 import { VitePWA } from 'vite-plugin-pwa';
@@ -106,6 +107,13 @@ const THEME_COLOR = '#1c2a3f';
 // One config for the client build, the dev middleware and the tests.
 export default defineConfig({
   publicDir: 'src/public',
+  // `@/` is src, `@shared/` is shared, for the client and its tests (src/tsconfig.json has the same paths).
+  resolve: {
+    alias: {
+      '@': fileURLToPath(new URL('./src', import.meta.url)),
+      '@shared': fileURLToPath(new URL('./shared', import.meta.url)),
+    },
+  },
   plugins: [
     vue(),
     primevueThemeCss(plumblineTheme),

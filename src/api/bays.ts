@@ -1,5 +1,5 @@
 import { apiGet, apiSend } from './http';
-import type { BayView } from '../../shared/schemas/bays';
+import type { BayView } from '@shared/schemas/bays';
 
 export type { BayView };
 export const getBays = async (hospitalId: number) => (await apiGet<{ bays: BayView[] }>(`/api/hospitals/${encodeURIComponent(hospitalId)}/bays`)).bays;

@@ -1,8 +1,8 @@
 // The Inbound board's calls: the snapshot it (re)loads, one case's truth (carried by a refused
 // action's answer, or read again), and the charge nurse's actions. Live changes arrive over the socket.
 import { ApiError, apiGet, apiSend } from './http';
-import type { BoardAction, BoardActionBody, BoardActionResult, BoardSnapshot } from '../../shared/schemas/board';
-import type { CaseSummary } from '../../shared/schemas/cases';
+import type { BoardAction, BoardActionBody, BoardActionResult, BoardSnapshot } from '@shared/schemas/board';
+import type { CaseSummary } from '@shared/schemas/cases';
 
 export type { BoardAction, BoardSnapshot, CaseSummary };
 

@@ -1,8 +1,8 @@
 // Reads over REST; the crew's writes go over the socket so that each one is acknowledged.
 import { apiGet } from './http';
 import { sendCommand } from './socket';
-import type { SubmitAnswer } from '../../shared/realtime/events';
-import type { CaseCancel, CaseEventView, CaseRedirect, CrewCaseEventView, CaseRevisionView, CaseSummary, PreAlert, PreAlertUpdate } from '../../shared/schemas/cases';
+import type { SubmitAnswer } from '@shared/realtime/events';
+import type { CaseCancel, CaseEventView, CaseRedirect, CrewCaseEventView, CaseRevisionView, CaseSummary, PreAlert, PreAlertUpdate } from '@shared/schemas/cases';
 
 export type { CaseEventView, CaseRevisionView, CaseSummary, CrewCaseEventView };
 

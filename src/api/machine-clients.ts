@@ -1,5 +1,5 @@
 import { apiGet, apiSend } from './http';
-import type { IssuedMachineClient, MachineClientView, RegisterMachineClient } from '../../shared/schemas/machine-clients';
+import type { IssuedMachineClient, MachineClientView, RegisterMachineClient } from '@shared/schemas/machine-clients';
 
 export type { IssuedMachineClient, MachineClientView };
 export interface MachineClientListing { clients: MachineClientView[]; tokenEndpoint: string | null }

@@ -1,5 +1,5 @@
 import { apiGet, apiSend } from './http';
-import type { PagingContact, PagingPlan, PagingStatus, SentMessage } from '../../shared/schemas/paging';
+import type { PagingContact, PagingPlan, PagingStatus, SentMessage } from '@shared/schemas/paging';
 
 export interface PagingPerson { id: number; name: string; email: string; contact: PagingContact }
 export interface PagingSettings { plan: PagingPlan; people: PagingPerson[]; sms: { local: boolean; from: string } }

@@ -1,5 +1,5 @@
 import { apiGet, apiSend } from './http';
-import type { AgencyFields, AgencyRow, CreateUser, HospitalFields, HospitalRow, PersonRow, UpdateHospital, UpdateUnit, UpdateUser } from '../../shared/schemas/people';
+import type { AgencyFields, AgencyRow, CreateUser, HospitalFields, HospitalRow, PersonRow, UpdateHospital, UpdateUnit, UpdateUser } from '@shared/schemas/people';
 
 export type { AgencyRow, HospitalRow, PersonRow };
 export interface AgencyListing { agencies: AgencyRow[]; hospitals: Array<{ id: number; name: string }> }

@@ -1,6 +1,6 @@
 import { apiGet, apiSend } from './http';
-import type { Policy } from '../../shared/triage/policy';
-import type { ApproveVersion, CreateDraft, LocalPreview, LocalPreviewQuery, LooseningWarning, PolicyVersionSummary, PublishVersion, SaveDraft } from '../../shared/schemas/policies';
+import type { Policy } from '@shared/triage/policy';
+import type { ApproveVersion, CreateDraft, LocalPreview, LocalPreviewQuery, LooseningWarning, PolicyVersionSummary, PublishVersion, SaveDraft } from '@shared/schemas/policies';
 
 export type { LocalPreview, LooseningWarning, PolicyVersionSummary };
 export interface PolicyVersionDetail extends PolicyVersionSummary {

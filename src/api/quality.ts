@@ -2,7 +2,7 @@ import { apiGet, apiSend, apiUpload } from './http';
 import type {
   Drilldown, DrilldownRequest, ImportPreview, ImportResult, QualityReport, ReportRequest, Targets, TargetsInput,
   WhatIfPolicyChoice, WhatIfRequest, WhatIfResult,
-} from '../../shared/schemas/quality';
+} from '@shared/schemas/quality';
 
 export type { Drilldown, DrilldownRequest, ImportPreview, ImportResult, QualityReport, ReportRequest, Targets, WhatIfPolicyChoice, WhatIfRequest, WhatIfResult };
 

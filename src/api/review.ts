@@ -1,7 +1,7 @@
 import { apiGet, apiSend } from './http';
 import type {
   AuditChainStatus, CaseTimeline, ComplianceReport, DiscussionItem, ResponseSettings, ReviewListPage, ReviewListRequest, ReviewView,
-} from '../../shared/schemas/review';
+} from '@shared/schemas/review';
 
 export type { AuditChainStatus, CaseTimeline, ComplianceReport, DiscussionItem, ReviewListPage, ReviewListRequest, ReviewView };
 

@@ -7,8 +7,8 @@
 // socket.io notices and reconnects, recovering what it missed.
 import { io, type Socket } from 'socket.io-client';
 import { readonly, ref } from 'vue';
-import type { AckResponse, ClientToServerEvents, CommandAnswer, CommandName, CommandPayload, ServerToClientEvents } from '../../shared/realtime/events';
-import type { CaseSummary } from '../../shared/schemas/cases';
+import type { AckResponse, ClientToServerEvents, CommandAnswer, CommandName, CommandPayload, ServerToClientEvents } from '@shared/realtime/events';
+import type { CaseSummary } from '@shared/schemas/cases';
 
 export type PlumblineSocket = Socket<ServerToClientEvents, ClientToServerEvents>;
 

@@ -1,7 +1,7 @@
 import { computed, onMounted, onUnmounted, ref, watch, type Ref } from 'vue';
-import type { CaseSummary } from '../../shared/schemas/cases';
-import { LEVEL_RANK, type LevelId } from '../../shared/triage/policy';
-import type { BoardAlert } from '../stores/board';
+import type { CaseSummary } from '@shared/schemas/cases';
+import { LEVEL_RANK, type LevelId } from '@shared/triage/policy';
+import type { BoardAlert } from '@/stores/board';
 import { useChime, type ChimeKind } from './use-chime';
 
 /**

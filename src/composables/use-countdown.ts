@@ -1,6 +1,6 @@
 import { computed, type MaybeRefOrGetter, toValue } from 'vue';
 import dayjs from 'dayjs';
-import type { CaseSummary } from '../../shared/schemas/cases';
+import type { CaseSummary } from '@shared/schemas/cases';
 
 /** A time of day on a board card: "03:12"; empty when there is none. */
 export const clockTime = (at: number | null | undefined): string => (at == null ? '' : dayjs(at).format('HH:mm'));

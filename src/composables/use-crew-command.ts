@@ -1,4 +1,4 @@
-import { connection } from '../api/socket';
+import { connection } from '@/api/socket';
 import { useBusyAction } from './use-busy-action';
 
 /**

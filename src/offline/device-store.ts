@@ -3,7 +3,7 @@
 // like the outbox, and wiped with it at sign-out (wipeDevice). The service worker keeps only
 // code, styles, fonts and icons, never an API answer.
 import { openDB, type DBSchema, type IDBPDatabase } from 'idb';
-import { wipeOutbox } from '../outbox/outbox-db';
+import { wipeOutbox } from './outbox-db';
 
 export interface Kept<T> {
   value: T;

@@ -1,5 +1,5 @@
 import type { RouteMeta } from 'vue-router';
-import type { Role } from '../api/me';
+import type { Role } from '@/api/me';
 
 /** An empty role list means any signed-in person; public routes need no sign-in at all. */
 export function canOpen(meta: RouteMeta, roles: readonly Role[]): boolean {

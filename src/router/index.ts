@@ -1,7 +1,7 @@
 import { createRouter, createWebHistory, type RouteRecordRaw } from 'vue-router';
-import { ApiError } from '../api/http';
-import { signInUrl, type Role } from '../api/me';
-import { useSessionStore } from '../stores/session';
+import { ApiError } from '@/api/http';
+import { signInUrl, type Role } from '@/api/me';
+import { useSessionStore } from '@/stores/session';
 import { canOpen } from './access';
 
 declare module 'vue-router' {
@@ -21,57 +21,57 @@ export const screenRoutes: RouteRecordRaw[] = [
   {
     path: '/pre-alert',
     name: 'new-pre-alert',
-    component: () => import('../views/NewPreAlertView.vue'),
+    component: () => import('@/views/NewPreAlertView.vue'),
     meta: { title: 'New pre-alert', roles: ['paramedic'], nav: true },
   },
   {
     path: '/board',
     name: 'inbound-board',
-    component: () => import('../views/InboundBoardView.vue'),
+    component: () => import('@/views/InboundBoardView.vue'),
     // The charge nurse acts on the board; the trauma lead and the administrator may watch it (as GET /api/board allows).
     meta: { title: 'Inbound board', roles: ['charge_nurse', 'trauma_lead', 'admin'], nav: true },
   },
   {
     path: '/cases/:id(\\d+)/handover',
     name: 'case-handover',
-    component: () => import('../views/HandoverPrintView.vue'),
+    component: () => import('@/views/HandoverPrintView.vue'),
     meta: { title: 'Handover', roles: ['charge_nurse', 'trauma_lead', 'admin'] },
   },
   {
     path: '/review',
     name: 'activation-review',
-    component: () => import('../views/ActivationReviewView.vue'),
+    component: () => import('@/views/ActivationReviewView.vue'),
     // The quality team reads the reviews; only the trauma lead and the administrator write them.
     meta: { title: 'Activation review', roles: ['trauma_lead', 'admin', 'quality'], nav: true },
   },
   {
     path: '/review/cases/:id(\\d+)',
     name: 'case-timeline',
-    component: () => import('../views/CaseTimelineView.vue'),
+    component: () => import('@/views/CaseTimelineView.vue'),
     meta: { title: 'Case timeline', roles: ['trauma_lead', 'admin', 'quality'] },
   },
   {
     path: '/quality',
     name: 'triage-quality',
-    component: () => import('../views/TriageQualityView.vue'),
+    component: () => import('@/views/TriageQualityView.vue'),
     meta: { title: 'Triage quality', roles: ['quality', 'admin', 'trauma_lead'], nav: true },
   },
   {
     path: '/policies',
     name: 'policies',
-    component: () => import('../views/PoliciesView.vue'),
+    component: () => import('@/views/PoliciesView.vue'),
     meta: { title: 'Policies', roles: ['admin', 'trauma_lead'], nav: true },
   },
   {
     path: '/people',
     name: 'people-places',
-    component: () => import('../views/PeoplePlacesView.vue'),
+    component: () => import('@/views/PeoplePlacesView.vue'),
     meta: { title: 'People & places', roles: ['admin'], nav: true },
   },
   {
     path: '/mail',
     name: 'mail-sent',
-    component: () => import('../views/MailSentView.vue'),
+    component: () => import('@/views/MailSentView.vue'),
     meta: { title: 'Messages sent', roles: ['admin'], nav: true },
   },
 ];
@@ -80,7 +80,7 @@ const routes: RouteRecordRaw[] = [
   {
     path: '/',
     name: 'home',
-    component: () => import('../views/HomeView.vue'),
+    component: () => import('@/views/HomeView.vue'),
     meta: { title: 'Home', roles: [] },
     // The global guard has loaded the session by now; HomeView is only for someone with no role.
     beforeEnter: () => useSessionStore().homeRoute ?? true,
@@ -89,13 +89,13 @@ const routes: RouteRecordRaw[] = [
   {
     path: '/signed-out',
     name: 'signed-out',
-    component: () => import('../views/SignedOutView.vue'),
+    component: () => import('@/views/SignedOutView.vue'),
     meta: { title: 'Signed out', roles: [], public: true },
   },
   {
     path: '/:pathMatch(.*)*',
     name: 'not-found',
-    component: () => import('../views/NotFoundView.vue'),
+    component: () => import('@/views/NotFoundView.vue'),
     meta: { title: 'Page not found', roles: [], public: true },
   },
 ];

@@ -1,7 +1,7 @@
 import { defineStore } from 'pinia';
 import { ref } from 'vue';
-import * as api from '../api/bays';
-import type { BayView } from '../api/bays';
+import * as api from '@/api/bays';
+import type { BayView } from '@/api/bays';
 
 /** Each hospital's bays with what is in them, as People & places edits them. */
 export const useBaysStore = defineStore('bays', () => {

@@ -1,13 +1,15 @@
 import { defineStore } from 'pinia';
+import { useDocumentVisibility, useIntervalFn } from '@vueuse/core';
 import { computed, ref, watch, type WatchStopHandle } from 'vue';
-import * as api from '../api/board';
-import { ApiError } from '../api/http';
-import { connection, getSocket } from '../api/socket';
-import type { BoardAction, BoardActionBody, BoardLevel, BoardSnapshot } from '../../shared/schemas/board';
-import type { CaseSummary } from '../../shared/schemas/cases';
-import type { CaseChange } from '../../shared/realtime/events';
-import type { LevelId } from '../../shared/triage/policy';
-import { byUrgency, urgencyGroup } from '../../shared/board/urgency';
+import * as api from '@/api/board';
+import { ApiError } from '@/api/http';
+import { connection, getSocket } from '@/api/socket';
+import type { BoardAction, BoardActionBody, BoardLevel, BoardSnapshot } from '@shared/schemas/board';
+import type { CaseSummary } from '@shared/schemas/cases';
+import type { CaseChange } from '@shared/realtime/events';
+import type { LevelId } from '@shared/triage/policy';
+import { byUrgency, urgencyGroup } from '@shared/board/urgency';
+import { newerCopy } from './row-version';
 
 // The board trusts the server, never its own memory: a snapshot over REST first, live events
 // after, and the snapshot again every minute. After a connection that did not recover its state,
@@ -54,6 +56,10 @@ export const useBoardStore = defineStore('board', () => {
   const notShown = computed(() => Math.max(0, openTotal.value - cases.value.length));
   const waiting = computed(() => cases.value.filter(needsAcknowledgement));
 
+  const ticking = useIntervalFn(() => (now.value = Date.now() + clockOffset.value), 1000, { immediate: false });
+  const reloading = useIntervalFn(() => void load(), RELOAD_EVERY_MS, { immediate: false });
+  const visibility = useDocumentVisibility();
+
   let generation = 0;
   let touchedDuringLoad = new Set<number>();
   let stops: Array<() => void> = [];
@@ -71,7 +77,7 @@ export const useBoardStore = defineStore('board', () => {
   /** Applies one copy of a case; returns false when it was older than what the board holds. */
   function upsert(summary: CaseSummary, why?: string): boolean {
     const held = byId.value[summary.id];
-    if (held && held.rowVersion > summary.rowVersion) return false;
+    if (newerCopy(held, summary) !== summary) return false;
     touchedDuringLoad.add(summary.id);
     if (!hospital.value || summary.hospital.id !== hospital.value.id || !OPEN.has(summary.state)) {
       if (held) {
@@ -111,18 +117,12 @@ export const useBoardStore = defineStore('board', () => {
       if (snapshot.changesSince !== undefined && snapshot.openIds && !switched) {
         const open = new Set(snapshot.openIds);
         for (const held of Object.values(byId.value)) if (open.has(held.id)) next[held.id] = held;
-        for (const c of snapshot.cases) {
-          const held = next[c.id];
-          if (!held || held.rowVersion <= c.rowVersion) next[c.id] = c;
-        }
+        for (const c of snapshot.cases) next[c.id] = newerCopy(next[c.id], c);
         // A case open on the server that is neither held nor among the changes: the board lost
         // track somewhere. The whole snapshot puts it right.
         if (snapshot.openIds.some((id) => !next[id] && !touchedDuringLoad.has(id))) return await load(snapshot.hospital.id);
       } else {
-        for (const c of snapshot.cases) {
-          const held = byId.value[c.id];
-          next[c.id] = held && !switched && held.rowVersion > c.rowVersion ? held : c;
-        }
+        for (const c of snapshot.cases) next[c.id] = newerCopy(switched ? undefined : byId.value[c.id], c);
       }
       hospital.value = snapshot.hospital;
       levels.value = snapshot.levels;
@@ -173,17 +173,13 @@ export const useBoardStore = defineStore('board', () => {
     });
     const stopFresh: WatchStopHandle = watch(connection.freshConnections, () => void load(undefined, { changes: true }));
     stops.push(stopFresh);
-    const tick = window.setInterval(() => (now.value = Date.now() + clockOffset.value), 1000);
-    const reload = window.setInterval(() => void load(), RELOAD_EVERY_MS);
-    const onVisible = () => {
-      if (document.visibilityState === 'visible') void load(undefined, { changes: true });
-    };
-    document.addEventListener('visibilitychange', onVisible);
-    stops.push(() => {
-      window.clearInterval(tick);
-      window.clearInterval(reload);
-      document.removeEventListener('visibilitychange', onVisible);
+    ticking.resume();
+    reloading.resume();
+    // Back in view: what changed while it was hidden.
+    const stopVisible = watch(visibility, (state) => {
+      if (state === 'visible') void load(undefined, { changes: true });
     });
+    stops.push(ticking.pause, reloading.pause, stopVisible);
     await load(hospitalId);
     now.value = Date.now() + clockOffset.value;
   }

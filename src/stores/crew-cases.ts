@@ -1,10 +1,11 @@
 import { defineStore } from 'pinia';
 import { ref, watch } from 'vue';
-import * as api from '../api/cases';
-import { connection, getSocket, SocketCommandError } from '../api/socket';
-import { keep, kept } from '../offline/device-store';
-import { OPEN_STATES, type CaseCancel, type CaseRedirect, type CaseSummary, type PreAlertUpdate } from '../../shared/schemas/cases';
-import type { CaseChange } from '../../shared/realtime/events';
+import * as api from '@/api/cases';
+import { connection, getSocket, SocketCommandError } from '@/api/socket';
+import { keep, kept } from '@/offline/device-store';
+import { OPEN_STATES, type CaseCancel, type CaseRedirect, type CaseSummary, type PreAlertUpdate } from '@shared/schemas/cases';
+import type { CaseChange } from '@shared/realtime/events';
+import { mergeReload, newerCopy } from './row-version';
 
 /** The crew's open cases: the truth from GET /api/cases, kept live by the agency room's broadcasts. */
 export const useCrewCasesStore = defineStore('crew-cases', () => {
@@ -22,7 +23,7 @@ export const useCrewCasesStore = defineStore('crew-cases', () => {
   function upsert(summary: CaseSummary): void {
     const list = cases.value;
     const at = list.findIndex((c) => c.id === summary.id);
-    if (at >= 0 && list[at].rowVersion > summary.rowVersion) return;
+    if (at >= 0 && newerCopy(list[at], summary) !== summary) return;
     if (!OPEN_STATES.includes(summary.state)) {
       if (at >= 0) {
         list.splice(at, 1);
@@ -38,12 +39,7 @@ export const useCrewCasesStore = defineStore('crew-cases', () => {
   async function load(): Promise<void> {
     try {
       const answer = await api.listCases('open');
-      const fresh = new Map(answer.cases.map((c) => [c.id, c]));
-      for (const mine of cases.value) {
-        const theirs = fresh.get(mine.id);
-        if (theirs && theirs.rowVersion < mine.rowVersion) fresh.set(mine.id, mine);
-      }
-      cases.value = [...fresh.values()].sort((a, b) => b.createdAt - a.createdAt);
+      cases.value = [...mergeReload(cases.value, answer.cases).values()].sort((a, b) => b.createdAt - a.createdAt);
       loaded.value = true;
       loadError.value = null;
       keptAt.value = null;

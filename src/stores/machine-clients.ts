@@ -1,8 +1,8 @@
 import { defineStore } from 'pinia';
 import { ref } from 'vue';
-import * as api from '../api/machine-clients';
-import type { IssuedMachineClient, MachineClientView } from '../api/machine-clients';
-import type { RegisterMachineClient } from '../../shared/schemas/machine-clients';
+import * as api from '@/api/machine-clients';
+import type { IssuedMachineClient, MachineClientView } from '@/api/machine-clients';
+import type { RegisterMachineClient } from '@shared/schemas/machine-clients';
 
 export const useMachineClientsStore = defineStore('machine-clients', () => {
   const clients = ref<MachineClientView[]>([]);

@@ -1,8 +1,8 @@
 import { defineStore } from 'pinia';
 import { ref, watch } from 'vue';
-import * as api from '../api/paging';
-import { connection, getSocket } from '../api/socket';
-import type { PagingStatus } from '../../shared/schemas/paging';
+import * as api from '@/api/paging';
+import { connection, getSocket } from '@/api/socket';
+import type { PagingStatus } from '@shared/schemas/paging';
 
 // Who answered each paged case on the board, and which messages did not arrive: loaded over REST
 // for the board's hospital, then kept live by the server's paging broadcasts.

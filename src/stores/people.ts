@@ -1,8 +1,8 @@
 import { defineStore } from 'pinia';
 import { ref } from 'vue';
-import * as api from '../api/people';
-import type { AgencyRow, HospitalRow, PersonRow } from '../api/people';
-import type { AgencyFields, CreateUser, HospitalFields, UpdateHospital, UpdateUnit, UpdateUser } from '../../shared/schemas/people';
+import * as api from '@/api/people';
+import type { AgencyRow, HospitalRow, PersonRow } from '@/api/people';
+import type { AgencyFields, CreateUser, HospitalFields, UpdateHospital, UpdateUnit, UpdateUser } from '@shared/schemas/people';
 
 export const usePeopleStore = defineStore('people', () => {
   const people = ref<PersonRow[]>([]);

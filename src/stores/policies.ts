@@ -1,10 +1,10 @@
 import { defineStore } from 'pinia';
 import { computed, ref } from 'vue';
-import * as api from '../api/policies';
-import type { HospitalPolicies, PolicyVersionDetail } from '../api/policies';
-import type { LocalPreviewQuery, SaveDraft } from '../../shared/schemas/policies';
-import { EXAMPLE_POLICY } from '../../shared/triage/policy';
-import { withLocalCriteria } from '../../shared/triage/local-criteria';
+import * as api from '@/api/policies';
+import type { HospitalPolicies, PolicyVersionDetail } from '@/api/policies';
+import type { LocalPreviewQuery, SaveDraft } from '@shared/schemas/policies';
+import { EXAMPLE_POLICY } from '@shared/triage/policy';
+import { withLocalCriteria } from '@shared/triage/local-criteria';
 
 export const usePoliciesStore = defineStore('policies', () => {
   const hospitalId = ref<number | null>(null);

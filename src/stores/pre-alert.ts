@@ -1,14 +1,14 @@
 import { defineStore } from 'pinia';
 import { computed, ref, watch } from 'vue';
-import { getDestinations, type CrewDestinations } from '../api/crew';
-import { PreAlert } from '../../shared/schemas/cases';
-import { describeIssues, type FieldIssue } from '../../shared/schemas/issues';
-import { evaluate, type Evaluation } from '../../shared/triage/evaluate';
-import { withLocalCriteria } from '../../shared/triage/local-criteria';
-import { EXAMPLE_POLICY } from '../../shared/triage/policy';
-import { describePatient, emptyDraft, emptyHandover, toClinical, type ClinicalDraft, type HeightUnit } from '../components/pre-alert/clinical-draft';
-import { useOutbox } from '../composables/use-outbox';
-import { keep, kept } from '../offline/device-store';
+import { getDestinations, type CrewDestinations } from '@/api/crew';
+import { PreAlert } from '@shared/schemas/cases';
+import { describeIssues, type FieldIssue } from '@shared/schemas/issues';
+import { evaluate, type Evaluation } from '@shared/triage/evaluate';
+import { withLocalCriteria } from '@shared/triage/local-criteria';
+import { EXAMPLE_POLICY } from '@shared/triage/policy';
+import { describePatient, emptyDraft, emptyHandover, toClinical, type ClinicalDraft, type HeightUnit } from '@/forms/clinical-draft';
+import { useOutboxStore } from './outbox';
+import { keep, kept } from '@/offline/device-store';
 
 interface FormState {
   hospitalId: number | null;
@@ -149,7 +149,7 @@ export const usePreAlertStore = defineStore('pre-alert', () => {
     }
     const unit = destinations.value?.units.find((u) => u.id === parsed.data.unitId)?.callSign;
     const title = [hospital.value?.shortName, unit, describePatient(parsed.data.clinical)].filter(Boolean).join(' · ');
-    await useOutbox().enqueue(parsed.data, title);
+    await useOutboxStore().enqueue(parsed.data, title);
     reset();
     return { clientId: parsed.data.clientId };
   }

@@ -1,10 +1,9 @@
 import { defineStore } from 'pinia';
 import { computed, ref } from 'vue';
-import * as api from '../api/quality';
-import type { Cell, ActivationBasis, DrilldownRequest, ImportPreview, ImportResult, QualityReport, ReportRequest, WhatIfPolicyChoice, WhatIfResult } from '../../shared/schemas/quality';
-import type { OutcomeStandard } from '../../shared/quality';
-import type { LevelId } from '../../shared/triage/policy';
-import { levelNameIn } from '../components/quality/format';
+import * as api from '@/api/quality';
+import type { Cell, ActivationBasis, DrilldownRequest, ImportPreview, ImportResult, QualityReport, ReportRequest, WhatIfPolicyChoice, WhatIfResult } from '@shared/schemas/quality';
+import type { OutcomeStandard } from '@shared/quality';
+import type { LevelId } from '@shared/triage/policy';
 
 const pad = (n: number) => String(n).padStart(2, '0');
 const monthOf = (d: Date) => `${d.getFullYear()}-${pad(d.getMonth() + 1)}`;
@@ -138,8 +137,8 @@ export const useQualityStore = defineStore('quality', () => {
     drill.value = null;
   }
 
-  /** A level's name in the hospital's policy in force, as the report gives them. */
-  const levelName = (id: LevelId | null | undefined) => levelNameIn(report.value?.levels, id);
+  /** A level's name in the hospital's policy in force, as the report gives them; the id until it has loaded. */
+  const levelName = (id: LevelId | null | undefined) => (id ? report.value?.levels.find((l) => l.id === id)?.name ?? id : 'Not decided');
 
   return {
     hospitalId, fromMonth, toMonth, standard, basis, timeZone, request, periodProblem, csvHref,

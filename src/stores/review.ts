@@ -1,9 +1,9 @@
 import { defineStore } from 'pinia';
 import { computed, reactive, ref } from 'vue';
-import * as api from '../api/review';
-import type { AuditChainStatus, CaseTimeline, ComplianceReport, DiscussionItem, ReviewListPage, ReviewListRequest } from '../api/review';
-import type { CaseReviewState, ReviewSortKey } from '../../shared/schemas/review';
-import type { LevelId } from '../../shared/triage/policy';
+import * as api from '@/api/review';
+import type { AuditChainStatus, CaseTimeline, ComplianceReport, DiscussionItem, ReviewListPage, ReviewListRequest } from '@/api/review';
+import type { CaseReviewState, ReviewSortKey } from '@shared/schemas/review';
+import type { LevelId } from '@shared/triage/policy';
 
 export interface ReviewFilterState {
   from: string;

@@ -1,8 +1,8 @@
 import { defineStore } from 'pinia';
 import { computed, ref } from 'vue';
-import { ApiError } from '../api/http';
-import { getMe, signInUrl, type MeResponse, type Role } from '../api/me';
-import { keep, kept } from '../offline/device-store';
+import { ApiError } from '@/api/http';
+import { getMe, signInUrl, type MeResponse, type Role } from '@/api/me';
+import { keep, kept } from '@/offline/device-store';
 
 // When a person holds several roles, the first match decides where "/" takes them: the role
 // with the most time-critical work comes first.

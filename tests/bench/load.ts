@@ -235,7 +235,7 @@ export async function runLoad(partial: Partial<LoadOptions> = {}): Promise<LoadR
         });
       });
 
-    // The product's outbox (src/composables/use-outbox.ts): one at a time, in the order made, each
+    // The product's outbox (src/stores/outbox.ts): one at a time, in the order made, each
     // after the last one's answer, whenever the link is up.
     const drain = async (amb: Ambulance) => {
       if (amb.draining) return;

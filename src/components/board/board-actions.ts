@@ -1,8 +1,8 @@
 // Which action comes next on a case, and what each button says: the order a charge nurse works
 // a trauma pre-alert in, so the next step is always the most prominent button on the card.
-import type { BoardAction } from '../../../shared/schemas/board';
-import type { CaseSummary } from '../../../shared/schemas/cases';
-import { LEVEL_RANK } from '../../../shared/triage/policy';
+import type { BoardAction } from '@shared/schemas/board';
+import type { CaseSummary } from '@shared/schemas/cases';
+import { LEVEL_RANK } from '@shared/triage/policy';
 
 const acknowledged = (c: CaseSummary) => c.acknowledgedAt != null && !c.levelRose;
 const pageable = (c: CaseSummary) => c.decidedLevel != null && c.decidedLevel !== 'none';

@@ -1,8 +1,8 @@
-import { CRITERION_CATALOG, findCriterion, plainSource, type CatalogEntry } from '../../../shared/triage/catalog';
-import { LEVEL_IDS, type LevelId, type Policy } from '../../../shared/triage/policy';
-import type { SaveDraft } from '../../../shared/schemas/policies';
-import { levelCalled } from '../../../shared/triage/loosening';
-import { readBack, type LocalCondition, type LocalCriterion } from '../../../shared/triage/local-criteria';
+import { CRITERION_CATALOG, findCriterion, plainSource, type CatalogEntry } from '@shared/triage/catalog';
+import { LEVEL_IDS, type LevelId, type Policy } from '@shared/triage/policy';
+import type { SaveDraft } from '@shared/schemas/policies';
+import { levelCalled } from '@shared/triage/loosening';
+import { readBack, type LocalCondition, type LocalCriterion } from '@shared/triage/local-criteria';
 
 // The form edits a policy as one criteria list per level, from full down; the engine's rule list
 // is rebuilt from it in that order, so a person can never put a lower level above a higher one.

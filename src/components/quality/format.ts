@@ -1,15 +1,10 @@
-import type { Interval } from '../../../shared/quality';
-import type { TargetStanding } from '../../../shared/schemas/quality';
-import type { LevelId } from '../../../shared/triage/policy';
+import type { Interval } from '@shared/quality';
+import type { TargetStanding } from '@shared/schemas/quality';
 
 // How the quality figures read on screen and on paper: one decimal, the interval beside it.
 
 export const percent = (v: number | null | undefined) => (v == null ? '—' : `${(v * 100).toFixed(1)} %`);
 export const interval = (ci: Interval | null | undefined) => (ci ? `95 % CI ${(ci[0] * 100).toFixed(1)}–${(ci[1] * 100).toFixed(1)} %` : 'no cases to count');
-
-/** A level's name in the hospital's policy in force (the report carries them); the id until it has loaded. */
-export const levelNameIn = (levels: readonly { id: LevelId; name: string }[] | null | undefined, id: LevelId | null | undefined) =>
-  (id ? levels?.find((l) => l.id === id)?.name ?? id : 'Not decided');
 
 export const STANDING_WORDS: Record<TargetStanding, { text: string; severity: 'success' | 'danger' | 'warn' | 'secondary' }> = {
   meets: { text: 'Meets the target', severity: 'success' },
@@ -18,4 +13,4 @@ export const STANDING_WORDS: Record<TargetStanding, { text: string; severity: 's
   'no-data': { text: 'No cases yet', severity: 'secondary' },
 };
 
-export { formatDay as dateOf, formatMonth as monthLabel } from '../date-format';
+export { formatDay as dateOf, formatMonth as monthLabel } from '@/components/date-format';

@@ -1,4 +1,4 @@
-import type { CaseReviewState } from '../../../shared/schemas/review';
+import type { CaseReviewState } from '@shared/schemas/review';
 
 export const when = (ms: number | null | undefined) => (ms == null ? '—' : new Date(ms).toLocaleString('en-GB', { dateStyle: 'medium', timeStyle: 'short' }));
 export const clock = (ms: number | null | undefined) => (ms == null ? '—' : new Date(ms).toLocaleTimeString('en-GB', { hour: '2-digit', minute: '2-digit' }));
@@ -12,7 +12,7 @@ export const REVIEW_WORDS: Record<CaseReviewState, string> = {
   discussed: 'Discussed',
 };
 
-import { STATE_WORDS as CASE_STATE_WORDS } from '../../../shared/schemas/cases';
+import { STATE_WORDS as CASE_STATE_WORDS } from '@shared/schemas/cases';
 
 /** The shared state words, readable by any state text a listing carries. */
 export const STATE_WORDS: Readonly<Record<string, string>> = CASE_STATE_WORDS;

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { clockToMs, draftFromInput, emptyDraft, toClinical, type ClinicalDraft } from '../../../src/components/pre-alert/clinical-draft';
+import { clockToMs, draftFromInput, emptyDraft, toClinical, type ClinicalDraft } from '../../../src/forms/clinical-draft';
 
 // The crew's form as typed, turned into the shared clinical input (toClinical), and back.
 

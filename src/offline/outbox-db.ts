@@ -1,7 +1,7 @@
 // Pre-alerts that have not yet been acknowledged by the server, kept in IndexedDB so that a
 // reload, a closed tab or a flat battery on the way never loses one.
 import { openDB, type DBSchema, type IDBPDatabase } from 'idb';
-import type { PreAlert } from '../../shared/schemas/cases';
+import type { PreAlert } from '@shared/schemas/cases';
 
 export interface OutboxRejection {
   code: string;
@@ -22,6 +22,12 @@ export interface OutboxEntry {
   /** The server refused it as it stands; it stays here, shown, and is not sent again by itself. */
   rejected: OutboxRejection | null;
 }
+
+/** The entry as it is about to be sent once more: the same pre-alert, the same id, one try more. */
+export const nextAttempt = (entry: OutboxEntry, at: number): OutboxEntry => ({ ...entry, attempts: entry.attempts + 1, lastAttemptAt: at });
+
+/** Puts entries in the order the outbox sends and shows them: first made, first sent. */
+export const inOrderMade = (entries: OutboxEntry[]): OutboxEntry[] => entries.sort((a, b) => a.createdAt - b.createdAt);
 
 interface OutboxSchema extends DBSchema {
   outbox: { key: string; value: OutboxEntry; indexes: { 'by-user': number } };
@@ -45,8 +51,7 @@ export async function putEntry(entry: OutboxEntry): Promise<void> {
 }
 
 export async function entriesOf(userId: number): Promise<OutboxEntry[]> {
-  const rows = await (await database()).getAllFromIndex('outbox', 'by-user', userId);
-  return rows.sort((a, b) => a.createdAt - b.createdAt);
+  return inOrderMade(await (await database()).getAllFromIndex('outbox', 'by-user', userId));
 }
 
 export async function getEntry(clientId: string): Promise<OutboxEntry | undefined> {

@@ -1,9 +1,9 @@
 // The form's own shape: numbers as typed text (empty means not known), yes/no/not-known as
 // true/false/null. It becomes the shared ClinicalInput only through toClinical, which the same
 // schema as the server's then checks.
-import { ClinicalInput, type Consideration, type Finding, type FirstImpactRegion, type Handover, type Sex, type Surface, type Treatment } from '../../../shared/schemas/clinical';
-import { describeIssues, type FieldIssue } from '../../../shared/schemas/issues';
-import { feetToMetres, gcsTotalOf, metresToFeet, storeysToMetres, FEET_PER_STOREY } from '../../../shared/schemas/units';
+import { ClinicalInput, type Consideration, type Finding, type FirstImpactRegion, type Handover, type Sex, type Surface, type Treatment } from '@shared/schemas/clinical';
+import { describeIssues, type FieldIssue } from '@shared/schemas/issues';
+import { feetToMetres, gcsTotalOf, metresToFeet, storeysToMetres, FEET_PER_STOREY } from '@shared/schemas/units';
 
 export type Tri = boolean | null;
 export type HeightUnit = 'm' | 'ft' | 'storeys';
