@@ -3,6 +3,9 @@ import type { Condition, Criterion, Quantity } from './criteria';
 import { CONSIDERATION_BIT, FINDING_BIT, FLAG_INDEX, QUANTITY_INDEX, TRI, bodyHeightOf } from './facts';
 import type { Facts, TriState } from './facts';
 import { MISSING_BIT } from './missing-inputs';
+import { ageText, fmt, heightText, keptByValue, textsByValue, type HeightFact } from './explain-text';
+
+export { ageText, type HeightFact };
 
 // The one evaluator of criteria, in the browser and on the server alike: each criterion's data
 // (its `when` tree, SOURCES.md §1) is turned once into closures. test() gives the three-valued
@@ -27,17 +30,6 @@ export interface CompiledCondition {
   heights: ((f: Facts, out: HeightFact[]) => void) | null;
 }
 
-/**
- * A fall height an explanation states, as numbers, so that a screen can show it in its own unit
- * (shared/board/height-display.ts) while `because` keeps the engine's words.
- */
-export interface HeightFact {
-  /** The words of the explanation this stands for: "fall 3.658 m (12 ft) > 3.048 m (10 ft)". */
-  text: string;
-  heightM: number;
-  /** The criterion's own figure it was compared with; absent when compared with something else (a child's height). */
-  compared?: { relation: 'above' | 'below' | 'at-most'; thresholdM: number };
-}
 
 export interface CompiledCriterion extends CompiledCondition {
   criterion: Criterion;
@@ -45,25 +37,6 @@ export interface CompiledCriterion extends CompiledCondition {
   tierRank: number;
 }
 
-// Whole numbers are most recorded values; a table spares a number-to-text conversion per explanation.
-const WHOLE = Array.from({ length: 1001 }, (_, i) => String(i));
-// Rounded tenths and thousandths (heights, feet) are put together from tables too. The text is the
-// same as String(r / p): below 1001 a decimal with at most three places is the shortest text that
-// reads back to its double.
-const fractionTexts = (p: number, places: number): string[] =>
-  Array.from({ length: p }, (_, i) => (i === 0 ? '' : '.' + String(i).padStart(places, '0').replace(/0+$/, '')));
-const FRACTION: Record<number, string[]> = { 10: fractionTexts(10, 1), 1000: fractionTexts(1000, 3) };
-const fmt = (n: number, digits = 1): string => {
-  if ((n | 0) === n && n >= 0 && n <= 1000) return WHOLE[n];
-  const p = digits === 1 ? 10 : 10 ** digits;
-  const r = Math.round(n * p);
-  const fraction = FRACTION[p];
-  if (fraction !== undefined && r >= 0 && r <= 1000 * p) {
-    const whole = Math.floor(r / p);
-    return WHOLE[whole] + fraction[r - whole * p];
-  }
-  return String(r / p);
-};
 
 const LABEL: Record<Quantity, string> = { sbp: 'SBP', hr: 'HR', rr: 'RR', heightM: 'fall', gcsTotal: 'GCS', gcsMotor: 'motor GCS' };
 const BIT = {
@@ -107,19 +80,6 @@ function isPlain(q: Quantity, i: number, f: Facts): boolean {
   return true;
 }
 
-/**
- * A fall height in metres and feet, with places enough not to read the same as the threshold it
- * is compared with: "fall 6.1 m (20.01 ft) > 6.096 m (20 ft)", not "(20 ft) > (20 ft)" [ours].
- */
-function heightText(v: number, threshold?: number): string {
-  if (v === 0) return 'fall from standing (0 m)';
-  let m = 3, ft = 1;
-  if (threshold !== undefined && v !== threshold) {
-    while (m < 6 && fmt(v, m) === fmt(threshold, m)) m++;
-    while (ft < 4 && fmt(v / 0.3048, ft) === fmt(threshold / 0.3048, ft)) ft++;
-  }
-  return `fall ${fmt(v, m)} m (${fmt(v / 0.3048, ft)} ft)`;
-}
 
 function plainText(q: Quantity, v: number): string {
   return q === 'heightM' ? heightText(v) : `${LABEL[q]} ${fmt(v)}`;
@@ -138,30 +98,6 @@ function valueText(q: Quantity, i: number, f: Facts, bound: 'lo' | 'hi'): string
   return `${LABEL[q]} ${side} (${basis})`;
 }
 
-/**
- * Texts that depend on one number, made once per value and kept in 256 slots: recorded values
- * repeat (whole vitals, heights in tenths of a metre or whole feet, whole years), so most
- * explanations are a lookup. A slot holds the last value that fell in it and is matched exactly
- * (Object.is, so that −0 and +0 keep their own texts).
- */
-function textsByValue(make: (v: number) => string): (v: number) => string {
-  return keptByValue(make, '');
-}
-
-/** textsByValue for any value made from one number; `blank` fills the empty slots. */
-function keptByValue<T>(make: (v: number) => T, blank: T): (v: number) => T {
-  const values = new Float64Array(256).fill(NaN);
-  const texts: T[] = new Array<T>(256).fill(blank);
-  return (v) => {
-    // 21 is odd, so 256 whole numbers in a row take 256 different slots, and tenths spread too.
-    const k = (v * 21) & 255;
-    if (!Object.is(values[k], v)) {
-      values[k] = v;
-      texts[k] = make(v);
-    }
-    return texts[k];
-  };
-}
 
 /** Per quantity (by QUANTITY_INDEX), its plain texts kept per value. */
 const PLAIN: ((v: number) => string)[] = [];
@@ -412,10 +348,6 @@ function unknownPartsMissing(parts: readonly CompiledCondition[], f: Facts): num
   return bits;
 }
 
-export function ageText(ageYears: number): string {
-  if (ageYears < 2 && !Number.isInteger(ageYears)) return `age ${Math.round(ageYears * 12)} months`;
-  return `age ${fmt(ageYears)}`;
-}
 
 export function compileCriterion(criterion: Criterion): CompiledCriterion {
   const compiled = compileCondition(criterion.when);
