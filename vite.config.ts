@@ -184,5 +184,15 @@ export default defineConfig({
     testTimeout: 30_000,
     hookTimeout: 120_000,
     globalSetup: ['tests/global-setup.ts'],
+    // With TEST_DATABASE_URL (a PostgreSQL server), the integration suite runs a second time on
+    // PostgreSQL; the rest runs once. `--project postgres` picks that pass alone.
+    ...(process.env.TEST_DATABASE_URL
+      ? {
+          projects: [
+            { extends: true, test: { name: 'sqlite' } },
+            { extends: true, test: { name: 'postgres', include: ['tests/integration/**/*.test.ts'], env: { TEST_ENGINE: 'postgres' } } },
+          ],
+        }
+      : {}),
   },
 });

@@ -3,6 +3,7 @@ import { readdirSync } from 'node:fs';
 import { dirname, join, resolve } from 'node:path';
 import { fileURLToPath, pathToFileURL } from 'node:url';
 import knex, { type Knex } from 'knex';
+import pg from 'pg';
 import { loadAuditKey } from './audit-key';
 import { useAuditKey } from './services/audit/audit';
 
@@ -51,11 +52,40 @@ export function keepStatements(conn: SqliteConnection, size = 500): void {
   };
 }
 
+/** True for a PostgreSQL connection URL (DATABASE_URL), false for an SQLite file name. */
+export const isPostgresUrl = (target: string) => /^postgres(ql)?:\/\//.test(target);
+
+/** True when the database is PostgreSQL; the one test every dialect branch uses. */
+export const isPostgres = (db: Knex) => db.client.config.client === 'pg';
+
+// PostgreSQL answers bigint (int8) and count(*) as strings, since they may exceed 2^53. Every
+// bigint here is a time in ms or an id, far below that, so they come back as numbers, as SQLite
+// gives them. A value past Number.MAX_SAFE_INTEGER would be an error, not a rounding.
+pg.types.setTypeParser(pg.types.builtins.INT8, (text) => {
+  const n = Number(text);
+  if (!Number.isSafeInteger(n)) throw new Error(`a bigint column holds ${text}, past the largest safe number`);
+  return n;
+});
+// numeric (from AVG, SUM over integers, ROUND) as a number too, as SQLite answers it.
+pg.types.setTypeParser(pg.types.builtins.NUMERIC, (text) => Number(text));
+
 /**
  * Opens the database with its audit key: `auditKey` when given, else AUDIT_KEY or the key file
- * in the database's folder (DATA_DIR). An in-memory database gets a key of its own for its life.
+ * in the database's folder (DATA_DIR; `keyDir` for a PostgreSQL URL). An in-memory database gets
+ * a key of its own for its life.
  */
-export function createDb(filename: string, opts: { auditKey?: Buffer } = {}): Db {
+export function createDb(target: string, opts: { auditKey?: Buffer; keyDir?: string } = {}): Db {
+  if (isPostgresUrl(target)) {
+    const db = knex({
+      client: 'pg',
+      connection: target,
+      pool: { min: 0, max: Number(process.env.DATABASE_POOL_SIZE) || 10 },
+      migrations: { migrationSource, tableName: 'knex_migrations' },
+    });
+    useAuditKey(db, opts.auditKey ?? loadAuditKey(resolve(opts.keyDir ?? process.env.DATA_DIR ?? './data')));
+    return db;
+  }
+  const filename = target;
   const memory = filename === ':memory:' || filename === '';
   const db = knex({
     client: 'better-sqlite3',
@@ -78,6 +108,11 @@ export function createDb(filename: string, opts: { auditKey?: Buffer } = {}): Db
   });
   useAuditKey(db, opts.auditKey ?? (memory ? randomBytes(32) : loadAuditKey(dirname(resolve(filename)))));
   return db;
+}
+
+/** The configured database: PostgreSQL when DATABASE_URL is set, else the SQLite file in DATA_DIR. */
+export function openDb(config: { databaseUrl: string | null; databaseFile: string; dataDir: string }): Db {
+  return createDb(config.databaseUrl ?? config.databaseFile, { keyDir: config.dataDir });
 }
 
 export async function migrate(db: Db): Promise<string[]> {
