@@ -122,3 +122,12 @@ export async function migrate(db: Db): Promise<string[]> {
 
 /** Milliseconds since the epoch: one portable representation for every timestamp column. */
 export const now = (clock: { now(): number }) => clock.now();
+
+/**
+ * The rows of a raw SELECT: better-sqlite3 answers them as the array itself, pg as `{ rows }`.
+ * Prefer the query builder; where SQL must be written out, read it through here.
+ */
+export async function selectRows<T>(db: Knex, sql: string, bindings: readonly Knex.RawBinding[] = []): Promise<T[]> {
+  const result = (await db.raw(sql, bindings)) as T[] | { rows: T[] };
+  return Array.isArray(result) ? result : result.rows;
+}

@@ -1,5 +1,6 @@
 import { randomBytes } from 'node:crypto';
 import knex from 'knex';
+import { it, type TestFunction } from 'vitest';
 
 // The integration suite runs twice when TEST_DATABASE_URL names a PostgreSQL server: once on
 // SQLite and once, as the `postgres` Vitest project (TEST_ENGINE=postgres), on PostgreSQL. Each
@@ -8,8 +9,13 @@ import knex from 'knex';
 /** True in the PostgreSQL pass of the suite. */
 export const onPostgres = process.env.TEST_ENGINE === 'postgres';
 
-/** Why a test that needs SQLite's file is left out of the PostgreSQL pass. */
-export const SQLITE_ONLY = 'SQLite only: it works on the database file itself';
+/**
+ * A test of something only SQLite has (its file, WAL, its backup API): run as `it` on SQLite,
+ * skipped in the PostgreSQL pass with the reason in its name, so the report says why.
+ */
+export function itOnSqlite(reason: string) {
+  return (name: string, fn: TestFunction, timeout?: number) => (onPostgres ? it.skip(`${name} [SQLite only: ${reason}]`, fn) : it(name, fn, timeout));
+}
 
 function adminUrl(): string {
   const url = process.env.TEST_DATABASE_URL;
@@ -47,4 +53,9 @@ export async function createTestDatabase(): Promise<TestDatabase> {
       }
     },
   };
+}
+
+/** What a child `plumbline` process needs in its environment to open the same database. */
+export function databaseEnv(config: { databaseUrl: string | null }): Record<string, string> {
+  return config.databaseUrl ? { DATABASE_URL: config.databaseUrl } : {};
 }

@@ -2,6 +2,7 @@ import type { Knex } from 'knex';
 import type { ClinicalInput } from '../../../shared/schemas/clinical';
 import type { CriteriaSetId } from '../../../shared/triage/criteria';
 import type { LevelId } from '../../../shared/triage/policy';
+import { isPostgres } from '../../db';
 
 // The past cases a what-if evaluates again, read for speed. A what-if over a year of a busy
 // hospital reads 100,000 cases; reading each one's latest pre-alert from case_revisions and
@@ -75,20 +76,24 @@ function evaluationInput(stored: ClinicalInput): ClinicalInput {
 export async function readPastCases(db: Knex, hospitalId: number, start: number, end: number): Promise<PastCases> {
   let kept = keptInputs.get(db);
   if (!kept) keptInputs.set(db, (kept = new Map()));
-  const conn = (await db.client.acquireConnection()) as Connection;
+  // SQLite: the prepared statements on the connection Knex holds. PostgreSQL: the same SQL
+  // through Knex, its rows as arrays too.
+  const pg = isPostgres(db);
+  const conn = pg ? null : ((await db.client.acquireConnection()) as Connection);
+  const query = async (sql: string, params: unknown[]): Promise<unknown[][]> =>
+    conn ? conn.prepare(sql).raw(true).all(...params) : ((await db.raw(sql, params as Knex.RawBinding[]).options({ rowMode: 'array' })) as { rows: unknown[][] }).rows;
   try {
     // better-sqlite3 runs synchronously: nothing else uses the connection between these statements.
-    const rows = conn.prepare(SCAN).raw(true).all(hospitalId, start, end);
+    const rows = await query(SCAN, [hospitalId, start, end]);
     const missing: number[] = [];
     for (const row of rows) {
       if (kept.get(row[0] as number)?.revision !== row[1]) missing.push(row[0] as number);
     }
     if (missing.length) {
-      const lookup = conn.prepare(LOOKUP).raw(true);
       for (let from = 0; from < missing.length; from += LOOKUP_CHUNK) {
         const ids = missing.slice(from, from + LOOKUP_CHUNK);
         while (ids.length < LOOKUP_CHUNK) ids.push(-1);
-        for (const [caseId, revision, set, text] of lookup.all(...ids)) {
+        for (const [caseId, revision, set, text] of await query(LOOKUP, ids)) {
           kept.delete(caseId as number);
           kept.set(caseId as number, { revision: revision as number, set: set as CriteriaSetId, input: evaluationInput(JSON.parse(text as string)) });
         }
@@ -108,7 +113,7 @@ export async function readPastCases(db: Knex, hospitalId: number, start: number,
       cases.createdAt[i] = Number(row[2]);
       cases.recommended[i] = LEVEL_CODE[row[3] as string] ?? 3;
       cases.decided[i] = row[4] == null ? NOT_DECIDED : LEVEL_CODE[row[4] as string] ?? NOT_DECIDED;
-      cases.hasOutcome[i] = row[5] === 1 ? 1 : 0;
+      cases.hasOutcome[i] = row[5] === 1 || row[5] === true ? 1 : 0;
       cases.iss[i] = row[6] == null ? -1 : Number(row[6]);
       cases.nfti[i] = row[7] == null ? -1 : row[7] ? 1 : 0;
       cases.set.push(one.set);
@@ -121,6 +126,6 @@ export async function readPastCases(db: Knex, hospitalId: number, start: number,
     }
     return cases;
   } finally {
-    await db.client.releaseConnection(conn);
+    if (conn) await db.client.releaseConnection(conn);
   }
 }
