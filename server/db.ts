@@ -131,3 +131,9 @@ export async function selectRows<T>(db: Knex, sql: string, bindings: readonly Kn
   const result = (await db.raw(sql, bindings)) as T[] | { rows: T[] };
   return Array.isArray(result) ? result : result.rows;
 }
+
+/** A unique constraint refused the row: SQLite's SQLITE_CONSTRAINT_UNIQUE or PostgreSQL's 23505. */
+export function isUniqueViolation(err: unknown): boolean {
+  const code = (err as { code?: unknown } | null)?.code;
+  return code === '23505' || code === 'SQLITE_CONSTRAINT_UNIQUE' || code === 'SQLITE_CONSTRAINT_PRIMARYKEY';
+}
