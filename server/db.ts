@@ -79,7 +79,7 @@ export function createDb(target: string, opts: { auditKey?: Buffer; keyDir?: str
     const db = knex({
       client: 'pg',
       connection: target,
-      pool: { min: 0, max: Number(process.env.DATABASE_POOL_SIZE) || 10 },
+      pool: { min: 0, max: 10 },
       migrations: { migrationSource, tableName: 'knex_migrations' },
     });
     useAuditKey(db, opts.auditKey ?? loadAuditKey(resolve(opts.keyDir ?? process.env.DATA_DIR ?? './data')));
