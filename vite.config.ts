@@ -196,10 +196,15 @@ export default defineConfig({
     globalSetup: ['tests/global-setup.ts'],
     // Run by the piece: `npm run test:unit` (pure code, seconds), `test:integration` (the real
     // server on port 0), `test:e2e` (Debian Chromium against the built client); `npm test` runs all.
+    // With TEST_DATABASE_URL (a PostgreSQL server), the integration suite runs a second time on
+    // PostgreSQL (`--project postgres` picks that pass alone).
     projects: [
       { extends: true, test: { name: 'unit', include: ['tests/unit/**/*.test.ts'] } },
       { extends: true, test: { name: 'integration', include: ['tests/integration/**/*.test.ts'] } },
       { extends: true, test: { name: 'e2e', include: ['tests/e2e/**/*.test.ts'] } },
+      ...(process.env.TEST_DATABASE_URL
+        ? [{ extends: true as const, test: { name: 'postgres', include: ['tests/integration/**/*.test.ts'], env: { TEST_ENGINE: 'postgres' } } }]
+        : []),
     ],
   },
 });

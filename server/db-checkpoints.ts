@@ -2,6 +2,7 @@ import { once } from 'node:events';
 import { Worker } from 'node:worker_threads';
 import type { Knex } from 'knex';
 import type { Logger } from 'pino';
+import { isPostgres } from './db';
 
 /**
  * SQLite in WAL mode copies the log back into the database file every 1,000 pages. It does so
@@ -26,7 +27,8 @@ export type CheckpointResult = { kind: 'checkpointed'; busy: number; log: number
 const SQLITE_DEFAULT_AUTOCHECKPOINT = 1000;
 
 export async function startCheckpoints(db: Knex, filename: string, logger: Logger, everyMs = 1000): Promise<Checkpoints | null> {
-  if (filename === ':memory:' || filename === '') return null;
+  // PostgreSQL checkpoints by itself, off the committing backends; there is nothing to move.
+  if (isPostgres(db) || filename === ':memory:' || filename === '') return null;
   const [mode] = (await db.raw('PRAGMA journal_mode')) as Array<{ journal_mode: string }>;
   if (mode?.journal_mode !== 'wal') return null;
 

@@ -4,6 +4,7 @@ import { dirname, join, resolve } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import knex, { type Knex } from 'knex';
 import { LRUCache } from 'lru-cache';
+import pg from 'pg';
 import { loadAuditKey } from './audit-key';
 import { migrationsDir } from './paths';
 import { useAuditKey } from './services/audit/audit';
@@ -48,6 +49,23 @@ export function keepStatements(conn: SqliteConnection, size = 500): void {
   };
 }
 
+/** True for a PostgreSQL connection URL (DATABASE_URL), false for an SQLite file name. */
+export const isPostgresUrl = (target: string) => /^postgres(ql)?:\/\//.test(target);
+
+/** True when the database is PostgreSQL; the one test every dialect branch uses. */
+export const isPostgres = (db: Knex) => db.client.config.client === 'pg';
+
+// PostgreSQL answers bigint (int8) and count(*) as strings, since they may exceed 2^53. Every
+// bigint here is a time in ms or an id, far below that, so they come back as numbers, as SQLite
+// gives them. A value past Number.MAX_SAFE_INTEGER would be an error, not a rounding.
+pg.types.setTypeParser(pg.types.builtins.INT8, (text) => {
+  const n = Number(text);
+  if (!Number.isSafeInteger(n)) throw new Error(`a bigint column holds ${text}, past the largest safe number`);
+  return n;
+});
+// numeric (from AVG, SUM over integers, ROUND) as a number too, as SQLite answers it.
+pg.types.setTypeParser(pg.types.builtins.NUMERIC, (text) => Number(text));
+
 /**
  * Transactions take SQLite's write lock when they begin. Several processes may share one file
  * (WAL allows it on one machine); a transaction that read first and wrote later would fail at
@@ -60,9 +78,21 @@ export function beginImmediately(conn: SqliteConnection): void {
 
 /**
  * Opens the database with its audit key: `auditKey` when given, else AUDIT_KEY or the key file
- * in the database's folder (DATA_DIR). An in-memory database gets a key of its own for its life.
+ * in the database's folder (DATA_DIR; `keyDir` for a PostgreSQL URL). An in-memory database gets
+ * a key of its own for its life.
  */
-export function createDb(filename: string, opts: { auditKey?: Buffer } = {}): Db {
+export function createDb(target: string, opts: { auditKey?: Buffer; keyDir?: string } = {}): Db {
+  if (isPostgresUrl(target)) {
+    const db = knex({
+      client: 'pg',
+      connection: target,
+      pool: { min: 0, max: 10 },
+      migrations: { migrationSource, tableName: 'knex_migrations' },
+    });
+    useAuditKey(db, opts.auditKey ?? loadAuditKey(resolve(opts.keyDir ?? process.env.DATA_DIR ?? './data')));
+    return db;
+  }
+  const filename = target;
   const memory = filename === ':memory:' || filename === '';
   const db = knex({
     client: 'better-sqlite3',
@@ -88,6 +118,11 @@ export function createDb(filename: string, opts: { auditKey?: Buffer } = {}): Db
   return db;
 }
 
+/** The configured database: PostgreSQL when DATABASE_URL is set, else the SQLite file in DATA_DIR. */
+export function openDb(config: { databaseUrl: string | null; databaseFile: string; dataDir: string }): Db {
+  return createDb(config.databaseUrl ?? config.databaseFile, { keyDir: config.dataDir });
+}
+
 export async function migrate(db: Db): Promise<string[]> {
   const [, applied] = (await db.migrate.latest()) as [number, string[]];
   return applied;
@@ -95,3 +130,18 @@ export async function migrate(db: Db): Promise<string[]> {
 
 /** Milliseconds since the epoch: one portable representation for every timestamp column. */
 export const now = (clock: { now(): number }) => clock.now();
+
+/**
+ * The rows of a raw SELECT: better-sqlite3 answers them as the array itself, pg as `{ rows }`.
+ * Prefer the query builder; where SQL must be written out, read it through here.
+ */
+export async function selectRows<T>(db: Knex, sql: string, bindings: readonly Knex.RawBinding[] = []): Promise<T[]> {
+  const result = (await db.raw(sql, bindings)) as T[] | { rows: T[] };
+  return Array.isArray(result) ? result : result.rows;
+}
+
+/** A unique constraint refused the row: SQLite's SQLITE_CONSTRAINT_UNIQUE or PostgreSQL's 23505. */
+export function isUniqueViolation(err: unknown): boolean {
+  const code = (err as { code?: unknown } | null)?.code;
+  return code === '23505' || code === 'SQLITE_CONSTRAINT_UNIQUE' || code === 'SQLITE_CONSTRAINT_PRIMARYKEY';
+}

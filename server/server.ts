@@ -5,7 +5,7 @@ import type { Knex } from 'knex';
 import type { ViteDevServer } from 'vite';
 import { createApp } from './app';
 import type { Config } from './config';
-import { createDb, migrate } from './db';
+import { migrate, openDb } from './db';
 import { startCheckpoints } from './db-checkpoints';
 import { systemClock, type AppDeps, type Clock } from './deps';
 import { createSessionMiddleware } from './auth/session';
@@ -68,7 +68,7 @@ export interface StartOptions {
 export async function startServer(config: Config, opts: StartOptions = {}): Promise<RunningServer> {
   const logger = opts.logger ?? pino({ level: config.logLevel, base: undefined });
   const clock = opts.clock ?? systemClock;
-  const db = opts.db ?? createDb(config.databaseFile);
+  const db = opts.db ?? openDb(config);
   const applied = await migrate(db);
   if (applied.length) logger.info({ applied }, 'database migrated');
   if (config.seedDemo && (await isEmpty(db))) {

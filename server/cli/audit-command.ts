@@ -2,7 +2,7 @@ import { existsSync } from 'node:fs';
 import type { Knex } from 'knex';
 import pino from 'pino';
 import { loadConfig } from '../config';
-import { createDb } from '../db';
+import { openDb } from '../db';
 import { systemClock } from '../deps';
 import { createMailer, type Mailer } from '../mail';
 import { verifyAuditChain } from '../services/audit/audit';
@@ -36,11 +36,11 @@ export async function auditCommand(args: string[], io: Pick<CliIo, 'stdout' | 's
   let db = opts.db;
   const config = opts.db ? null : loadConfig();
   if (!db) {
-    if (!existsSync(config!.databaseFile)) {
+    if (!config!.databaseUrl && !existsSync(config!.databaseFile)) {
       io.stderr.write(`There is no database at ${config!.databaseFile}; set DATA_DIR to the folder that holds plumbline.sqlite.\n`);
       return 2;
     }
-    db = createDb(config!.databaseFile);
+    db = openDb(config!);
   }
   try {
     if (!(await db.schema.hasTable('audit_log'))) {

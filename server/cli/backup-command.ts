@@ -13,6 +13,14 @@ const RESTORE_USAGE = 'usage: plumbline restore FILE   (stop the server first; t
 
 type Io = Pick<CliIo, 'stdout' | 'stderr'>;
 
+/** On PostgreSQL (DATABASE_URL set) the copy is PostgreSQL's own business: answers the refusal, or null. */
+function refusedOnPostgres(command: 'backup' | 'restore', io: Io, opts: { databaseFile?: string }): number | null {
+  if (opts.databaseFile !== undefined || !loadConfig().databaseUrl) return null;
+  const tool = command === 'backup' ? 'pg_dump (for example pg_dump --format=custom --file=FILE "$DATABASE_URL")' : 'pg_restore (for example pg_restore --clean --dbname="$DATABASE_URL" FILE)';
+  io.stderr.write(`DATABASE_URL is set: the database is PostgreSQL, and plumbline ${command} copies only the SQLite file. Use ${tool}, or PostgreSQL's continuous archiving.\n`);
+  return 2;
+}
+
 export interface BackupCheck { ok: boolean; problem?: string; cases: number; auditRows: number; migrations: number }
 
 /** Opens a database file read-only and says whether it is whole and is one of ours. */
@@ -94,6 +102,8 @@ export async function backupCommand(args: string[], io: Io, opts: { databaseFile
     io.stderr.write(BACKUP_USAGE);
     return 2;
   }
+  const refused = refusedOnPostgres('backup', io, opts);
+  if (refused !== null) return refused;
   const databaseFile = opts.databaseFile ?? loadConfig().databaseFile;
   const target = resolve(args[0]);
   if (!existsSync(databaseFile)) {
@@ -124,6 +134,8 @@ export async function restoreCommand(args: string[], io: Io, opts: { databaseFil
     io.stderr.write(RESTORE_USAGE);
     return 2;
   }
+  const refused = refusedOnPostgres('restore', io, opts);
+  if (refused !== null) return refused;
   const databaseFile = opts.databaseFile ?? loadConfig().databaseFile;
   const source = resolve(args[0]);
   if (!existsSync(source)) {

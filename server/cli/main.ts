@@ -3,7 +3,7 @@ import { existsSync } from 'node:fs';
 import { createRequire } from 'node:module';
 import { dirname, join } from 'node:path';
 import { loadConfig } from '../config';
-import { createDb, migrate } from '../db';
+import { migrate, openDb } from '../db';
 import { systemClock } from '../deps';
 import { DEMO_PASSWORD, demoAccounts, isEmpty, seedDemo } from '../services/demo/seed';
 import { BUILT_CLIENT, clientBuildIsStale } from './client-build';
@@ -40,14 +40,14 @@ export async function main(argv: string[]): Promise<number> {
     case 'dev':
       return serve(command === 'dev');
     case 'migrate': {
-      const db = createDb(loadConfig().databaseFile);
+      const db = openDb(loadConfig());
       const applied = await migrate(db);
       console.log(applied.length ? `Applied ${applied.length} migration(s): ${applied.join(', ')}` : 'The database is up to date.');
       await db.destroy();
       return 0;
     }
     case 'seed': {
-      const db = createDb(loadConfig().databaseFile);
+      const db = openDb(loadConfig());
       await migrate(db);
       if (!(await isEmpty(db))) {
         console.error('The database already has people in it; the demo scenario loads only into an empty one.');

@@ -12,6 +12,7 @@ import { appendAudit, GENESIS_HASH, rowHash, startKeyedChain, systemActor, verif
 import { periodStart } from '../../server/services/jobs/claims';
 import { CHECKPOINT_FILE, CHECKPOINT_JOB, checkCheckpoints, checkpointJob, PROGRAMME_EMAIL_SETTING, writeCheckpoint } from '../../server/services/audit/checkpoints';
 import { setSetting } from '../../server/services/people/settings';
+import { databaseEnv, itOnSqlite } from '../support/database';
 import { startTestServer, type TestServer } from '../support/server';
 import { createForeignRegion, FOREIGN_PASSWORD } from '../support/foreign-region';
 import { signIn } from '../support/sign-in';
@@ -19,9 +20,11 @@ import { command, connectAs, type TestSocket } from '../support/socket';
 
 // Tamper evidence beyond the database file: the chain is keyed with a key kept outside it, and
 // signed checkpoints of its head leave the machine. Each tamper below works on a COPY of the
-// data directory (database and key), as someone who took the files would.
+// data directory (database and key), as someone who took the files would. Those work on the
+// SQLite file, so the PostgreSQL pass leaves them out; the rest runs on both.
 
 const run = promisify(execFile);
+const onCopyOfFile = itOnSqlite('it tampers with a copy of the database file');
 const PROGRAMME = 'trauma-programme@alderwick-general.plumbline.test';
 // 34-year-old, SBP 84 < 90 (2021 guideline, Newgard 2022 [source]): full under the example policy.
 const FULL = { ageYears: 34, sex: 'male', fall: { heightM: 4 }, vitals: { sbp: 84, hr: 120 } };
@@ -53,7 +56,7 @@ async function submit(): Promise<number> {
 
 async function cli(dataDir: string, ...args: string[]): Promise<{ code: number; stdout: string; stderr: string }> {
   try {
-    const { stdout, stderr } = await run(process.execPath, ['server/cli/bin.mjs', 'audit', ...args], { env: { ...process.env, DATA_DIR: dataDir, NODE_ENV: 'test', SMTP_URL: '', AUDIT_KEY: '' } });
+    const { stdout, stderr } = await run(process.execPath, ['server/cli/bin.mjs', 'audit', ...args], { env: { ...process.env, DATA_DIR: dataDir, NODE_ENV: 'test', SMTP_URL: '', AUDIT_KEY: '', ...(dataDir === server.dataDir ? databaseEnv(server.config) : {}) } });
     return { code: 0, stdout, stderr };
   } catch (err) {
     const e = err as { code: number; stdout: string; stderr: string };
@@ -101,7 +104,7 @@ describe('the audit key', () => {
     expect((statSync(join(dir, AUDIT_KEY_FILE)).mode & 0o777).toString(8)).toBe('600');
   });
 
-  it('a row rewritten without the key breaks the chain, though its plain SHA-256 is right', async () => {
+  onCopyOfFile('a row rewritten without the key breaks the chain, though its plain SHA-256 is right', async () => {
     await submit();
     const dir = await copyOfDataDir();
     const row = await withDb(dir, async (db) => {
@@ -117,7 +120,7 @@ describe('the audit key', () => {
     expect(out.stdout).toMatch(new RegExp(`^Audit trail BROKEN at row ${row.id}: its content does not match its hash`));
   });
 
-  it('a chain checked with another key says so', async () => {
+  onCopyOfFile('a chain checked with another key says so', async () => {
     const dir = await copyOfDataDir();
     writeFileSync(join(dir, AUDIT_KEY_FILE), 'another-key-'.repeat(4), { mode: 0o600 });
     const out = await cli(dir, 'verify');
@@ -177,7 +180,7 @@ describe('signed checkpoints', () => {
     expect(claims.map((c) => Number(c.period_start)).sort()).toEqual([...periods].sort());
   });
 
-  it('a copy whose tail was cut off still passes the chain check, and fails against the checkpoints', async () => {
+  onCopyOfFile('a copy whose tail was cut off still passes the chain check, and fails against the checkpoints', async () => {
     await submit();
     await writeCheckpoint({ db: server.db, clock: { now: () => Date.now() }, mailer: null, file: join(server.dataDir, CHECKPOINT_FILE) });
     const head = await server.db('audit_log').orderBy('id', 'desc').first('id');
@@ -200,7 +203,7 @@ describe('signed checkpoints', () => {
     expect(against.stdout).toMatch(/Checkpoints FAIL: \d+ of \d+ checkpoint\(s\) do not match the database\.\n$/);
   }, 60_000);
 
-  it('a copy whose tail was rewritten with the key passes the chain check, and fails against the checkpoints', async () => {
+  onCopyOfFile('a copy whose tail was rewritten with the key passes the chain check, and fails against the checkpoints', async () => {
     await submit();
     await writeCheckpoint({ db: server.db, clock: { now: () => Date.now() }, mailer: null, file: join(server.dataDir, CHECKPOINT_FILE) });
     const head = await server.db('audit_log').orderBy('id', 'desc').first('id');

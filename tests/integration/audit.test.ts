@@ -4,6 +4,7 @@ import { promisify } from 'node:util';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { appendAudit, appendAudits, systemActor, verifyAuditChain } from '../../server/services/audit/audit';
 import type { Mailer } from '../../server/mail';
+import { databaseEnv, onPostgres } from '../support/database';
 import { startTestServer, type TestServer } from '../support/server';
 import { signIn, type SignedInClient } from '../support/sign-in';
 import { command, connectAs, type TestSocket } from '../support/socket';
@@ -116,10 +117,14 @@ describe('every step on a case is exactly one audit row', () => {
   });
 });
 
+// The append-only guard is one trigger for both on PostgreSQL, one for each on SQLite.
+const dropAuditGuard = (kind: 'update' | 'delete') =>
+  server.db.raw(onPostgres ? 'DROP TRIGGER IF EXISTS audit_log_no_change ON audit_log' : `DROP TRIGGER audit_log_no_${kind}`);
+
 describe('plumbline audit verify', () => {
   const verify = async () => {
     try {
-      const { stdout } = await run(process.execPath, ['server/cli/bin.mjs', 'audit', 'verify'], { env: { ...process.env, DATA_DIR: server.dataDir, NODE_ENV: 'test' } });
+      const { stdout } = await run(process.execPath, ['server/cli/bin.mjs', 'audit', 'verify'], { env: { ...process.env, DATA_DIR: server.dataDir, NODE_ENV: 'test', ...databaseEnv(server.config) } });
       return { code: 0, stdout };
     } catch (err) {
       const e = err as { code: number; stdout: string };
@@ -172,7 +177,7 @@ describe('plumbline audit verify', () => {
     // Someone with the database file softens a decision on the record: drop the guard, edit the row.
     const target = await server.db('audit_log').where({ action: 'case.level-decided' }).orderBy('id').first();
     const position = Number((await server.db('audit_log').where('id', '<=', target.id).count({ n: '*' }).first())?.n);
-    await server.db.raw('DROP TRIGGER audit_log_no_update');
+    await dropAuditGuard('update');
     await server.db('audit_log').where({ id: target.id }).update({ after: target.after.replace('"limited"', '"full"') });
 
     expect(await verifyAuditChain(server.db)).toEqual({ ok: false, rows: position, brokenAt: target.id, reason: 'its content does not match its hash (the row was changed)' });
@@ -189,7 +194,7 @@ describe('plumbline audit verify', () => {
   it('finds a row removed behind the application’s back by the next row’s broken link', async () => {
     const victim = await server.db('audit_log').where({ action: 'case.paged' }).orderBy('id').first();
     const afterVictim = await server.db('audit_log').where('id', '>', victim.id).orderBy('id').first();
-    await server.db.raw('DROP TRIGGER audit_log_no_delete');
+    await dropAuditGuard('delete');
     await server.db('audit_log').where({ id: victim.id }).del();
     const check = await verifyAuditChain(server.db);
     expect(check).toMatchObject({ ok: false, brokenAt: afterVictim.id, reason: 'its link to the previous row does not match (a row was removed or inserted)' });

@@ -12,6 +12,7 @@ import { createDb } from '../../server/db';
 import { verifyAuditChain } from '../../server/services/audit/audit';
 import { loadAuditKey } from '../../server/audit-key';
 import { backupCommand, restoreCommand } from '../../server/cli/backup-command';
+import { itOnSqlite, onPostgres } from '../support/database';
 import { signIn } from '../support/sign-in';
 import { childServer, databaseFileOf, tempDataDir, type ChildServer } from '../bench/support/child-server';
 
@@ -34,7 +35,11 @@ function runCli(command: typeof backupCommand, args: string[], databaseFile: str
 
 let server: ChildServer;
 let backups: string;
+// SQLite's online backup of its file; on PostgreSQL the command refuses and points to pg_dump
+// (tests/unit/server/cli/database-url.test.ts).
+const onSqliteFile = itOnSqlite('it copies and restores the SQLite file');
 beforeAll(async () => {
+  if (onPostgres) return;
   // One crew account sends the whole stream: lift the per-account and per-unit flood limits.
   server = await childServer({ env: { CREW_COMMANDS_PER_MINUTE: '10000', UNIT_COMMANDS_PER_MINUTE: '10000' } });
   await server.start();
@@ -42,11 +47,11 @@ beforeAll(async () => {
 }, 90_000);
 afterAll(async () => {
   await server?.dispose();
-  rmSync(backups, { recursive: true, force: true });
+  if (backups) rmSync(backups, { recursive: true, force: true });
 });
 
 describe('plumbline backup FILE while the server takes pre-alerts', () => {
-  it('writes a copy that passes the integrity check, holds whole cases only, and keeps the audit chain', async () => {
+  onSqliteFile('writes a copy that passes the integrity check, holds whole cases only, and keeps the audit chain', async () => {
     const medic = await signIn(server.url, 'paramedic@plumbline.test');
     const me = await (await (await signIn(server.url, 'nurse@plumbline.test')).get('/api/me')).json();
     const hospitalId = me.memberships[0].id as number;
@@ -102,7 +107,7 @@ describe('plumbline backup FILE while the server takes pre-alerts', () => {
     }
   }, 60_000);
 
-  it('never overwrites an existing file', async () => {
+  onSqliteFile('never overwrites an existing file', async () => {
     const file = join(backups, 'taken.sqlite');
     writeFileSync(file, 'something precious');
     const result = await runCli(backupCommand, [file], databaseFileOf(server.dataDir));
@@ -110,7 +115,7 @@ describe('plumbline backup FILE while the server takes pre-alerts', () => {
     expect(result.err).toBe(`${file} already exists; a backup never overwrites a file. Choose a new name.\n`);
   });
 
-  it('answers a missing file name with the usage', async () => {
+  onSqliteFile('answers a missing file name with the usage', async () => {
     const result = await runCli(backupCommand, [], databaseFileOf(server.dataDir));
     expect(result.code).toBe(2);
     expect(result.err).toMatch(/^usage: plumbline backup FILE/);
@@ -118,7 +123,7 @@ describe('plumbline backup FILE while the server takes pre-alerts', () => {
 });
 
 describe('plumbline restore FILE', () => {
-  it('refuses while the server has the database open, and changes nothing', async () => {
+  onSqliteFile('refuses while the server has the database open, and changes nothing', async () => {
     const file = join(backups, 'during-writes.sqlite');
     const result = await runCli(restoreCommand, [file], databaseFileOf(server.dataDir));
     expect(result.code).toBe(1);
@@ -127,14 +132,14 @@ describe('plumbline restore FILE', () => {
     expect((await fetch(`${server.url}/api/health`)).status).toBe(200);
   });
 
-  it('refuses a file that is not a Plumbline database', async () => {
+  onSqliteFile('refuses a file that is not a Plumbline database', async () => {
     const file = join(backups, 'taken.sqlite');
     const result = await runCli(restoreCommand, [file], databaseFileOf(server.dataDir));
     expect(result.code).toBe(1);
     expect(result.err).toBe(`${file} cannot be restored: file is not a database. Nothing was changed.\n`);
   });
 
-  it('puts the backup back once the server is stopped, keeps the replaced file, and the server starts on it', async () => {
+  onSqliteFile('puts the backup back once the server is stopped, keeps the replaced file, and the server starts on it', async () => {
     const file = join(backups, 'during-writes.sqlite');
     const medic = await signIn(server.url, 'paramedic@plumbline.test');
     const crew: Socket = connect(server.url, { transports: ['websocket'], forceNew: true, reconnection: false, extraHeaders: { cookie: await medic.cookieHeader() } });

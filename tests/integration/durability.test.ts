@@ -9,16 +9,23 @@ import { createDb } from '../../server/db';
 import { verifyAuditChain } from '../../server/services/audit/audit';
 import { signIn } from '../support/sign-in';
 import { childServer, databaseFileOf, type ChildServer } from '../bench/support/child-server';
+import { createTestDatabase, onPostgres, type TestDatabase } from '../support/database';
 
 let server: ChildServer;
+// In the PostgreSQL pass the child process runs on a database of its own there.
+let database: TestDatabase | null = null;
 beforeAll(async () => {
+  database = onPostgres ? await createTestDatabase() : null;
   // Fifty commands from one crew account at once, more than its minute's limit: this file is
   // about what an acknowledgement promises, so the account may send them all (flood.test.ts
   // holds the limit itself).
-  server = await childServer({ env: { CREW_COMMANDS_PER_MINUTE: '1000' } });
+  server = await childServer({ env: { CREW_COMMANDS_PER_MINUTE: '1000', ...(database ? { DATABASE_URL: database.url } : {}) } });
   await server.start();
 }, 90_000);
-afterAll(() => server?.dispose());
+afterAll(async () => {
+  await server?.dispose();
+  await database?.drop();
+});
 
 type Submitted = AckResponse<{ caseId: number; caseNumber: string; created: boolean; summary: CaseSummary }>;
 
@@ -84,8 +91,8 @@ describe('kill -9 of the server straight after the acknowledgements', () => {
     await server.stop('SIGKILL');
     expect(killedAfter).toBe(50);
 
-    // The file as the killed process left it, opened directly.
-    const db = createDb(databaseFileOf(server.dataDir));
+    // The database as the killed process left it, opened directly.
+    const db = database ? createDb(database.url, { keyDir: server.dataDir }) : createDb(databaseFileOf(server.dataDir));
     try {
       const rows = await db('cases').whereIn('client_id', clientIds).select('id', 'client_id', 'case_number', 'current_revision', 'state');
       expect(rows).toHaveLength(count);

@@ -10,6 +10,7 @@ import { afterAll, describe, expect, it } from 'vitest';
 import { io as connect, type Socket } from 'socket.io-client';
 import type { AckResponse, ClientToServerEvents, ServerToClientEvents } from '../../shared/realtime/events';
 import type { ClinicalInput } from '../../shared/schemas/clinical';
+import { createTestDatabase, onPostgres, type TestDatabase } from '../support/database';
 import { signIn } from '../support/sign-in';
 import { redisUnavailable, testRedisPrefix, testRedisUrl } from '../support/redis';
 import { childServer, freePort, repoRoot, tempDataDir, type ChildServer } from '../bench/support/child-server';
@@ -31,8 +32,9 @@ const ALERTS = 300;
 const SENDS_PER_SECOND = 25;
 const KILL_AFTER = 150;
 
-/** The database the region shares: PostgreSQL when the suite is given one. */
-const databaseEnv = (): Record<string, string> => (process.env.TEST_DATABASE_URL ? { DATABASE_URL: process.env.TEST_DATABASE_URL } : {});
+/** The database the region shares: a fresh PostgreSQL database on the PostgreSQL pass, else the SQLite file in the data folder. */
+let database: TestDatabase | null = null;
+const databaseEnv = (): Record<string, string> => (database ? { DATABASE_URL: database.url } : {});
 
 function runCli(args: string[], env: Record<string, string>): Promise<{ code: number | null; out: string }> {
   const child = spawn(process.execPath, [join(repoRoot, 'server/cli/bin.mjs'), ...args], { cwd: repoRoot, env: { ...process.env, ...env }, stdio: ['ignore', 'pipe', 'pipe'] });
@@ -56,11 +58,13 @@ describe.skipIf(Boolean(unavailable))('failover: two processes, one SIGKILLed mi
     await relay?.close();
     await first?.dispose();
     await second?.dispose();
+    await database?.drop();
   });
 
   it('loses none of 300 pre-alerts, doubles none, every board shows each once, and the audit chain verifies', async () => {
     // Both processes share the data folder (its secrets and keys) and the database; the first
     // migrates and loads the demo, the second finds them there.
+    database = onPostgres ? await createTestDatabase() : null;
     const env = {
       ...databaseEnv(),
       REDIS_URL: testRedisUrl,

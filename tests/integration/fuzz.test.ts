@@ -104,11 +104,12 @@ const TABLES = ['cases', 'case_revisions', 'case_events', 'audit_log', 'reviews'
 /** Row counts of every table a request could write, and a digest of the rows updates touch. */
 async function fingerprint(): Promise<string> {
   const counts = await Promise.all(TABLES.map(async (t) => Number((await server.db(t).count({ n: '*' }).first())!.n)));
-  const cases = await server.db('cases').select(server.db.raw('sum(row_version) as v, group_concat(state) as s, group_concat(coalesce(bay, \'\')) as b')).first();
-  const people = await server.db('users').select(server.db.raw("group_concat(name || active, '|') as p")).first();
-  const places = await server.db('hospitals').select(server.db.raw("group_concat(name || short_name || escalation_minutes || height_unit, '|') as h")).first();
-  const units = await server.db('units').select(server.db.raw("group_concat(call_sign || active, '|') as u")).first();
-  const settings = await server.db('settings').select(server.db.raw("group_concat(value, '|') as s")).first();
+  // Read with the query builder, in id order, so the digest is the same on SQLite and PostgreSQL.
+  const cases = await server.db('cases').orderBy('id').select('row_version', 'state', 'bay');
+  const people = await server.db('users').orderBy('id').select('name', 'active');
+  const places = await server.db('hospitals').orderBy('id').select('name', 'short_name', 'escalation_minutes', 'height_unit');
+  const units = await server.db('units').orderBy('id').select('call_sign', 'active');
+  const settings = await server.db('settings').orderBy(['hospital_id', 'key']).select('value');
   return JSON.stringify([counts, cases, people, places, units, settings]);
 }
 

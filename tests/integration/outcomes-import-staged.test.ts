@@ -3,6 +3,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { abandonStagedImports } from '../../server/services/outcomes/store';
 import { verifyAuditChain } from '../../server/services/audit/audit';
 import { addClosedCases, outcomesCsv } from '../bench/support/closed-cases';
+import { onPostgres } from '../support/database';
 import { startTestServer, type TestServer } from '../support/server';
 import { signIn, type SignedInClient } from '../support/sign-in';
 import { command, connectAs, type TestSocket } from '../support/socket';
@@ -92,12 +93,18 @@ describe('an import that fails half-way', () => {
     const caseNumbers = (await server.db('cases').whereIn('id', cases.map((c) => c.case_id)).orderBy('id').select('case_number')).map((c) => c.case_number as string);
     const failAt = cases[450].case_id;
     // The disk fills, say, at the tenth chunk: here a trigger refuses that row.
-    await server.db.raw(`CREATE TRIGGER staging_fails BEFORE INSERT ON outcome_staging WHEN NEW.case_id = ${failAt} BEGIN SELECT RAISE(ABORT, 'disk I/O error'); END`);
+    if (onPostgres) {
+      await server.db.raw(`CREATE FUNCTION staging_fails() RETURNS trigger AS $$ BEGIN RAISE EXCEPTION 'disk I/O error'; END $$ LANGUAGE plpgsql`);
+      await server.db.raw(`CREATE TRIGGER staging_fails BEFORE INSERT ON outcome_staging FOR EACH ROW WHEN (NEW.case_id = ${failAt}) EXECUTE FUNCTION staging_fails()`);
+    } else {
+      await server.db.raw(`CREATE TRIGGER staging_fails BEFORE INSERT ON outcome_staging WHEN NEW.case_id = ${failAt} BEGIN SELECT RAISE(ABORT, 'disk I/O error'); END`);
+    }
     try {
       const res = await postImport(`case_number,iss\n${caseNumbers.map((n) => `${n},16`).join('\n')}\n`);
       expect(res.status).toBe(500);
     } finally {
-      await server.db.raw('DROP TRIGGER staging_fails');
+      await server.db.raw(onPostgres ? 'DROP TRIGGER staging_fails ON outcome_staging' : 'DROP TRIGGER staging_fails');
+      if (onPostgres) await server.db.raw('DROP FUNCTION staging_fails()');
     }
     const after = await server.db('outcomes').whereIn('case_id', cases.map((c) => c.case_id)).orderBy('case_id').select('case_id', 'iss');
     expect(after).toEqual(cases);

@@ -7,6 +7,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { CaseSummary } from '../../shared/schemas/cases';
+import { createTestDatabase, onPostgres, type TestDatabase } from '../support/database';
 import { startTestServer, type TestServer } from '../support/server';
 import { signIn } from '../support/sign-in';
 import { command, connectAs, nextEvent, type TestSocket } from '../support/socket';
@@ -25,21 +26,25 @@ describe.skipIf(Boolean(unavailable))('several processes on one database and one
   const dataDir = mkdtempSync(join(tmpdir(), 'plumbline-region-'));
   const prefix = testRedisPrefix();
   // Both on the same SQLite file, as two processes of one region; three commands a minute per account.
+  // On the PostgreSQL pass, one test database for both.
   const shared = { dataDir, redisUrl: testRedisUrl, redisPrefix: prefix, crewCommandLimits: { perAccountPerMinute: 3, perUnitPerMinute: 100 } };
+  let database: TestDatabase | null = null;
   let a: TestServer;
   let b: TestServer;
   const sockets: TestSocket[] = [];
   let general: number;
 
   beforeAll(async () => {
-    a = await startTestServer(shared);
-    b = await startTestServer(shared);
+    database = onPostgres ? await createTestDatabase() : null;
+    a = await startTestServer({ ...shared, ...(database ? { databaseUrl: database.url } : {}) });
+    b = await startTestServer({ ...shared, ...(database ? { databaseUrl: database.url } : {}) });
     general = (await a.db('hospitals').where({ name: 'Alderwick General Hospital' }).first('id')).id;
   }, 60_000);
   afterAll(async () => {
     for (const socket of sockets) socket.close();
     await a?.close();
     await b?.close();
+    await database?.drop();
     rmSync(dataDir, { recursive: true, force: true });
   });
 

@@ -1,6 +1,7 @@
 import { randomUUID } from 'node:crypto';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { CaseSummary } from '../../shared/schemas/cases';
+import { onPostgres } from '../support/database';
 import { startTestServer, type TestServer } from '../support/server';
 import { signIn, type SignedInClient } from '../support/sign-in';
 import { command, connectAs, nextEvent, type TestSocket } from '../support/socket';
@@ -140,7 +141,7 @@ describe('a socket follows its session', () => {
     const closed = disconnection(socket, () => expiredAt);
     // The session store's own record of when the session ends, as twelve idle hours would leave it.
     expiredAt = Date.now();
-    const changed = await server.db('sessions').whereRaw("json_extract(sess, '$.userId') = ?", [userId]).update({ expired: new Date(expiredAt - 1000).toISOString() });
+    const changed = await server.db('sessions').whereRaw(onPostgres ? "(sess->>'userId')::int = ?" : "json_extract(sess, '$.userId') = ?", [userId]).update({ expired: new Date(expiredAt - 1000).toISOString() });
     expect(changed).toBe(1);
     const { reason, afterMs } = await closed;
     expect(reason).toBe('io server disconnect');

@@ -11,6 +11,7 @@ import { freePort, repoRoot } from '../bench/support/child-server';
 import { createDb, migrate } from '../../server/db';
 import { systemClock } from '../../server/deps';
 import { seedDemo } from '../../server/services/demo/seed';
+import { itOnSqlite } from '../support/database';
 import { startTestServer } from '../support/server';
 import { signIn, type SignedInClient } from '../support/sign-in';
 import { command, connectAs, type TestSocket } from '../support/socket';
@@ -27,7 +28,7 @@ const dataDir = mkdtempSync(join(tmpdir(), 'plumbline-stop-'));
 afterAll(() => rmSync(dataDir, { recursive: true, force: true }));
 
 describe('SIGTERM after a burst of activity', () => {
-  it('ends the process within 10 s, and an escalation round under way never meets a closed mail server', async () => {
+  itOnSqlite('it seeds and reads the SQLite file beside the child process')('ends the process within 10 s, and an escalation round under way never meets a closed mail server', async () => {
     // The demo, with the trauma centre escalating at once, so the pre-alerts below turn overdue
     // at the server's next look and an escalation round is mailing when the stop comes.
     const file = join(dataDir, 'plumbline.sqlite');

@@ -87,9 +87,18 @@ export async function newestAuditRow(db: Knex): Promise<{ id: number; hash: stri
 }
 
 /**
+ * The PostgreSQL advisory lock that serialises appends to the chain (an arbitrary fixed number,
+ * the same in every process). SQLite needs none: it has one writer at a time.
+ */
+export const AUDIT_APPEND_LOCK = 7_211_458_301;
+
+/**
  * Appends one row. Call it inside the transaction that makes the change, so the record and the
- * change commit together; SQLite's single writer keeps the chain in order. The first row written
- * with a key records itself as the start of the keyed chain, in the same transaction.
+ * change commit together. SQLite's single writer keeps the chain in order; on PostgreSQL the
+ * append takes a transaction-level advisory lock, held until that transaction ends, so one writer
+ * at a time reads the head and links to it, and the rows' ids follow the order of their commits
+ * (which the boards' changes-since cursor relies on). The first row written with a key records
+ * itself as the start of the keyed chain, in the same transaction.
  */
 export async function appendAudit(db: Knex, entry: AuditEntry): Promise<number> {
   const [id] = await appendAudits(db, [entry]);
@@ -104,6 +113,11 @@ export async function appendAudit(db: Knex, entry: AuditEntry): Promise<number> 
 export async function appendAudits(db: Knex, entries: AuditEntry[]): Promise<number[]> {
   if (!entries.length) return [];
   const state = keyState(db);
+  if (db.client.config.client === 'pg') {
+    // Outside a transaction the lock would end with its own statement: make one.
+    if (!db.isTransaction) return db.transaction((trx) => appendAudits(trx, entries));
+    await db.raw('SELECT pg_advisory_xact_lock(?)', [AUDIT_APPEND_LOCK]);
+  }
   let prevHash = (await newestAuditRow(db))?.hash ?? GENESIS_HASH;
   const rows = entries.map((entry) => {
     const row = {

@@ -1,4 +1,5 @@
 import type { Knex } from 'knex';
+import { isUniqueViolation } from '../../db';
 import type { Me, Role } from '../../../shared/roles';
 import {
   NOTIFICATION_LISTS,
@@ -29,7 +30,6 @@ import { membershipsOf, rolesOf } from './users';
 // changes only those places' records.
 
 const actorOf = (me: Me): Actor => ({ id: me.user.id, role: 'admin' });
-const isUniqueViolation = (err: unknown) => /UNIQUE constraint failed/.test(String((err as Error)?.message));
 
 function scopeOf(me: Me) {
   return { hospitals: new Set(hospitalIdsOf(me)), agencies: new Set(agencyIdsOf(me)) };

@@ -14,6 +14,7 @@ import { toCsv, type CsvColumn } from './csv';
 import { policyInForce } from '../policies/policies';
 import { getSetting, setSetting } from '../people/settings';
 import { periodOf, type Period } from './period';
+import { selectRows } from '../../db';
 
 // The over- and under-triage report: one indexed scan over the hospital's cases in the period,
 // joined with their outcomes and the facts of their latest revision, grouped in SQLite and
@@ -167,9 +168,10 @@ async function groupCases(db: Knex, hospitalId: number, period: Period): Promise
   // The outcome for shared/quality to classify (SQL only filters and counts): whether one is
   // stored, the ISS split at shared/quality's threshold (0 not known, 1 at or below, 2 above),
   // and the NFTI (0 not known, 1 no, 2 yes). Grouping by the ISS itself made ~50 times the groups.
-  const outcome = `((o.case_id IS NOT NULL) * 9 + (CASE WHEN o.iss IS NULL THEN 0 WHEN o.iss > ${MAJOR_TRAUMA_ISS_ABOVE} THEN 2 ELSE 1 END) * 3 + (CASE WHEN o.nfti_positive IS NULL THEN 0 WHEN o.nfti_positive THEN 2 ELSE 1 END))`;
-  const key = `((((${month} * ${AGENCY_SPAN} + c.agency_id) * 8 + ${band}) * 5 + ${LEVEL_SQL('c.decided_level')}) * 5 + ${LEVEL_SQL('c.recommended_level')}) * ${OUTCOME_SPAN} + ${outcome}`;
-  const rows: Array<{ k: number; criteria: string | null; n: number }> = await db.raw(
+  const outcome = `((CASE WHEN o.case_id IS NULL THEN 0 ELSE 1 END) * 9 + (CASE WHEN o.iss IS NULL THEN 0 WHEN o.iss > ${MAJOR_TRAUMA_ISS_ABOVE} THEN 2 ELSE 1 END) * 3 + (CASE WHEN o.nfti_positive IS NULL THEN 0 WHEN o.nfti_positive THEN 2 ELSE 1 END))`;
+  const key = `((((CAST(${month} AS BIGINT) * ${AGENCY_SPAN} + c.agency_id) * 8 + ${band}) * 5 + ${LEVEL_SQL('c.decided_level')}) * 5 + ${LEVEL_SQL('c.recommended_level')}) * ${OUTCOME_SPAN} + ${outcome}`;
+  const rows = await selectRows<{ k: number; criteria: string | null; n: number }>(
+    db,
     `SELECT ${key} AS k, f.criteria AS criteria, COUNT(*) AS n
      FROM cases c LEFT JOIN outcomes o ON o.case_id = c.id LEFT JOIN case_quality_facts f ON f.case_id = c.id
      WHERE c.hospital_id = ? AND c.created_at >= ? AND c.created_at < ? AND c.state <> 'cancelled'

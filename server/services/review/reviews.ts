@@ -106,7 +106,7 @@ function filteredCases(db: Knex, hospitalIds: number[], filters: ReviewFilters, 
   if (filters.below) query.whereNotNull('c.decided_level').whereRaw(`${rankSql('c.decided_level')} < ${rankSql('c.recommended_level')}`);
   if (filters.overdue) query.whereRaw(OVERDUE_SQL);
   if (filters.slowTeam) {
-    const perHospital = [...targets].map(() => 'WHEN ? THEN ?').join(' ');
+    const perHospital = [...targets].map(() => 'WHEN ? THEN CAST(? AS BIGINT)').join(' ');
     query.whereNotNull('c.team_at_bedside_at').whereNotNull('c.arrived_at')
       .whereRaw(`${TEAM_MS} > (CASE c.hospital_id ${perHospital} END) * ${MINUTE}`, [...targets].flat());
   }
