@@ -4,8 +4,8 @@ import type { Ack } from '../../shared/realtime/events';
 import type { CaseSummary } from '../../shared/schemas/cases';
 import { crewView, readsAsCrew } from '../services/cases/crew';
 import type { AppDeps } from '../deps';
-import { forbidden, parseOr400 } from '../errors';
-import { hasRole } from '../auth/guards';
+import { parseOr400 } from '../errors';
+import { assertMay, roleFor } from '../auth/guards';
 import { cancelCase, caseSummary, redirectCase, reviseCase, submitPreAlert } from '../services/cases/cases';
 import { ackError, type SocketFeature } from '.';
 import { announceCase, announceRemoved } from './broadcast';
@@ -21,15 +21,14 @@ export function caseCommands(deps: AppDeps): SocketFeature {
       socket.on(event as never, (async (raw: unknown, ack: Ack<T>) => {
         if (typeof ack !== 'function') return;
         try {
-          const me = socket.data.me;
-          if (!hasRole(me, 'paramedic')) throw forbidden('Only a paramedic sends pre-alerts and updates.');
+          assertMay(socket.data.me, 'pre-alerts.send');
           ack({ ok: true, data: await run(parseOr400(schema, raw)) });
         } catch (err) {
           ack(ackError(err, logger));
         }
       }) as never);
     }
-    const actor = () => ({ me: socket.data.me, role: 'paramedic' as const });
+    const actor = () => ({ me: socket.data.me, role: roleFor(socket.data.me, 'pre-alerts.send') });
     const asCrew = (summary: CaseSummary) => (readsAsCrew(socket.data.me, summary) ? crewView(summary) : summary);
 
     command('case:submit', PreAlert, async (payload) => {

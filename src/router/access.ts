@@ -1,9 +1,8 @@
-import type { RouteMeta } from 'vue-router';
+import { mayDo, type Action } from '../../shared/access';
 import type { Role } from '../api/me';
 
-/** An empty role list means any signed-in person; public routes need no sign-in at all. */
-export function canOpen(meta: RouteMeta, roles: readonly Role[]): boolean {
+/** A screen with no action is for anyone signed in; public routes need no sign-in at all. */
+export function canOpen(meta: { access?: Action; public?: boolean }, roles: readonly Role[]): boolean {
   if (meta.public) return true;
-  const allowed = meta.roles ?? [];
-  return allowed.length === 0 || allowed.some((role) => roles.includes(role));
+  return meta.access === undefined || mayDo(roles, meta.access);
 }

@@ -7,7 +7,7 @@ import { OPEN_STATES, type CaseSummary } from '../../../shared/schemas/cases';
 import { surfaceOptions } from '../../../shared/schemas/clinical';
 import { PAGED_LEVELS, PagingPlan, type PagedLevel, type PagingContact, type PagingEntry, type PagingStatus, type ReplyAnswer } from '../../../shared/schemas/paging';
 import { roomOfHospital } from '../../../shared/realtime/events';
-import { assertHospital, hospitalIdsOf } from '../../auth/guards';
+import { assertHospital, hospitalIdsOf, roleFor } from '../../auth/guards';
 import type { Clock } from '../../deps';
 import { forbidden, invalid, notFound } from '../../errors';
 import type { Mailer } from '../../mail';
@@ -56,7 +56,7 @@ export async function setContact(db: Knex, me: Me, userId: number, contact: Pagi
   await db.transaction(async (trx) => {
     const before = await contactOf(trx, userId);
     await trx('paging_contacts').insert({ user_id: userId, email: contact.email, mobile: contact.mobile, updated_at: at }).onConflict('user_id').merge();
-    await appendAudit(trx, { at, actor: { id: me.user.id, role: 'admin' }, action: 'user.paging-contact-set', entity: 'user', entityId: userId, before, after: contact });
+    await appendAudit(trx, { at, actor: { id: me.user.id, role: roleFor(me, 'paging.manage') }, action: 'user.paging-contact-set', entity: 'user', entityId: userId, before, after: contact });
   });
   return contactOf(db, userId);
 }
@@ -82,7 +82,7 @@ export async function savePagingPlan(db: Knex, me: Me, hospitalId: number, plan:
     if (entry.kind === 'person' && !members.has(entry.value)) issues.push({ field: `levels.${level}.tiers[${t}][${i}]`, message: 'that person is not a member of this hospital' });
   }));
   if (issues.length) throw invalid(issues);
-  const actor: Actor = { id: me.user.id, role: 'admin' };
+  const actor: Actor = { id: me.user.id, role: roleFor(me, 'paging.manage') };
   await db.transaction(async (trx) => {
     const before = await getPagingPlan(trx, hospitalId);
     const timing: StoredPlan = { levels: Object.fromEntries(PAGED_LEVELS.map((l) => [l, { minutes: plan.levels[l].minutes, repeats: plan.levels[l].repeats }])) as StoredPlan['levels'], targetMinutes: plan.targetMinutes };

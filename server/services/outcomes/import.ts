@@ -1,15 +1,15 @@
 import { randomBytes } from 'node:crypto';
 import { parse as parseCsv } from 'csv-parse';
 import type { Knex } from 'knex';
-import type { Me, Role } from '../../../shared/roles';
+import type { Me } from '../../../shared/roles';
 import { injuryScores, nftiPositive, type NftiComponents } from '../../../shared/quality';
 import { ISS_REGIONS, type IssRegion } from '../../../shared/quality/iss';
 import {
   AIS_COLUMNS, DISPOSITIONS, OUTCOME_COLUMNS, OUTCOME_COLUMN_NAMES, OUTCOME_FILE_MAX_ROWS,
   type Disposition, type ImportIssue, type ImportPreview, type ImportResult, type OutcomeRecord, type PreviewRow,
 } from '../../../shared/schemas/quality';
-import { assertHospital, hasRole } from '../../auth/guards';
-import { AppError, forbidden, notFound } from '../../errors';
+import { assertHospital, assertMay, roleFor } from '../../auth/guards';
+import { AppError, notFound } from '../../errors';
 import { appendAudit, appendAudits, systemActor, type Actor } from '../audit/audit';
 import { csvCell } from '../quality/csv';
 
@@ -347,18 +347,13 @@ function hold(entry: HeldPreview, at: number): string {
   return token;
 }
 
-export function canImport(me: Me): boolean {
-  return hasRole(me, 'quality', 'admin');
-}
-
 function importer(me: Me): Actor {
-  const role: Role = hasRole(me, 'quality') ? 'quality' : 'admin';
-  return { id: me.user.id, role };
+  return { id: me.user.id, role: roleFor(me, 'quality.manage') };
 }
 
 /** Checks the file and answers every problem; stores nothing but the file, for the confirm. */
 export async function previewOutcomes(db: Knex, me: Me, hospitalId: number, file: UploadedFile, at: number): Promise<ImportPreview> {
-  if (!canImport(me)) throw forbidden('Only the quality team or an administrator imports outcomes.');
+  assertMay(me, 'quality.manage');
   assertHospital(me, hospitalId);
   const { rows, fileIssues } = await parseOutcomeCsv(file.buffer);
   if (fileIssues.length) return { token: null, expiresAt: null, ...summarise(file.originalname, hospitalId, [], fileIssues) };
@@ -515,7 +510,7 @@ export async function abandonStagedImports(db: Knex, at: number): Promise<string
  * before saving; one bad row and nothing is saved.
  */
 export async function importOutcomes(db: Knex, me: Me, hospitalId: number, source: { token: string } | { file: UploadedFile }, at: number): Promise<ImportResult> {
-  if (!canImport(me)) throw forbidden('Only the quality team or an administrator imports outcomes.');
+  assertMay(me, 'quality.manage');
   assertHospital(me, hospitalId);
   let file: UploadedFile;
   if ('token' in source) {

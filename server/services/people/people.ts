@@ -15,7 +15,7 @@ import {
   type UpdateUnit,
   type UpdateUser,
 } from '../../../shared/schemas/people';
-import { agencyIdsOf, assertAgency, assertHospital, hospitalIdsOf } from '../../auth/guards';
+import { agencyIdsOf, assertAgency, assertHospital, hospitalIdsOf, roleFor } from '../../auth/guards';
 import { endSessionsOf } from '../../auth/session';
 import { endIdentitySessionsOf } from '../../idp/store';
 import { hashPassword } from '../../auth/passwords';
@@ -28,7 +28,7 @@ import { membershipsOf, rolesOf } from './users';
 // people who share one of their places, changes only those whose every place is theirs, and
 // changes only those places' records.
 
-const actorOf = (me: Me): Actor => ({ id: me.user.id, role: 'admin' });
+const actorOf = (me: Me): Actor => ({ id: me.user.id, role: roleFor(me, 'people.manage') });
 const isUniqueViolation = (err: unknown) => /UNIQUE constraint failed/.test(String((err as Error)?.message));
 
 function scopeOf(me: Me) {

@@ -5,7 +5,7 @@ import { EXAMPLE_POLICY, Policy, validatePolicy } from '../../../shared/triage/p
 import { withLocalCriteria } from '../../../shared/triage/local-criteria';
 import { looseningWarnings } from '../../../shared/triage/loosening';
 import { rekeyLocalCriteria, settleDraftCriteria } from './local-criteria';
-import { assertHospital, hasRole } from '../../auth/guards';
+import { assertHospital, assertMay, roleFor } from '../../auth/guards';
 import { AppError, conflict, forbidden, invalid, notFound } from '../../errors';
 import { appendAudit, type Actor } from '../audit/audit';
 
@@ -196,7 +196,7 @@ export async function createDraft(db: Knex, me: Me, request: CreateDraft, at: nu
       .insert({ hospital_id: request.hospitalId, policy_id: policyId, version, status: 'draft', document: JSON.stringify(document), created_by: me.user.id, changed_by: me.user.id, created_at: at })
       .returning('id');
     await appendAudit(trx, {
-      at, actor: actorOf(me, 'admin'), action: 'policy.draft-created', entity: 'policy', entityId: inserted.id,
+      at, actor: actorOf(me, roleFor(me, 'policies.draft')), action: 'policy.draft-created', entity: 'policy', entityId: inserted.id,
       after: { hospitalId: request.hospitalId, from: source.example ? 'example' : { id: source.id, version: source.version } },
       policy: { id: policyId, version },
     });
@@ -216,7 +216,7 @@ export async function saveDraft(db: Knex, me: Me, versionId: number, edit: SaveD
     if (!check.ok) throw invalid(check.issues);
     await trx('policy_versions').where({ id: versionId }).update({ document: JSON.stringify(check.policy), changed_by: me.user.id });
     await appendAudit(trx, {
-      at, actor: actorOf(me, 'admin'), action: 'policy.draft-saved', entity: 'policy', entityId: versionId,
+      at, actor: actorOf(me, roleFor(me, 'policies.draft')), action: 'policy.draft-saved', entity: 'policy', entityId: versionId,
       before: { name: before.name, levels: before.levels, rules: before.rules, localCriteria: before.localCriteria ?? [] },
       after: { name: check.policy.name, levels: check.policy.levels, rules: check.policy.rules, localCriteria: check.policy.localCriteria ?? [] },
       policy: refOf(row),
@@ -230,7 +230,7 @@ export async function discardDraft(db: Knex, me: Me, versionId: number, at: numb
     const row = await loadVersion(trx, me, versionId);
     if (row.status !== 'draft') throw notEditable(row);
     await trx('policy_versions').where({ id: versionId }).delete();
-    await appendAudit(trx, { at, actor: actorOf(me, 'admin'), action: 'policy.draft-discarded', entity: 'policy', entityId: versionId, before: JSON.parse(row.document), policy: refOf(row) });
+    await appendAudit(trx, { at, actor: actorOf(me, roleFor(me, 'policies.draft')), action: 'policy.draft-discarded', entity: 'policy', entityId: versionId, before: JSON.parse(row.document), policy: refOf(row) });
   });
 }
 
@@ -239,7 +239,7 @@ export async function discardDraft(db: Knex, me: Me, versionId: number, at: numb
  * people stand behind every version in force: its author and its last editor may not approve it.
  */
 export async function approveVersion(db: Knex, me: Me, versionId: number, request: ApproveVersion, at: number): Promise<PolicyVersionDetail> {
-  if (!hasRole(me, 'trauma_lead')) throw forbidden('Only a trauma lead approves a policy version.');
+  assertMay(me, 'policies.approve');
   await db.transaction(async (trx) => {
     const row = await loadVersion(trx, me, versionId);
     if (row.status !== 'draft') throw conflict(`Version ${row.version} is ${row.status}; only a draft can be approved.`);
@@ -262,7 +262,7 @@ export async function approveVersion(db: Knex, me: Me, versionId: number, reques
         loosening_acknowledged: acknowledged && JSON.stringify(acknowledged),
       });
     await appendAudit(trx, {
-      at, actor: actorOf(me, 'trauma_lead'), action: 'policy.approved', entity: 'policy', entityId: versionId,
+      at, actor: actorOf(me, roleFor(me, 'policies.approve')), action: 'policy.approved', entity: 'policy', entityId: versionId,
       before: { status: 'draft' },
       after: { status: 'approved', approvedBy: me.user.name, approvedAt: at, looseningAcknowledged: acknowledged?.map((w) => w.message) ?? null },
       policy: refOf(row),
@@ -274,8 +274,7 @@ export async function approveVersion(db: Knex, me: Me, versionId: number, reques
 const isoDate = (ms: number) => new Date(ms).toISOString().slice(0, 10);
 
 export async function publishVersion(db: Knex, me: Me, versionId: number, request: PublishVersion, at: number): Promise<PolicyVersionDetail> {
-  const role: Role | undefined = hasRole(me, 'trauma_lead') ? 'trauma_lead' : hasRole(me, 'admin') ? 'admin' : undefined;
-  if (!role) throw forbidden('Only a trauma lead or an administrator publishes a policy version.');
+  const role = roleFor(me, 'policies.publish');
   const effectiveFrom = request.effectiveFrom ?? at;
   if (effectiveFrom < at - PAST_TOLERANCE_MS) {
     throw invalid([{ field: 'effectiveFrom', message: 'must not be in the past: cases already evaluated keep the version they were evaluated under' }]);

@@ -2,13 +2,13 @@ import type { Knex } from 'knex';
 import dayjs from 'dayjs';
 import utc from 'dayjs/plugin/utc';
 import timezone from 'dayjs/plugin/timezone';
-import type { Me, Role } from '../../../shared/roles';
+import type { Me } from '../../../shared/roles';
 import type { CaseState } from '../../../shared/schemas/cases';
 import type {
   CaseReviewState, CaseTimeline, DiscussionItem, IntervalView, ReviewFilters, ReviewListPage, ReviewListQuery, ReviewRow, ReviewSortKey, ReviewStatus, ReviewView, TimelineRevision,
 } from '../../../shared/schemas/review';
 import { EXAMPLE_POLICY, LEVEL_IDS, LEVEL_RANK, type LevelId, type Policy } from '../../../shared/triage/policy';
-import { assertHospital, hasRole, hospitalIdsOf } from '../../auth/guards';
+import { assertHospital, hospitalIdsOf, may, roleFor } from '../../auth/guards';
 import { conflict, forbidden, notFound } from '../../errors';
 import { recordCaseEvent, type Actor } from '../audit/audit';
 import { caseEvents, caseRevisions, caseSummary } from '../cases/cases';
@@ -21,9 +21,6 @@ dayjs.extend(timezone);
 // The trauma lead's side of a case: the filtered table, the timeline and the review work.
 // Readers are the trauma lead, the administrator and the quality team of the case's hospital;
 // only the first two write reviews.
-
-export const REVIEWER_ROLES: Role[] = ['trauma_lead', 'admin'];
-export const REVIEW_READER_ROLES: Role[] = ['trauma_lead', 'admin', 'quality'];
 
 const MINUTE = 60_000;
 const rankSql = (column: string) => `CASE ${column} ${LEVEL_IDS.map((id) => `WHEN '${id}' THEN ${LEVEL_RANK[id]}`).join(' ')} END`;
@@ -267,15 +264,13 @@ export async function caseTimeline(db: Knex, me: Me, caseId: number, at: number)
     intervals: intervalsOf(row, responseMinutes),
     reviews,
     review: reviews.length ? reviews[reviews.length - 1].status : 'unreviewed',
-    canReview: hasRole(me, ...REVIEWER_ROLES),
+    canReview: may(me, 'review.write'),
     reviewBlocked: blockedReason(row.state),
   };
 }
 
 function reviewerActor(me: Me): Actor {
-  const role = (['trauma_lead', 'admin'] as const).find((r) => me.roles.includes(r));
-  if (!role) throw forbidden('Only a trauma lead or an administrator reviews cases.');
-  return { id: me.user.id, role };
+  return { id: me.user.id, role: roleFor(me, 'review.write') };
 }
 
 export type ReviewAction = 'sign-off' | 'flag';
