@@ -78,3 +78,9 @@ export const actingRole = (roles: readonly Role[], action: Action): Role | undef
 
 /** The refusal's text, naming the roles that would do. */
 export const needsRoles = (action: Action): string => `This needs one of these roles: ${rolesFor(action).join(', ')}.`;
+
+/** Whether a client screen opens: a public one to all, one without an action to anyone signed in, else by the map. */
+export function canOpen(screen: { access?: Action; public?: boolean }, roles: readonly Role[]): boolean {
+  if (screen.public) return true;
+  return screen.access === undefined || mayDo(roles, screen.access);
+}

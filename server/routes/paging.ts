@@ -1,11 +1,11 @@
 import { Router, type Request } from 'express';
-import dayjs from 'dayjs';
 import { z } from 'zod';
 import type { AppDeps } from '../deps';
 import { assertHospital, hospitalIdsOf, requireAccess, requireUser } from '../auth/guards';
 import { parseOr400 } from '../errors';
 import { IdParam } from './params';
 import { PagingContact, PagingPlan } from '../../shared/schemas/paging';
+import { dayEnd, dayStart, runtimeTimeZone } from '../../shared/days';
 import { scopeHospitals } from '../services/review/reviews';
 import { listMessages } from '../services/messages/messages';
 import { boardPaging, getPagingPlan, hospitalPeople, pageToFirstComing, savePagingPlan, setContact } from '../services/board/sms-paging';
@@ -49,8 +49,9 @@ export function pagingRouter(deps: AppDeps): Router {
   });
   router.get('/api/paging/intervals', user, requireAccess('review.read'), async (req, res) => {
     const q = parseOr400(IntervalQuery, req.query);
-    const to = q.to ? dayjs(q.to).endOf('day').valueOf() : clock.now();
-    const from = q.from ? dayjs(q.from).startOf('day').valueOf() : to - q.days * 86_400_000;
+    // Days in the server's own zone: the query names none.
+    const to = q.to ? dayEnd(q.to, runtimeTimeZone()) - 1 : clock.now();
+    const from = q.from ? dayStart(q.from, runtimeTimeZone()) : to - q.days * 86_400_000;
     res.json(await pageToFirstComing(db, scopeHospitals(req.me!, q.hospitalId), { from, to }));
   });
 

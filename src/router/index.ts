@@ -3,7 +3,7 @@ import { ApiError } from '../api/http';
 import { signInUrl } from '../api/me';
 import type { Action } from '../../shared/access';
 import { useSessionStore } from '../stores/session';
-import { canOpen } from './access';
+import { canOpen } from '../../shared/access';
 
 declare module 'vue-router' {
   interface RouteMeta {

@@ -14,7 +14,7 @@ import type { Mailer } from '../../mail';
 import type { RealtimeServer } from '../../realtime';
 import type { SmsSender } from '../../sms';
 import { appendAudit, recordCaseEvent, systemActor, type Actor } from '../audit/audit';
-import { levelsOfCase } from './board';
+import { levelsOfCase } from '../policies/policies';
 import { caseSummary, loadCaseRow } from '../cases/cases';
 import { composePage, notificationList } from './paging';
 import { getSetting, setSetting } from '../people/settings';
@@ -170,7 +170,7 @@ export async function sendRound(deps: PagingDeps, caseId: number, tier: number, 
   });
   if (!claimed) return false;
   const summary = await caseSummary(db, caseId);
-  const levels = await levelsOfCase(db, row);
+  const levels = await levelsOfCase(db, row, at);
   const text = composeSms(summary, level, levels, at, { tier, round });
   for (const target of targets.filter((t) => t.channel === 'sms')) {
     const [msg] = await db('outbound_messages').insert({ hospital_id: row.hospital_id, case_id: caseId, channel: 'sms', recipient: target.to, user_id: target.userId, body: text, state: 'queued', tier, round, created_at: at, updated_at: at }).returning('id');
@@ -233,7 +233,7 @@ async function fallBack(deps: PagingDeps, messageId: number): Promise<void> {
   if (address) {
     const row = await loadCaseRow(db, msg.case_id);
     const summary = await caseSummary(db, msg.case_id);
-    const mail = composePage(summary, row.decided_level ?? summary.recommendedLevel, await levelsOfCase(db, row), deps.clock.now());
+    const mail = composePage(summary, row.decided_level ?? summary.recommendedLevel, await levelsOfCase(db, row, deps.clock.now()), deps.clock.now());
     try {
       await deps.mailer.send({ ...mail, subject: `SMS not delivered, by e-mail instead: ${mail.subject}`, to: [address], hospitalId: msg.hospital_id, record: { caseId: msg.case_id, userId, tier: msg.tier, round: msg.round, fallbackOf: messageId } });
     } catch (err) {

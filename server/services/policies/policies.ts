@@ -2,6 +2,7 @@ import type { Knex } from 'knex';
 import type { Me, Role } from '../../../shared/roles';
 import type { ApproveVersion, CreateDraft, LooseningWarning, PolicyStatus, PolicyVersionSummary, PublishVersion, SaveDraft } from '../../../shared/schemas/policies';
 import { EXAMPLE_POLICY, Policy, validatePolicy } from '../../../shared/triage/policy';
+import type { BoardLevel } from '../../../shared/schemas/board';
 import { withLocalCriteria } from '../../../shared/triage/local-criteria';
 import { looseningWarnings } from '../../../shared/triage/loosening';
 import { rekeyLocalCriteria, settleDraftCriteria } from './local-criteria';
@@ -17,6 +18,22 @@ const publishedCache = new Map<string, Policy>();
  * The policy that decides a new evaluation at this hospital now: its latest published version
  * whose effective date has come, or the shipped example until the hospital publishes its own.
  */
+/**
+ * The levels, with their names, of the policy version that evaluated a case: its names may differ
+ * from today's. The one place a case's level names are looked up.
+ */
+export async function levelsOfCase(db: Knex, row: { hospital_id: number; policy_id: string; policy_version: number }, at: number): Promise<BoardLevel[]> {
+  let policy: Policy | undefined;
+  if (row.policy_id === EXAMPLE_POLICY.id && row.policy_version === EXAMPLE_POLICY.version) policy = EXAMPLE_POLICY;
+  else {
+    const stored = await db('policy_versions').where({ hospital_id: row.hospital_id, policy_id: row.policy_id, version: row.policy_version }).first('document');
+    if (stored) policy = Policy.parse(JSON.parse(stored.document));
+  }
+  // A version no longer stored reads with the example's names, or else today's.
+  policy ??= row.policy_id === EXAMPLE_POLICY.id ? EXAMPLE_POLICY : await policyInForce(db, row.hospital_id, at);
+  return policy.levels.map((l) => ({ id: l.id, name: l.name }));
+}
+
 export async function policyInForce(db: Knex, hospitalId: number, at: number): Promise<Policy> {
   const row = await db('policy_versions')
     .where({ hospital_id: hospitalId, status: 'published' })

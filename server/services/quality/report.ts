@@ -13,7 +13,7 @@ import { notFound } from '../../errors';
 import { toCsv, type CsvColumn } from './csv';
 import { policyInForce } from '../policies/policies';
 import { getSetting, setSetting } from '../people/settings';
-import { periodOf, type Period } from './period';
+import { periodOf, type Period } from '../../../shared/days';
 
 // The over- and under-triage report: one indexed scan over the hospital's cases in the period,
 // joined with their outcomes and the facts of their latest revision, grouped in SQLite and

@@ -1,7 +1,7 @@
 import type { Knex } from 'knex';
 import type { ClinicalInput } from '../../../shared/schemas/clinical';
 import type { CriteriaSetId } from '../../../shared/triage/criteria';
-import type { LevelId } from '../../../shared/triage/policy';
+import { LEVEL_IDS, type LevelId } from '../../../shared/triage/policy';
 
 // The past cases a what-if evaluates again, read for speed. A what-if over a year of a busy
 // hospital reads 100,000 cases; reading each one's latest pre-alert from case_revisions and
@@ -35,7 +35,7 @@ export interface PastCases {
   set: CriteriaSetId[];
   input: ClinicalInput[];
 }
-export const LEVELS: readonly LevelId[] = ['full', 'limited', 'consult', 'none'];
+export const LEVELS: readonly LevelId[] = LEVEL_IDS;
 const LEVEL_CODE: Record<string, number> = { full: 0, limited: 1, consult: 2, none: 3 };
 export const NOT_DECIDED = 255;
 

@@ -1,7 +1,6 @@
 import { describe, expect, it } from 'vitest';
-import { ACTIONS, rolesFor } from '../../../shared/access';
+import { ACTIONS, canOpen, rolesFor } from '../../../shared/access';
 import { Role } from '../../../shared/roles';
-import { canOpen } from '../../../src/router/access';
 
 // The client's route guard and navigation decide with canOpen; it must say exactly what the map says.
 
