@@ -23,7 +23,7 @@ import { HospitalQuery as AuditHospitalQuery } from './routes/audit';
 import { PagingContact, PagingPlan } from '../shared/schemas/paging';
 import { ProgrammeEmail } from '../shared/schemas/audit';
 import { HospitalBays } from '../shared/schemas/bays';
-import { REVIEW_READER_ROLES, REVIEWER_ROLES } from './services/review/reviews';
+import { ACCESS, SCOPE_WORDS, type Action } from '../shared/access';
 
 type Method = 'get' | 'post' | 'put' | 'patch' | 'delete';
 
@@ -32,8 +32,8 @@ interface Operation {
   method: Method;
   path: string;
   summary: string;
-  /** Roles that may call it; empty for anyone signed in; null for no sign-in at all. */
-  roles: readonly string[] | null;
+  /** Its action in the access map (the roles and scope come from there); 'signed-in' for anyone signed in; null for no sign-in at all. */
+  access: Action | 'signed-in' | null;
   query?: z.ZodObject;
   params?: z.ZodObject;
   body?: z.ZodType;
@@ -47,104 +47,105 @@ const ErrorBody = z.object({
   error: z.object({ code: z.string(), message: z.string(), field: z.string().optional(), issues: z.array(z.object({ field: z.string(), message: z.string() })).optional() }),
 }).meta({ id: 'Error' });
 
-const admin = ['admin'] as const;
-const caseReaders = ['paramedic', 'charge_nurse', 'trauma_lead', 'quality', 'admin'] as const;
-const qualityReaders = ['quality', 'admin', 'trauma_lead'] as const;
-const qualityImporters = ['quality', 'admin'] as const;
-const policyReaders = ['admin', 'trauma_lead'] as const;
-const reviewReaders = REVIEW_READER_ROLES;
-const reviewers = REVIEWER_ROLES;
 const fhirJson = { type: 'application/fhir+json', description: 'A FHIR R4 resource' };
 const csv = { type: 'text/csv', description: 'A CSV file (UTF-8 with a byte-order mark)' };
 const CsvUpload = z.object({ file: z.string().meta({ format: 'binary' }), hospitalId: z.string(), token: z.string().optional() });
 
 /** Every /api route. The test in tests/integration/openapi.test.ts walks the Express router and compares. */
 export const API_OPERATIONS: readonly Operation[] = [
-  { method: 'get', path: '/api/health', summary: 'Whether the server and its database answer', roles: null },
-  { method: 'get', path: '/api/health/ready', summary: 'For a load balancer: 200 when the database and Redis (when configured) answer, 503 naming what failed', roles: null },
-  { method: 'get', path: '/api/me', summary: 'The signed-in person, their roles and memberships', roles: [], response: { type: 'application/json', schema: Me, description: 'The signed-in person' } },
-  { method: 'get', path: '/api/mail', summary: "The built-in mail catcher's inbox", roles: admin, query: MailQuery },
+  { method: 'get', path: '/api/health', summary: 'Whether the server and its database answer', access: null },
+  { method: 'get', path: '/api/health/ready', summary: 'For a load balancer: 200 when the database and Redis (when configured) answer, 503 naming what failed', access: null },
+  { method: 'get', path: '/api/me', summary: 'The signed-in person, their roles and memberships', access: 'signed-in', response: { type: 'application/json', schema: Me, description: 'The signed-in person' } },
+  { method: 'get', path: '/api/mail', summary: "The built-in mail catcher's inbox", access: 'messages.read', query: MailQuery },
 
-  { method: 'get', path: '/api/cases', summary: 'Cases of your hospitals and agencies, in arrival order', roles: caseReaders, query: CaseListQuery },
-  { method: 'get', path: '/api/cases/{id}', summary: 'One case with its revisions and events', roles: caseReaders, params: IdParam },
-  { method: 'get', path: '/api/cases/{id}/fhir', summary: 'One case as a FHIR R4 Bundle (collection)', roles: caseReaders, params: IdParam, response: fhirJson },
-  ...BOARD_ACTIONS.map((action): Operation => ({ method: 'post', path: `/api/cases/{id}/${action}`, summary: `Board action: ${action}`, roles: ['charge_nurse'], params: IdParam, body: BOARD_ACTION_SCHEMAS[action] })),
-  { method: 'get', path: '/api/board', summary: "A hospital's inbound board, whole or changes since a cursor", roles: ['charge_nurse', 'trauma_lead', 'admin'], query: BoardQuery },
-  { method: 'get', path: '/api/crew/destinations', summary: "The hospitals and units of the paramedic's agencies", roles: ['paramedic'] },
+  { method: 'get', path: '/api/cases', summary: 'Cases of your hospitals and agencies, in arrival order', access: 'cases.read', query: CaseListQuery },
+  { method: 'get', path: '/api/cases/{id}', summary: 'One case with its revisions and events', access: 'cases.read', params: IdParam },
+  { method: 'get', path: '/api/cases/{id}/fhir', summary: 'One case as a FHIR R4 Bundle (collection)', access: 'cases.read', params: IdParam, response: fhirJson },
+  ...BOARD_ACTIONS.map((action): Operation => ({ method: 'post', path: `/api/cases/{id}/${action}`, summary: `Board action: ${action}`, access: 'board.act', params: IdParam, body: BOARD_ACTION_SCHEMAS[action] })),
+  { method: 'get', path: '/api/board', summary: "A hospital's inbound board, whole or changes since a cursor", access: 'board.read', query: BoardQuery },
+  { method: 'get', path: '/api/crew/destinations', summary: "The hospitals and units of the paramedic's agencies", access: 'pre-alerts.send' },
   {
-    method: 'post', path: '/api/pre-alerts', summary: 'A pre-alert from a machine client: native JSON or a FHIR Bundle; the same sender id twice makes one case', roles: null, machine: true,
+    method: 'post', path: '/api/pre-alerts', summary: 'A pre-alert from a machine client: native JSON or a FHIR Bundle; the same sender id twice makes one case', access: null, machine: true,
     body: z.union([PreAlert, FhirPreAlertBundle]),
   },
 
-  { method: 'get', path: '/api/policies', summary: "A hospital's activation policy versions", roles: policyReaders, query: PolicyHospitalQuery },
-  { method: 'get', path: '/api/policies/{id}', summary: 'One policy version', roles: policyReaders, params: IdParam },
-  { method: 'post', path: '/api/policies', summary: 'Start a draft policy', roles: admin, body: CreateDraft },
-  { method: 'put', path: '/api/policies/{id}', summary: 'Save a draft policy', roles: admin, params: IdParam, body: SaveDraft },
-  { method: 'delete', path: '/api/policies/{id}', summary: 'Discard a draft policy', roles: admin, params: IdParam },
-  { method: 'post', path: '/api/policies/{id}/approve', summary: 'Approve a policy version (a trauma lead other than its author), acknowledging any loosening', roles: ['trauma_lead'], params: IdParam, body: ApproveVersion },
-  { method: 'post', path: '/api/policies/local-preview', summary: "A local criterion's read-back sentence and past cases it would catch", roles: policyReaders, body: LocalPreviewQuery },
-  { method: 'post', path: '/api/policies/{id}/publish', summary: 'Put an approved policy version in force', roles: policyReaders, params: IdParam, body: PublishVersion },
+  { method: 'get', path: '/api/policies', summary: "A hospital's activation policy versions", access: 'policies.read', query: PolicyHospitalQuery },
+  { method: 'get', path: '/api/policies/{id}', summary: 'One policy version', access: 'policies.read', params: IdParam },
+  { method: 'post', path: '/api/policies', summary: 'Start a draft policy', access: 'policies.draft', body: CreateDraft },
+  { method: 'put', path: '/api/policies/{id}', summary: 'Save a draft policy', access: 'policies.draft', params: IdParam, body: SaveDraft },
+  { method: 'delete', path: '/api/policies/{id}', summary: 'Discard a draft policy', access: 'policies.draft', params: IdParam },
+  { method: 'post', path: '/api/policies/{id}/approve', summary: 'Approve a policy version (a trauma lead other than its author), acknowledging any loosening', access: 'policies.approve', params: IdParam, body: ApproveVersion },
+  { method: 'post', path: '/api/policies/local-preview', summary: "A local criterion's read-back sentence and past cases it would catch", access: 'policies.read', body: LocalPreviewQuery },
+  { method: 'post', path: '/api/policies/{id}/publish', summary: 'Put an approved policy version in force', access: 'policies.publish', params: IdParam, body: PublishVersion },
 
-  { method: 'get', path: '/api/people/users', summary: 'People of your hospitals and agencies', roles: admin },
-  { method: 'post', path: '/api/people/users', summary: 'Add a person', roles: admin, body: CreateUser },
-  { method: 'patch', path: '/api/people/users/{id}', summary: "Change a person's name, roles or memberships", roles: admin, params: IdParam, body: UpdateUser },
-  { method: 'post', path: '/api/people/users/{id}/password', summary: "Set a person's password (built-in identity provider)", roles: admin, params: IdParam, body: SetPassword },
-  { method: 'post', path: '/api/people/users/{id}/reactivate', summary: 'Reactivate a person', roles: admin, params: IdParam },
-  { method: 'post', path: '/api/people/users/{id}/deactivate', summary: 'Deactivate a person and end their sessions', roles: admin, params: IdParam },
-  { method: 'get', path: '/api/people/hospitals', summary: 'Your hospitals', roles: admin },
-  { method: 'post', path: '/api/people/hospitals', summary: 'Add a hospital', roles: admin, body: HospitalFields },
-  { method: 'patch', path: '/api/people/hospitals/{id}', summary: 'Change a hospital', roles: admin, params: IdParam, body: UpdateHospital },
-  { method: 'get', path: '/api/people/agencies', summary: 'Your ambulance agencies with their units and destinations', roles: admin },
-  { method: 'post', path: '/api/people/agencies', summary: 'Add an ambulance agency', roles: admin, body: AgencyFields },
-  { method: 'patch', path: '/api/people/agencies/{id}', summary: 'Rename an ambulance agency', roles: admin, params: IdParam, body: AgencyFields },
-  { method: 'post', path: '/api/people/agencies/{id}/units', summary: 'Add a unit to an agency', roles: admin, params: IdParam, body: UnitFields },
-  { method: 'put', path: '/api/people/agencies/{id}/destinations', summary: 'The hospitals an agency takes patients to', roles: admin, params: IdParam, body: AgencyDestinations },
-  { method: 'patch', path: '/api/people/units/{id}', summary: 'Change or retire a unit', roles: admin, params: IdParam, body: UpdateUnit },
-  { method: 'get', path: '/api/people/machine-clients', summary: "Machine clients of your agencies and the token endpoint", roles: admin, response: { type: 'application/json', schema: z.object({ clients: z.array(MachineClientView), tokenEndpoint: z.string().nullable() }), description: 'The clients' } },
-  { method: 'post', path: '/api/people/machine-clients', summary: 'Register a machine client for one agency; the secret is answered once', roles: admin, body: RegisterMachineClient, response: { type: 'application/json', schema: IssuedMachineClient, description: 'The client and its secret' } },
-  { method: 'post', path: '/api/people/machine-clients/{id}/revoke', summary: 'Revoke a machine client at once', roles: admin, params: IdParam, response: { type: 'application/json', schema: MachineClientView, description: 'The revoked client' } },
+  { method: 'get', path: '/api/people/users', summary: 'People of your hospitals and agencies', access: 'people.manage' },
+  { method: 'post', path: '/api/people/users', summary: 'Add a person', access: 'people.manage', body: CreateUser },
+  { method: 'patch', path: '/api/people/users/{id}', summary: "Change a person's name, roles or memberships", access: 'people.manage', params: IdParam, body: UpdateUser },
+  { method: 'post', path: '/api/people/users/{id}/password', summary: "Set a person's password (built-in identity provider)", access: 'people.manage', params: IdParam, body: SetPassword },
+  { method: 'post', path: '/api/people/users/{id}/reactivate', summary: 'Reactivate a person', access: 'people.manage', params: IdParam },
+  { method: 'post', path: '/api/people/users/{id}/deactivate', summary: 'Deactivate a person and end their sessions', access: 'people.manage', params: IdParam },
+  { method: 'get', path: '/api/people/hospitals', summary: 'Your hospitals', access: 'people.manage' },
+  { method: 'post', path: '/api/people/hospitals', summary: 'Add a hospital', access: 'people.manage', body: HospitalFields },
+  { method: 'patch', path: '/api/people/hospitals/{id}', summary: 'Change a hospital', access: 'people.manage', params: IdParam, body: UpdateHospital },
+  { method: 'get', path: '/api/people/agencies', summary: 'Your ambulance agencies with their units and destinations', access: 'people.manage' },
+  { method: 'post', path: '/api/people/agencies', summary: 'Add an ambulance agency', access: 'people.manage', body: AgencyFields },
+  { method: 'patch', path: '/api/people/agencies/{id}', summary: 'Rename an ambulance agency', access: 'people.manage', params: IdParam, body: AgencyFields },
+  { method: 'post', path: '/api/people/agencies/{id}/units', summary: 'Add a unit to an agency', access: 'people.manage', params: IdParam, body: UnitFields },
+  { method: 'put', path: '/api/people/agencies/{id}/destinations', summary: 'The hospitals an agency takes patients to', access: 'people.manage', params: IdParam, body: AgencyDestinations },
+  { method: 'patch', path: '/api/people/units/{id}', summary: 'Change or retire a unit', access: 'people.manage', params: IdParam, body: UpdateUnit },
+  { method: 'get', path: '/api/people/machine-clients', summary: "Machine clients of your agencies and the token endpoint", access: 'machine-clients.manage', response: { type: 'application/json', schema: z.object({ clients: z.array(MachineClientView), tokenEndpoint: z.string().nullable() }), description: 'The clients' } },
+  { method: 'post', path: '/api/people/machine-clients', summary: 'Register a machine client for one agency; the secret is answered once', access: 'machine-clients.manage', body: RegisterMachineClient, response: { type: 'application/json', schema: IssuedMachineClient, description: 'The client and its secret' } },
+  { method: 'post', path: '/api/people/machine-clients/{id}/revoke', summary: 'Revoke a machine client at once', access: 'machine-clients.manage', params: IdParam, response: { type: 'application/json', schema: MachineClientView, description: 'The revoked client' } },
 
-  { method: 'get', path: '/api/review/cases', summary: 'Activations to review', roles: reviewReaders, query: ReviewListQuery },
-  { method: 'get', path: '/api/review/cases.csv', summary: 'Activations to review, as CSV', roles: reviewReaders, query: ReviewListQuery, response: csv },
-  { method: 'get', path: '/api/review/cases/{id}', summary: "One case's timeline for review", roles: reviewReaders, params: IdParam },
-  { method: 'post', path: '/api/review/cases/{id}/sign-off', summary: 'Sign off an activation', roles: reviewers, params: IdParam, body: SignOff },
-  { method: 'post', path: '/api/review/cases/{id}/flag', summary: 'Flag an activation for peer review', roles: reviewers, params: IdParam, body: FlagForPeerReview },
-  { method: 'get', path: '/api/review/discussion', summary: 'Cases flagged for peer review', roles: reviewReaders, query: ReviewHospitalQuery },
-  { method: 'post', path: '/api/review/reviews/{id}/close', summary: 'Close a peer review with its outcome', roles: reviewers, params: IdParam, body: CloseDiscussion },
-  { method: 'get', path: '/api/review/compliance', summary: 'Response-time compliance', roles: reviewReaders, query: ComplianceQuery },
-  { method: 'get', path: '/api/review/audit-chain', summary: "Whether the audit log's hash chain is whole", roles: reviewReaders },
-  { method: 'get', path: '/api/review/settings', summary: 'Response-time targets', roles: reviewReaders, query: ReviewHospitalQuery },
-  { method: 'put', path: '/api/review/settings', summary: 'Change response-time targets', roles: admin, body: ResponseSettings },
+  { method: 'get', path: '/api/review/cases', summary: 'Activations to review', access: 'review.read', query: ReviewListQuery },
+  { method: 'get', path: '/api/review/cases.csv', summary: 'Activations to review, as CSV', access: 'review.read', query: ReviewListQuery, response: csv },
+  { method: 'get', path: '/api/review/cases/{id}', summary: "One case's timeline for review", access: 'review.read', params: IdParam },
+  { method: 'post', path: '/api/review/cases/{id}/sign-off', summary: 'Sign off an activation', access: 'review.write', params: IdParam, body: SignOff },
+  { method: 'post', path: '/api/review/cases/{id}/flag', summary: 'Flag an activation for peer review', access: 'review.write', params: IdParam, body: FlagForPeerReview },
+  { method: 'get', path: '/api/review/discussion', summary: 'Cases flagged for peer review', access: 'review.read', query: ReviewHospitalQuery },
+  { method: 'post', path: '/api/review/reviews/{id}/close', summary: 'Close a peer review with its outcome', access: 'review.write', params: IdParam, body: CloseDiscussion },
+  { method: 'get', path: '/api/review/compliance', summary: 'Response-time compliance', access: 'review.read', query: ComplianceQuery },
+  { method: 'get', path: '/api/review/audit-chain', summary: "Whether the audit log's hash chain is whole", access: 'review.read' },
+  { method: 'get', path: '/api/review/settings', summary: 'Response-time targets', access: 'review.read', query: ReviewHospitalQuery },
+  { method: 'put', path: '/api/review/settings', summary: 'Change response-time targets', access: 'review.settings', body: ResponseSettings },
 
-  { method: 'get', path: '/api/quality/outcomes/template.csv', summary: 'The registry outcome CSV template', roles: qualityReaders, response: csv },
-  { method: 'post', path: '/api/quality/outcomes/preview', summary: 'Check a registry outcome CSV without saving it', roles: qualityImporters, body: CsvUpload, upload: 'csv' },
-  { method: 'post', path: '/api/quality/outcomes/import', summary: 'Import a registry outcome CSV, all rows or none', roles: qualityImporters, body: CsvUpload, upload: 'csv' },
-  { method: 'get', path: '/api/quality/report', summary: 'Under- and over-triage for a period', roles: qualityReaders, query: ReportQuery },
-  { method: 'get', path: '/api/quality/report.csv', summary: 'The quality report as CSV', roles: qualityReaders, query: ReportQuery, response: csv },
-  { method: 'get', path: '/api/quality/cases', summary: 'The cases behind one number of the report', roles: qualityReaders, query: DrilldownQuery },
-  { method: 'get', path: '/api/quality/policies', summary: 'Policies a what-if may run', roles: qualityReaders, query: QualityHospitalQuery },
-  { method: 'post', path: '/api/quality/what-if', summary: 'Run a policy over past cases, beside the policy in force now', roles: qualityReaders, body: WhatIfRequest },
-  { method: 'get', path: '/api/quality/targets', summary: 'Quality targets of a hospital', roles: qualityReaders, query: QualityHospitalQuery },
-  { method: 'put', path: '/api/quality/targets', summary: 'Change quality targets', roles: qualityImporters, body: TargetsRequest },
+  { method: 'get', path: '/api/quality/outcomes/template.csv', summary: 'The registry outcome CSV template', access: 'quality.read', response: csv },
+  { method: 'post', path: '/api/quality/outcomes/preview', summary: 'Check a registry outcome CSV without saving it', access: 'quality.manage', body: CsvUpload, upload: 'csv' },
+  { method: 'post', path: '/api/quality/outcomes/import', summary: 'Import a registry outcome CSV, all rows or none', access: 'quality.manage', body: CsvUpload, upload: 'csv' },
+  { method: 'get', path: '/api/quality/report', summary: 'Under- and over-triage for a period', access: 'quality.read', query: ReportQuery },
+  { method: 'get', path: '/api/quality/report.csv', summary: 'The quality report as CSV', access: 'quality.read', query: ReportQuery, response: csv },
+  { method: 'get', path: '/api/quality/cases', summary: 'The cases behind one number of the report', access: 'quality.read', query: DrilldownQuery },
+  { method: 'get', path: '/api/quality/policies', summary: 'Policies a what-if may run', access: 'quality.read', query: QualityHospitalQuery },
+  { method: 'post', path: '/api/quality/what-if', summary: 'Run a policy over past cases, beside the policy in force now', access: 'quality.read', body: WhatIfRequest },
+  { method: 'get', path: '/api/quality/targets', summary: 'Quality targets of a hospital', access: 'quality.read', query: QualityHospitalQuery },
+  { method: 'put', path: '/api/quality/targets', summary: 'Change quality targets', access: 'quality.manage', body: TargetsRequest },
   {
-    method: 'get', path: '/api/quality/export.ndjson', summary: "A period's cases as FHIR Bulk Data NDJSON: one type per file, or all types in one ZIP", roles: qualityReaders, query: FhirExportQuery,
+    method: 'get', path: '/api/quality/export.ndjson', summary: "A period's cases as FHIR Bulk Data NDJSON: one type per file, or all types in one ZIP", access: 'quality.read', query: FhirExportQuery,
     response: { type: 'application/fhir+ndjson', description: 'One resource per line (with `type`); without it, application/zip with Patient.ndjson, Encounter.ndjson, Observation.ndjson and Provenance.ndjson' },
   },
 
-  { method: 'get', path: '/api/hospitals/{id}/bays', summary: "A hospital's bays and the open cases in each", roles: ['charge_nurse', 'trauma_lead', 'admin'], params: IdParam },
-  { method: 'put', path: '/api/hospitals/{id}/bays', summary: "Set a hospital's list of bays", roles: admin, params: IdParam, body: HospitalBays },
-  { method: 'get', path: '/api/paging/hospitals/{id}', summary: "A hospital's paging plan, its people and the SMS sender", roles: admin, params: IdParam },
-  { method: 'put', path: '/api/paging/hospitals/{id}/plan', summary: "Change a hospital's paging plan (tiers, minutes, lists)", roles: admin, params: IdParam, body: PagingPlan },
-  { method: 'put', path: '/api/paging/contacts/{id}', summary: "A person's paging contacts (e-mail, mobile in E.164)", roles: admin, params: IdParam, body: PagingContact },
-  { method: 'get', path: '/api/paging/board', summary: 'Who is coming and who declined, per open case of a hospital', roles: ['charge_nurse', 'trauma_lead', 'admin'], query: PagingHospitalQuery },
-  { method: 'get', path: '/api/paging/intervals', summary: "Page to first 'on my way', against the hospital's target", roles: reviewReaders, query: PagingIntervalQuery },
-  { method: 'get', path: '/api/messages', summary: 'Everything sent, e-mail and SMS, with delivery state', roles: admin, query: MessageLimit },
-  { method: 'get', path: '/api/audit/programme-email', summary: "The trauma programme's address for audit checkpoints", roles: admin, query: AuditHospitalQuery },
-  { method: 'put', path: '/api/audit/programme-email', summary: "Change the trauma programme's address for audit checkpoints", roles: admin, body: ProgrammeEmail },
+  { method: 'get', path: '/api/hospitals/{id}/bays', summary: "A hospital's bays and the open cases in each", access: 'board.read', params: IdParam },
+  { method: 'put', path: '/api/hospitals/{id}/bays', summary: "Set a hospital's list of bays", access: 'bays.edit', params: IdParam, body: HospitalBays },
+  { method: 'get', path: '/api/paging/hospitals/{id}', summary: "A hospital's paging plan, its people and the SMS sender", access: 'paging.manage', params: IdParam },
+  { method: 'put', path: '/api/paging/hospitals/{id}/plan', summary: "Change a hospital's paging plan (tiers, minutes, lists)", access: 'paging.manage', params: IdParam, body: PagingPlan },
+  { method: 'put', path: '/api/paging/contacts/{id}', summary: "A person's paging contacts (e-mail, mobile in E.164)", access: 'paging.manage', params: IdParam, body: PagingContact },
+  { method: 'get', path: '/api/paging/board', summary: 'Who is coming and who declined, per open case of a hospital', access: 'board.read', query: PagingHospitalQuery },
+  { method: 'get', path: '/api/paging/intervals', summary: "Page to first 'on my way', against the hospital's target", access: 'review.read', query: PagingIntervalQuery },
+  { method: 'get', path: '/api/messages', summary: 'Everything sent, e-mail and SMS, with delivery state', access: 'messages.read', query: MessageLimit },
+  { method: 'get', path: '/api/audit/programme-email', summary: "The trauma programme's address for audit checkpoints", access: 'audit.settings', query: AuditHospitalQuery },
+  { method: 'put', path: '/api/audit/programme-email', summary: "Change the trauma programme's address for audit checkpoints", access: 'audit.settings', body: ProgrammeEmail },
 
-  { method: 'get', path: '/api/openapi.json', summary: 'This document', roles: null, response: { type: 'application/json', description: 'OpenAPI 3.1' } },
-  { method: 'get', path: '/api/docs', summary: 'This document as a reference page for administrators', roles: null, response: { type: 'text/html', description: 'A page' } },
+  { method: 'get', path: '/api/openapi.json', summary: 'This document', access: null, response: { type: 'application/json', description: 'OpenAPI 3.1' } },
+  { method: 'get', path: '/api/docs', summary: 'This document as a reference page for administrators', access: 'docs.read', response: { type: 'text/html', description: 'A page' } },
 ];
+
+/** Who may call an operation, in words: the roles and scope of its action in the access map. */
+export function describeAccess(op: Pick<Operation, 'access' | 'machine'>): string {
+  if (op.access === null) return op.machine ? 'For machine clients with a bearer token.' : 'No sign-in needed.';
+  if (op.access === 'signed-in') return 'Anyone signed in.';
+  const rule = ACCESS[op.access];
+  return `Roles: ${rule.roles.join(', ')}. Scope: ${SCOPE_WORDS[rule.scope]}.`;
+}
 
 /** The OpenAPI 3.1 document, generated from the shared zod schemas every route parses. */
 export function openApiDocument(publicUrl: string, tokenUrl: string | null) {
@@ -163,9 +164,9 @@ export function openApiDocument(publicUrl: string, tokenUrl: string | null) {
       method: op.method,
       path: op.path,
       summary: op.summary,
-      description: op.roles === null ? (op.machine ? 'For machine clients with a bearer token.' : 'No sign-in needed.') : op.roles.length ? `Roles: ${op.roles.join(', ')}.` : 'Anyone signed in.',
+      description: describeAccess(op),
       tags: [op.path.split('/')[2]],
-      security: op.machine ? (tokenUrl ? [{ machineClient: [] }] : []) : op.roles === null ? [] : [{ session: [] }],
+      security: op.machine ? (tokenUrl ? [{ machineClient: [] }] : []) : op.access === null ? [] : [{ session: [] }],
       request: {
         ...(op.query ? { query: op.query } : {}),
         ...(op.params ? { params: op.params } : {}),
@@ -176,7 +177,7 @@ export function openApiDocument(publicUrl: string, tokenUrl: string | null) {
       responses: {
         200: { description: op.response?.description ?? 'JSON', content: { [op.response?.type ?? 'application/json']: { schema: op.response?.schema ?? z.unknown() } } },
         ...(op.body || op.query || op.params ? { 400: { description: 'The input is not valid; the message names the field', ...errors } } : {}),
-        ...(op.roles !== null || op.machine ? { 401: { description: op.machine ? 'No token, or a token that is expired, for another audience, or not signed by this server' : 'Not signed in', ...errors }, 403: { description: 'Not your role, hospital or agency', ...errors } } : {}),
+        ...(op.access !== null || op.machine ? { 401: { description: op.machine ? 'No token, or a token that is expired, for another audience, or not signed by this server' : 'Not signed in', ...errors }, 403: { description: 'Not your role, hospital or agency', ...errors } } : {}),
         ...(op.machine ? { 429: { description: "Over this client's requests per minute", ...errors } } : {}),
       },
     });

@@ -1,6 +1,7 @@
 import type { NextFunction, Request, Response } from 'express';
 import type { Knex } from 'knex';
 import type { Me, Role } from '../../shared/roles';
+import { actingRole, mayDo, needsRoles, type Action } from '../../shared/access';
 import { forbidden, unauthenticated } from '../errors';
 import { findMe } from '../services/people/users';
 
@@ -26,13 +27,15 @@ export function requireUser(db: Knex) {
   };
 }
 
-export function requireRole(...roles: Role[]) {
-  return (req: Request, _res: Response, next: NextFunction) => {
+/** A route's guard for one action of the access map; the guard names its action, so a test can compare routes with the map. */
+export function requireAccess(action: Action) {
+  const guard = (req: Request, _res: Response, next: NextFunction) => {
     const me = req.me;
     if (!me) return next(unauthenticated());
-    if (!me.roles.some((role) => roles.includes(role))) return next(forbidden(`This needs one of these roles: ${roles.join(', ')}.`));
+    if (!mayDo(me.roles, action)) return next(forbidden(needsRoles(action)));
     next();
   };
+  return Object.assign(guard, { access: action });
 }
 
 export const hospitalIdsOf = (me: Me) => me.memberships.filter((m) => m.kind === 'hospital').map((m) => m.id);
@@ -46,4 +49,16 @@ export function assertAgency(me: Me, agencyId: number): void {
   if (!agencyIdsOf(me).includes(agencyId)) throw forbidden('That ambulance agency is not one of yours.');
 }
 
-export const hasRole = (me: Me, ...roles: Role[]) => me.roles.some((role) => roles.includes(role));
+export const may = (me: Me, action: Action): boolean => mayDo(me.roles, action);
+
+/** Refuses a person whose roles do not open the action. */
+export function assertMay(me: Me, action: Action): void {
+  if (!may(me, action)) throw forbidden(needsRoles(action));
+}
+
+/** The role a person acts in for an action, for the audit trail (refused when none of theirs opens it). */
+export function roleFor(me: Me, action: Action): Role {
+  const role = actingRole(me.roles, action);
+  if (!role) throw forbidden(needsRoles(action));
+  return role;
+}

@@ -2,7 +2,7 @@ import { randomBytes } from 'node:crypto';
 import type { Knex } from 'knex';
 import type { Me } from '../../shared/roles';
 import type { MachineClientView, RegisterMachineClient } from '../../shared/schemas/machine-clients';
-import { agencyIdsOf } from '../auth/guards';
+import { agencyIdsOf, roleFor } from '../auth/guards';
 import { forbidden, invalid, notFound } from '../errors';
 import { identityStoreFor } from '../idp/store';
 import { appendAudit } from '../services/audit/audit';
@@ -12,7 +12,7 @@ export interface MachineClientRow {
   requests_per_minute: number; active: number | boolean; created_at: number; revoked_at: number | null;
 }
 
-const actorOf = (me: Me) => ({ id: me.user.id, role: 'admin' });
+const actorOf = (me: Me) => ({ id: me.user.id, role: roleFor(me, 'machine-clients.manage') });
 
 function clientRows(db: Knex) {
   return db('machine_clients as mc')

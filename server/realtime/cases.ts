@@ -2,8 +2,7 @@ import { CaseCancel, CaseRedirect, PreAlert, PreAlertUpdate, type CaseSummary } 
 import type { Me } from '../../shared/roles';
 import { crewView, readsAsCrew } from '../services/cases/crew';
 import type { AppDeps } from '../deps';
-import { forbidden } from '../errors';
-import { hasRole } from '../auth/guards';
+import { assertMay, roleFor } from '../auth/guards';
 import { cancelCase, redirectCase, reviseCase, submitPreAlert } from '../services/cases/commands';
 import { caseSummary } from '../services/cases/summary';
 import type { SocketFeature } from '.';
@@ -16,11 +15,9 @@ export function caseCommands(deps: AppDeps): SocketFeature {
   const { db, clock, logger } = deps;
   // One count for every connection: a crew's second device shares its account's and unit's limit.
   const limits = crewCommandLimiter(deps.limiterStore ?? memoryLimiterStore, deps.config.crewCommandLimits ?? DEFAULT_CREW_COMMAND_LIMITS);
-  const allow = (me: Me) => {
-    if (!hasRole(me, 'paramedic')) throw forbidden('Only a paramedic sends pre-alerts and updates.');
-  };
+  const allow = (me: Me) => assertMay(me, 'pre-alerts.send');
   return (_io, socket) => {
-    const actor = () => ({ me: socket.data.me, role: 'paramedic' as const });
+    const actor = () => ({ me: socket.data.me, role: roleFor(socket.data.me, 'pre-alerts.send') });
     const asCrew = (summary: CaseSummary) => (readsAsCrew(socket.data.me, summary) ? crewView(summary) : summary);
 
     onCommand(socket, logger, 'case:submit', {

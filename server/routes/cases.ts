@@ -2,7 +2,7 @@ import { Router } from 'express';
 import { z } from 'zod';
 import { OPEN_STATES } from '../../shared/schemas/cases';
 import type { AppDeps } from '../deps';
-import { agencyIdsOf, hospitalIdsOf, requireRole, requireUser } from '../auth/guards';
+import { agencyIdsOf, hospitalIdsOf, requireAccess, requireUser } from '../auth/guards';
 import { parseOr400 } from '../errors';
 import { CaseIdParam } from './params';
 import { caseEvents, caseForReader, caseRevisions } from '../services/cases/queries';
@@ -15,11 +15,10 @@ export const CaseListQuery = z.object({ state: z.enum(['open', 'all']).default('
 const CaseId = CaseIdParam;
 
 // Crews read their agency's cases; ED staff read their hospital's. Writes go over the socket.
-const readers = ['paramedic', 'charge_nurse', 'trauma_lead', 'quality', 'admin'] as const;
 
 export function casesRouter({ db, clock, catchUp }: AppDeps): Router {
   const router = Router();
-  router.get('/api/cases', requireUser(db), requireRole(...readers), async (req, res) => {
+  router.get('/api/cases', requireUser(db), requireAccess('cases.read'), async (req, res) => {
     const { state } = parseOr400(CaseListQuery, req.query);
     const me = req.me!;
     // A crew's screen reloads after every connection that did not recover: in the catch-up lane, behind pre-alerts.
@@ -37,7 +36,7 @@ export function casesRouter({ db, clock, catchUp }: AppDeps): Router {
       res.json({ cases, total: page.total, at });
     });
   });
-  router.get('/api/cases/:id', requireUser(db), requireRole(...readers), async (req, res) => {
+  router.get('/api/cases/:id', requireUser(db), requireAccess('cases.read'), async (req, res) => {
     const { id } = parseOr400(CaseId, req.params);
     await caseForReader(db, req.me!, id);
     const summary = await caseSummary(db, id);

@@ -2,7 +2,7 @@ import express, { Router, type Request } from 'express';
 import { PreAlert } from '../../shared/schemas/cases';
 import { FhirExportQuery } from '../../shared/schemas/exchange';
 import type { AppDeps } from '../deps';
-import { requireRole, requireUser } from '../auth/guards';
+import { requireAccess, requireUser } from '../auth/guards';
 import { parseOr400 } from '../errors';
 import { preAlertFromBundle } from '../exchange/fhir-in';
 import { requireMachineClient } from '../exchange/machine-auth';
@@ -14,9 +14,6 @@ import { CaseIdParam } from './params';
 
 const FHIR_JSON = 'application/fhir+json';
 const isBundle = (body: unknown) => typeof body === 'object' && body !== null && (body as { resourceType?: unknown }).resourceType !== undefined;
-
-// Readers of a case, as for GET /api/cases/:id.
-const readers = ['paramedic', 'charge_nurse', 'trauma_lead', 'quality', 'admin'] as const;
 
 /** FHIR out, and pre-alerts in from machine clients through the crew's own path. */
 export function exchangeRouter(deps: AppDeps): Router {
@@ -33,12 +30,12 @@ export function exchangeRouter(deps: AppDeps): Router {
     res.status(created ? 201 : 200).json({ caseId, caseNumber: summary.caseNumber, created, fieldRisk: summary.fieldRisk, recommendedLevel: summary.recommendedLevel, criteria: summary.latest.result.criteria.map((c) => c.id), missing: summary.latest.result.missing });
   });
 
-  router.get('/api/cases/:id/fhir', requireUser(db), requireRole(...readers), async (req, res) => {
+  router.get('/api/cases/:id/fhir', requireUser(db), requireAccess('cases.read'), async (req, res) => {
     const { id } = parseOr400(CaseIdParam, req.params);
     res.type(FHIR_JSON).set('Cache-Control', 'no-store').send(JSON.stringify(await fhirBundleOfCase(db, req.me!, id, clock.now())));
   });
 
-  router.get('/api/quality/export.ndjson', requireUser(db), requireRole('quality', 'admin', 'trauma_lead'), async (req, res) => {
+  router.get('/api/quality/export.ndjson', requireUser(db), requireAccess('quality.read'), async (req, res) => {
     const query = parseOr400(FhirExportQuery, req.query);
     const byType = await fhirResourcesOfPeriod(db, req.me!, query);
     res.set('Cache-Control', 'no-store');

@@ -1,7 +1,7 @@
 import { Router } from 'express';
 import { RegisterMachineClient } from '../../shared/schemas/machine-clients';
 import type { AppDeps } from '../deps';
-import { requireRole, requireUser } from '../auth/guards';
+import { requireAccess, requireUser } from '../auth/guards';
 import { conflict, parseOr400 } from '../errors';
 import { listMachineClients, registerMachineClient, revokeMachineClient } from '../exchange/machine-clients';
 import { IdParam } from './params';
@@ -9,7 +9,7 @@ import { IdParam } from './params';
 /** People & places: the record and dispatch systems that send pre-alerts for an administrator's agencies. */
 export function machineClientsRouter({ db, clock, config, publicUrl }: AppDeps): Router {
   const router = Router();
-  const admin = [requireUser(db), requireRole('admin')];
+  const admin = [requireUser(db), requireAccess('machine-clients.manage')];
   const issuer = `${publicUrl}/idp`;
   router.get('/api/people/machine-clients', ...admin, async (req, res) => res.json({ clients: await listMachineClients(db, req.me!), tokenEndpoint: config.oidc.issuer ? null : `${issuer}/token` }));
   router.post('/api/people/machine-clients', ...admin, async (req, res) => {

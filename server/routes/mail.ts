@@ -1,7 +1,7 @@
 import { Router } from 'express';
 import { z } from 'zod';
 import type { AppDeps } from '../deps';
-import { hospitalIdsOf, requireRole, requireUser } from '../auth/guards';
+import { hospitalIdsOf, requireAccess, requireUser } from '../auth/guards';
 import { listMail } from '../services/messages/inbox';
 import { parseOr400 } from '../errors';
 
@@ -9,7 +9,7 @@ export const MailQuery = z.object({ limit: z.coerce.number({ error: 'must be a n
 
 export function mailRouter(deps: AppDeps): Router {
   const router = Router();
-  router.get('/api/mail', requireUser(deps.db), requireRole('admin'), async (req, res) => {
+  router.get('/api/mail', requireUser(deps.db), requireAccess('messages.read'), async (req, res) => {
     const { limit } = parseOr400(MailQuery, req.query);
     res.json({ local: deps.mailer.local, messages: await listMail(deps.db, { limit, hospitalIds: hospitalIdsOf(req.me!) }) });
   });

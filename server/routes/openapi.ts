@@ -2,7 +2,7 @@ import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import express, { Router } from 'express';
 import type { AppDeps } from '../deps';
-import { requireRole, requireUser } from '../auth/guards';
+import { requireAccess, requireUser } from '../auth/guards';
 import { projectRoot } from '../paths';
 
 const viewerDir = dirname(fileURLToPath(import.meta.resolve('swagger-ui-dist/package.json')));
@@ -40,7 +40,7 @@ export function openApiRouter({ db, config, publicUrl }: AppDeps): Router {
     document ??= JSON.stringify((await import('../openapi')).openApiDocument(publicUrl, tokenUrl));
     res.type('application/json').set('Cache-Control', 'no-cache').send(document);
   });
-  router.get('/api/docs', requireUser(db), requireRole('admin'), (_req, res) => {
+  router.get('/api/docs', requireUser(db), requireAccess('docs.read'), (_req, res) => {
     res.type('html').set('Cache-Control', 'no-cache').send(docsPage);
   });
   router.use('/api/docs/viewer', express.static(viewerDir, { index: false, maxAge: '1d' }));

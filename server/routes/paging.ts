@@ -1,12 +1,12 @@
 import { Router, type Request } from 'express';
-import dayjs from 'dayjs';
 import { z } from 'zod';
 import type { AppDeps } from '../deps';
-import { assertHospital, hospitalIdsOf, requireRole, requireUser } from '../auth/guards';
+import { assertHospital, hospitalIdsOf, requireAccess, requireUser } from '../auth/guards';
 import { parseOr400 } from '../errors';
 import { IdParam } from './params';
 import { PagingContact, PagingPlan } from '../../shared/schemas/paging';
-import { REVIEW_READER_ROLES, scopeHospitals } from '../services/review/reviews';
+import { dayEnd, dayStart, runtimeTimeZone } from '../../shared/days';
+import { scopeHospitals } from '../services/review/reviews';
 import { listMessages } from '../services/messages/messages';
 import { boardPaging, getPagingPlan, hospitalPeople, pageToFirstComing, savePagingPlan, setContact } from '../services/board/sms-paging';
 
@@ -24,7 +24,7 @@ export function pagingRouter(deps: AppDeps): Router {
   const { db, clock, sms, mailer } = deps;
   const router = Router();
   const user = requireUser(db);
-  const admin = requireRole('admin');
+  const admin = requireAccess('paging.manage');
 
   const settings = async (hospitalId: number) => ({
     plan: await getPagingPlan(db, hospitalId),
@@ -44,18 +44,19 @@ export function pagingRouter(deps: AppDeps): Router {
   });
   router.put('/api/paging/contacts/:id', user, admin, async (req, res) => res.json(await setContact(db, req.me!, idOf(req), parseOr400(PagingContact, req.body), clock.now())));
 
-  router.get('/api/paging/board', user, requireRole('charge_nurse', 'trauma_lead', 'admin'), async (req, res) => {
+  router.get('/api/paging/board', user, requireAccess('board.read'), async (req, res) => {
     res.json(await boardPaging(db, req.me!, parseOr400(HospitalQuery, req.query).hospitalId));
   });
-  router.get('/api/paging/intervals', user, requireRole(...REVIEW_READER_ROLES), async (req, res) => {
+  router.get('/api/paging/intervals', user, requireAccess('review.read'), async (req, res) => {
     const q = parseOr400(IntervalQuery, req.query);
-    const to = q.to ? dayjs(q.to).endOf('day').valueOf() : clock.now();
-    const from = q.from ? dayjs(q.from).startOf('day').valueOf() : to - q.days * 86_400_000;
+    // Days in the server's own zone: the query names none.
+    const to = q.to ? dayEnd(q.to, runtimeTimeZone()) - 1 : clock.now();
+    const from = q.from ? dayStart(q.from, runtimeTimeZone()) : to - q.days * 86_400_000;
     res.json(await pageToFirstComing(db, scopeHospitals(req.me!, q.hospitalId), { from, to }));
   });
 
   // Everything sent, e-mail and SMS, for the admin's own hospitals.
-  router.get('/api/messages', user, admin, async (req, res) => {
+  router.get('/api/messages', user, requireAccess('messages.read'), async (req, res) => {
     const { limit } = parseOr400(Limit, req.query);
     res.json({ mailLocal: mailer.local, smsLocal: sms.local, smsFakeUrl: sms.fakeUrl, messages: await listMessages(db, { hospitalIds: hospitalIdsOf(req.me!), limit }) });
   });

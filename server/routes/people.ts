@@ -1,6 +1,6 @@
 import { Router, type Request } from 'express';
 import type { AppDeps } from '../deps';
-import { requireRole, requireUser } from '../auth/guards';
+import { requireAccess, requireUser } from '../auth/guards';
 import { conflict, parseOr400 } from '../errors';
 import { IdParam } from './params';
 import { disconnectSocketsOf, refreshSocketsOf } from '../realtime/session-follow';
@@ -12,7 +12,7 @@ const idOf = (req: Request) => parseOr400(IdParam, req.params).id;
 export function peopleRouter({ db, clock, io, config, redis }: AppDeps): Router {
   const router = Router();
   const user = requireUser(db);
-  const admin = requireRole('admin');
+  const admin = requireAccess('people.manage');
   router.get('/api/people/users', user, admin, async (req, res) => res.json(await people.listPeople(db, req.me!)));
   router.post('/api/people/users', user, admin, async (req, res) => res.status(201).json(await people.createPerson(db, req.me!, parseOr400(CreateUser, req.body), clock.now())));
   router.patch('/api/people/users/:id', user, admin, async (req, res) => {

@@ -3,7 +3,7 @@ import multer from 'multer';
 import { z } from 'zod';
 import { DrilldownQuery, ImportRequest, OUTCOME_FILE_MAX_BYTES, ReportQuery, TargetsInput, WhatIfRequest } from '../../shared/schemas/quality';
 import type { AppDeps } from '../deps';
-import { requireRole, requireUser } from '../auth/guards';
+import { requireAccess, requireUser } from '../auth/guards';
 import { AppError, invalid, parseOr400 } from '../errors';
 import { importOutcomes, previewOutcomes } from '../services/outcomes/import';
 import { outcomeTemplateCsv } from '../services/outcomes/parse';
@@ -48,8 +48,8 @@ const needFile = (file: Express.Multer.File | undefined) => {
 export function qualityRouter({ db, clock }: AppDeps): Router {
   const router = Router();
   const user = requireUser(db);
-  const readers = requireRole('quality', 'admin', 'trauma_lead');
-  const importers = requireRole('quality', 'admin');
+  const readers = requireAccess('quality.read');
+  const importers = requireAccess('quality.manage');
 
   router.get('/api/quality/outcomes/template.csv', user, readers, (_req, res) => {
     res.type('text/csv; charset=utf-8').attachment('registry-outcomes-template.csv').send(outcomeTemplateCsv());

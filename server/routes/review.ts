@@ -2,13 +2,13 @@ import { Router, type Request } from 'express';
 import { z } from 'zod';
 import { CloseDiscussion, ComplianceQuery, FlagForPeerReview, ResponseSettings, ReviewListQuery, SignOff, type ReviewRow } from '../../shared/schemas/review';
 import type { AppDeps } from '../deps';
-import { assertHospital, requireRole, requireUser } from '../auth/guards';
+import { assertHospital, requireAccess, requireUser, roleFor } from '../auth/guards';
 import { parseOr400 } from '../errors';
 import { IdParam } from './params';
 import { auditChainFor } from '../services/audit/scope';
 import { complianceReport } from '../services/review/compliance';
 import { toCsv, type CsvColumn } from '../services/quality/csv';
-import { allReviewCases, caseTimeline, closeDiscussion, discussionList, listReviewCases, reviewCase, REVIEW_READER_ROLES, REVIEWER_ROLES, scopeHospitals } from '../services/review/reviews';
+import { allReviewCases, caseTimeline, closeDiscussion, discussionList, listReviewCases, reviewCase, scopeHospitals } from '../services/review/reviews';
 import { getSetting, setSetting } from '../services/people/settings';
 
 export const HospitalQuery = z.object({ hospitalId: z.coerce.number({ error: 'must be a hospital number' }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' }).optional() });
@@ -47,8 +47,8 @@ function csvColumns(levelNames: Record<number, Record<string, string>>): CsvColu
 export function reviewRouter({ db, clock }: AppDeps): Router {
   const router = Router();
   const user = requireUser(db);
-  const readers = requireRole(...REVIEW_READER_ROLES);
-  const reviewers = requireRole(...REVIEWER_ROLES);
+  const readers = requireAccess('review.read');
+  const reviewers = requireAccess('review.write');
 
   router.get('/api/review/cases', user, readers, async (req, res) => res.json(await listReviewCases(db, req.me!, parseOr400(ReviewListQuery, req.query), clock.now())));
   router.get('/api/review/cases.csv', user, readers, async (req, res) => {
@@ -67,10 +67,10 @@ export function reviewRouter({ db, clock }: AppDeps): Router {
     const [hospitalId] = scopeHospitals(req.me!, parseOr400(HospitalQuery, req.query).hospitalId);
     res.json({ hospitalId, targetMinutes: await getSetting<number>(db, 'response.targetMinutes', hospitalId), compliance: await getSetting<number>(db, 'response.compliance', hospitalId) });
   });
-  router.put('/api/review/settings', user, requireRole('admin'), async (req, res) => {
+  router.put('/api/review/settings', user, requireAccess('review.settings'), async (req, res) => {
     const body = parseOr400(ResponseSettings, req.body);
     assertHospital(req.me!, body.hospitalId);
-    const audit = { actor: { id: req.me!.user.id, role: 'admin' }, at: clock.now() };
+    const audit = { actor: { id: req.me!.user.id, role: roleFor(req.me!, 'review.settings') }, at: clock.now() };
     await db.transaction(async (trx) => {
       await setSetting(trx, 'response.targetMinutes', body.targetMinutes, body.hospitalId, audit);
       await setSetting(trx, 'response.compliance', body.compliance, body.hospitalId, audit);

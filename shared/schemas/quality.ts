@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { ReaderTimeZone } from '../days';
 import { boundedDate, spanIssue, withinMaxSpan } from './dates';
 import type { Interval, OutcomeStandard } from '../quality';
 import { ISS_REGIONS, type IssRegion } from '../quality/iss';
@@ -149,15 +150,6 @@ export function heightBandOf(heightM: number | null | undefined): HeightBandId {
   return 'over-15m';
 }
 
-export function isTimeZoneName(name: string): boolean {
-  try {
-    new Intl.DateTimeFormat('en-GB', { timeZone: name });
-    return true;
-  } catch {
-    return false;
-  }
-}
-
 const isoDate = boundedDate;
 const positiveId = (what: string) => z.coerce.number({ error: `must be ${what}` }).int({ error: 'must be a whole number' }).positive({ error: 'must be positive' });
 
@@ -168,7 +160,7 @@ const reportShape = {
   standard: z.enum(REPORT_STANDARDS, { error: `must be one of: ${REPORT_STANDARDS.join(', ')}` }).default('iss'),
   basis: z.enum(ACTIVATION_BASES, { error: `must be one of: ${ACTIVATION_BASES.join(', ')}` }).default('decided'),
   /** The reader's time zone decides where a day and a month begin. */
-  timeZone: z.string({ error: 'must be a time zone name' }).max(64).refine(isTimeZoneName, { error: 'must be a time zone name such as Europe/London' }).default('UTC'),
+  timeZone: ReaderTimeZone,
 };
 const inOrder = (q: { from: string; to: string }) => q.from <= q.to;
 const orderIssue = { error: 'must be on or after the start date', path: ['to'] };

@@ -1,5 +1,6 @@
 import type { Handover } from './clinical';
 import { z } from 'zod';
+import { ReaderTimeZone } from '../days';
 import { safeText } from './text';
 import { boundedDate, spanIssue, withinMaxSpan } from './dates';
 import { LEVEL_IDS, type LevelId } from '../triage/policy';
@@ -23,17 +24,7 @@ const flag = z.stringbool({ error: 'must be true or false' }).optional().default
 const whole = (min: number, max: number) =>
   z.coerce.number({ error: 'must be a number' }).int({ error: 'must be a whole number' }).min(min, { error: `must be at least ${min}` }).max(max, { error: `must be at most ${max}` });
 
-export function isTimeZone(name: string): boolean {
-  try {
-    new Intl.DateTimeFormat('en-GB', { timeZone: name });
-    return true;
-  } catch {
-    return false;
-  }
-}
-
-/** The reader's time zone decides where a day and a month begin. */
-const timeZone = z.string({ error: 'must be a time zone name' }).max(64).refine(isTimeZone, { error: 'must be a time zone name such as Europe/London' }).default('UTC');
+const timeZone = ReaderTimeZone;
 
 const range = { from: isoDate.optional(), to: isoDate.optional(), timeZone };
 const rangeInOrder = (q: { from?: string; to?: string }) => !q.from || !q.to || q.from <= q.to;

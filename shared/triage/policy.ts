@@ -13,6 +13,8 @@ import { LocalCriterion, checkLocalCriterion, registerLocalCriterion } from './l
 export const LEVEL_IDS = ['full', 'limited', 'consult', 'none'] as const;
 export type LevelId = (typeof LEVEL_IDS)[number];
 export const LEVEL_RANK: Readonly<Record<LevelId, number>> = { full: 3, limited: 2, consult: 1, none: 0 };
+/** Each level's words where no policy names it otherwise (a policy version may rename its levels). */
+export const LEVEL_WORDS: Readonly<Record<LevelId, string>> = { full: 'Full trauma team', limited: 'Limited trauma team', consult: 'Trauma consult', none: 'No activation' };
 
 const text = (max: number) => safeText({ max });
 const levelId = z.enum(LEVEL_IDS, { error: `must be one of: ${LEVEL_IDS.join(', ')}` });
@@ -64,12 +66,7 @@ export const EXAMPLE_POLICY: Policy = Object.freeze({
   approvedBy: null,
   effectiveFrom: null,
   note: 'Shipped as an example. It must be reviewed and approved locally; local policy and medical direction prevail.',
-  levels: [
-    { id: 'full', name: 'Full trauma team' },
-    { id: 'limited', name: 'Limited trauma team' },
-    { id: 'consult', name: 'Trauma consult' },
-    { id: 'none', name: 'No activation' },
-  ],
+  levels: LEVEL_IDS.map((id) => ({ id, name: LEVEL_WORDS[id] })),
   rules: [
     { level: 'full', criteria: FULL_CRITERIA, note: 'ACS minimum criteria for the highest activation, as far as a pre-alert can show them.' },
     { level: 'limited', criteria: [...ids('high', FULL_CRITERIA), 'policy:fall-above-20-ft'], note: 'Any other 2021 high-risk criterion, or a fall over 20 ft.' },

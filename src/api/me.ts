@@ -1,8 +1,9 @@
 import { apiGet } from './http';
 
-// These types describe the server's answer; they move to shared/ once the server owns them there,
-// and this file then re-exports them so that no importer has to change.
-export type Role = 'paramedic' | 'charge_nurse' | 'trauma_lead' | 'quality' | 'admin';
+import type { Role } from '../../shared/roles';
+
+// The role ids are the server's (shared/roles.ts); the answer's other types are described here.
+export type { Role };
 
 export interface Membership {
   kind: 'hospital' | 'agency';

@@ -2,13 +2,13 @@ import { createRouter, createWebHistory, type RouteRecordRaw } from 'vue-router'
 import { ApiError } from '@/api/http';
 import { signInUrl, type Role } from '@/api/me';
 import { useSessionStore } from '@/stores/session';
-import { canOpen } from './access';
+import { canOpen, type Action } from '@shared/access';
 
 declare module 'vue-router' {
   interface RouteMeta {
     title: string;
-    /** Who may open the screen; empty means anyone signed in. */
-    roles: Role[];
+    /** The action of the access map the screen is for; absent means anyone signed in. */
+    access?: Action;
     /** Reachable without signing in. */
     public?: boolean;
     /** Set on the screens that belong in the navigation, in the order they appear there. */
@@ -22,57 +22,57 @@ export const screenRoutes: RouteRecordRaw[] = [
     path: '/pre-alert',
     name: 'new-pre-alert',
     component: () => import('@/views/NewPreAlertView.vue'),
-    meta: { title: 'New pre-alert', roles: ['paramedic'], nav: true },
+    meta: { title: 'New pre-alert', access: 'pre-alerts.send', nav: true },
   },
   {
     path: '/board',
     name: 'inbound-board',
     component: () => import('@/views/InboundBoardView.vue'),
-    // The charge nurse acts on the board; the trauma lead and the administrator may watch it (as GET /api/board allows).
-    meta: { title: 'Inbound board', roles: ['charge_nurse', 'trauma_lead', 'admin'], nav: true },
+    // Those who may watch the board open it; only those who may act see its buttons.
+    meta: { title: 'Inbound board', access: 'board.read', nav: true },
   },
   {
     path: '/cases/:id(\\d+)/handover',
     name: 'case-handover',
     component: () => import('@/views/HandoverPrintView.vue'),
-    meta: { title: 'Handover', roles: ['charge_nurse', 'trauma_lead', 'admin'] },
+    meta: { title: 'Handover', access: 'board.read' },
   },
   {
     path: '/review',
     name: 'activation-review',
     component: () => import('@/views/ActivationReviewView.vue'),
-    // The quality team reads the reviews; only the trauma lead and the administrator write them.
-    meta: { title: 'Activation review', roles: ['trauma_lead', 'admin', 'quality'], nav: true },
+    // Readers open it; only those who may write reviews see the review buttons.
+    meta: { title: 'Activation review', access: 'review.read', nav: true },
   },
   {
     path: '/review/cases/:id(\\d+)',
     name: 'case-timeline',
     component: () => import('@/views/CaseTimelineView.vue'),
-    meta: { title: 'Case timeline', roles: ['trauma_lead', 'admin', 'quality'] },
+    meta: { title: 'Case timeline', access: 'review.read' },
   },
   {
     path: '/quality',
     name: 'triage-quality',
     component: () => import('@/views/TriageQualityView.vue'),
-    meta: { title: 'Triage quality', roles: ['quality', 'admin', 'trauma_lead'], nav: true },
+    meta: { title: 'Triage quality', access: 'quality.read', nav: true },
   },
   {
     path: '/policies',
     name: 'policies',
     component: () => import('@/views/PoliciesView.vue'),
-    meta: { title: 'Policies', roles: ['admin', 'trauma_lead'], nav: true },
+    meta: { title: 'Policies', access: 'policies.read', nav: true },
   },
   {
     path: '/people',
     name: 'people-places',
     component: () => import('@/views/PeoplePlacesView.vue'),
-    meta: { title: 'People & places', roles: ['admin'], nav: true },
+    meta: { title: 'People & places', access: 'people.manage', nav: true },
   },
   {
     path: '/mail',
     name: 'mail-sent',
     component: () => import('@/views/MailSentView.vue'),
-    meta: { title: 'Messages sent', roles: ['admin'], nav: true },
+    meta: { title: 'Messages sent', access: 'messages.read', nav: true },
   },
 ];
 
@@ -81,7 +81,7 @@ const routes: RouteRecordRaw[] = [
     path: '/',
     name: 'home',
     component: () => import('@/views/HomeView.vue'),
-    meta: { title: 'Home', roles: [] },
+    meta: { title: 'Home' },
     // The global guard has loaded the session by now; HomeView is only for someone with no role.
     beforeEnter: () => useSessionStore().homeRoute ?? true,
   },
@@ -90,13 +90,13 @@ const routes: RouteRecordRaw[] = [
     path: '/signed-out',
     name: 'signed-out',
     component: () => import('@/views/SignedOutView.vue'),
-    meta: { title: 'Signed out', roles: [], public: true },
+    meta: { title: 'Signed out', public: true },
   },
   {
     path: '/:pathMatch(.*)*',
     name: 'not-found',
     component: () => import('@/views/NotFoundView.vue'),
-    meta: { title: 'Page not found', roles: [], public: true },
+    meta: { title: 'Page not found', public: true },
   },
 ];
 

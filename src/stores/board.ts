@@ -5,7 +5,7 @@ import * as api from '@/api/board';
 import { ApiError } from '@/api/http';
 import { connection, getSocket } from '@/api/socket';
 import type { BoardAction, BoardActionBody, BoardLevel, BoardSnapshot } from '@shared/schemas/board';
-import type { CaseSummary } from '@shared/schemas/cases';
+import { OPEN_STATES, type CaseSummary } from '@shared/schemas/cases';
 import type { CaseChange } from '@shared/realtime/events';
 import type { LevelId } from '@shared/triage/policy';
 import { byUrgency, urgencyGroup } from '@shared/board/urgency';
@@ -23,7 +23,7 @@ export interface BoardAlert { kind: 'new' | 'rose'; caseId: number; caseNumber: 
 /** A case that left the board, said once so nobody wonders where it went. */
 export interface BoardNotice { id: number; text: string }
 
-const OPEN = new Set(['en-route', 'acknowledged', 'arrived']);
+const OPEN: ReadonlySet<string> = new Set(OPEN_STATES);
 const RELOAD_EVERY_MS = 60_000;
 
 export const needsAcknowledgement = (c: CaseSummary) => c.acknowledgedAt == null || c.levelRose;

@@ -5,12 +5,7 @@ import type { Cell, ActivationBasis, DrilldownRequest, ImportPreview, ImportResu
 import type { OutcomeStandard } from '@shared/quality';
 import type { LevelId } from '@shared/triage/policy';
 
-const pad = (n: number) => String(n).padStart(2, '0');
-const monthOf = (d: Date) => `${d.getFullYear()}-${pad(d.getMonth() + 1)}`;
-function lastDayOf(month: string): string {
-  const [y, m] = month.split('-').map(Number);
-  return `${month}-${pad(new Date(y, m, 0).getDate())}`;
-}
+import { addMonths, lastDayOf, monthOf, runtimeTimeZone } from '../../shared/days';
 
 /** What a drill-down shows: a heading for the list and the filters that pick its cases. */
 export interface DrillTarget {
@@ -26,11 +21,11 @@ export const useQualityStore = defineStore('quality', () => {
   const now = new Date();
   const hospitalId = ref<number | null>(null);
   // The last twelve months, this one included: the window a monthly report looks back over.
-  const fromMonth = ref(monthOf(new Date(now.getFullYear(), now.getMonth() - 11, 1)));
-  const toMonth = ref(monthOf(now));
+  const toMonth = ref(monthOf(now.getTime(), runtimeTimeZone()));
+  const fromMonth = ref(addMonths(toMonth.value, -11));
   const standard = ref<OutcomeStandard>('iss');
   const basis = ref<ActivationBasis>('decided');
-  const timeZone = Intl.DateTimeFormat().resolvedOptions().timeZone || 'UTC';
+  const timeZone = runtimeTimeZone();
 
   const report = ref<QualityReport | null>(null);
   const loading = ref(false);

@@ -3,6 +3,7 @@ import { computed, reactive, ref } from 'vue';
 import * as api from '@/api/review';
 import type { AuditChainStatus, CaseTimeline, ComplianceReport, DiscussionItem, ReviewListPage, ReviewListRequest } from '@/api/review';
 import type { CaseReviewState, ReviewSortKey } from '@shared/schemas/review';
+import { addMonths, dayOf, monthOf, runtimeTimeZone } from '@shared/days';
 import type { LevelId } from '@shared/triage/policy';
 
 export interface ReviewFilterState {
@@ -17,17 +18,16 @@ export interface ReviewFilterState {
   review: CaseReviewState | null;
 }
 
-const localDate = (d: Date) => new Date(d.getTime() - d.getTimezoneOffset() * 60_000).toISOString().slice(0, 10);
 
 /** The last three months up to today: what a monthly review meeting looks back over. */
 function defaultFilters(): ReviewFilterState {
-  const today = new Date();
-  const start = new Date(today.getFullYear(), today.getMonth() - 2, 1);
-  return { from: localDate(start), to: localDate(today), hospitalId: null, decided: null, below: false, differs: false, overdue: false, slowTeam: false, review: null };
+  const zone = runtimeTimeZone();
+  const today = Date.now();
+  return { from: `${addMonths(monthOf(today, zone), -2)}-01`, to: dayOf(today, zone), hospitalId: null, decided: null, below: false, differs: false, overdue: false, slowTeam: false, review: null };
 }
 
 export const useReviewStore = defineStore('review', () => {
-  const timeZone = Intl.DateTimeFormat().resolvedOptions().timeZone || 'UTC';
+  const timeZone = runtimeTimeZone();
   const filters = reactive<ReviewFilterState>(defaultFilters());
   const sort = ref<ReviewSortKey>('createdAt');
   const dir = ref<'asc' | 'desc'>('desc');

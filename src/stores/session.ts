@@ -3,6 +3,7 @@ import { computed, ref } from 'vue';
 import { ApiError } from '@/api/http';
 import { getMe, signInUrl, type MeResponse, type Role } from '@/api/me';
 import { keep, kept } from '@/offline/device-store';
+import { mayDo, type Action } from '@shared/access';
 
 // When a person holds several roles, the first match decides where "/" takes them: the role
 // with the most time-critical work comes first.
@@ -79,9 +80,10 @@ export const useSessionStore = defineStore('session', () => {
     return pending;
   }
 
-  function hasRole(...wanted: Role[]): boolean {
-    return wanted.some((role) => roles.value.includes(role));
+  /** Whether this person's roles open an action of the access map (the server checks again). */
+  function may(action: Action): boolean {
+    return mayDo(roles.value, action);
   }
 
-  return { me, user, roles, memberships, hospitals, homeRoute, loadError, fromDevice, load, hasRole };
+  return { me, user, roles, memberships, hospitals, homeRoute, loadError, fromDevice, load, may };
 });

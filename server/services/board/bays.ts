@@ -2,7 +2,7 @@ import type { Knex } from 'knex';
 import type { Me } from '../../../shared/roles';
 import { OPEN_STATES } from '../../../shared/schemas/cases';
 import type { BayView } from '../../../shared/schemas/bays';
-import { assertHospital } from '../../auth/guards';
+import { assertHospital, roleFor } from '../../auth/guards';
 import { appendAudit } from '../audit/audit';
 
 /** The hospital's bays in order, each with the open cases assigned to it (more than one is a double booking). */
@@ -37,7 +37,7 @@ export async function setBays(db: Knex, me: Me, hospitalId: number, bays: string
     const before = await trx('hospital_bays').where({ hospital_id: hospitalId }).orderBy('position').pluck('name');
     await trx('hospital_bays').where({ hospital_id: hospitalId }).delete();
     if (bays.length) await trx('hospital_bays').insert(bays.map((name, position) => ({ hospital_id: hospitalId, name, position })));
-    await appendAudit(trx, { at, actor: { id: me.user.id, role: 'admin' }, action: 'hospital.bays-set', entity: 'hospital', entityId: hospitalId, before: { bays: before }, after: { bays } });
+    await appendAudit(trx, { at, actor: { id: me.user.id, role: roleFor(me, 'bays.edit') }, action: 'hospital.bays-set', entity: 'hospital', entityId: hospitalId, before: { bays: before }, after: { bays } });
   });
   return listBays(db, hospitalId);
 }

@@ -9,14 +9,13 @@ import {
   levelName,
   type BoardAction,
   type BoardActionBody,
-  type BoardLevel,
   type BoardSnapshot,
   BOARD_CURSOR,
 } from '../../../shared/schemas/board';
 import { OPEN_STATES, type CaseSummary } from '../../../shared/schemas/cases';
-import type { CaseEventDataOf, CaseEventKind } from '../../../shared/schemas/case-events';
+import { eventPhrase, type CaseEventDataOf, type CaseEventKind } from '../../../shared/schemas/case-events';
 import type { CaseChange } from '../../../shared/realtime/events';
-import { EXAMPLE_POLICY, LEVEL_RANK, Policy } from '../../../shared/triage/policy';
+import { LEVEL_RANK } from '../../../shared/triage/policy';
 import { assertHospital, hospitalIdsOf } from '../../auth/guards';
 import type { Clock } from '../../deps';
 import { AppError, CaseRefusal, conflict, forbidden, invalid, parseOr400 } from '../../errors';
@@ -27,7 +26,7 @@ import { loadCaseRow } from '../cases/queries';
 import { caseSummary, listCaseSummariesJson, listCaseSummariesPage } from '../cases/summary';
 import { casesInBay } from './bays';
 import { composePage, hasTierOneEntries, hospitalClock, notificationList } from './paging';
-import { policyInForce } from '../policies/policies';
+import { levelsOfCase, policyInForce } from '../policies/policies';
 import { getSetting } from '../people/settings';
 
 type CaseRow = Awaited<ReturnType<typeof loadCaseRow>>;
@@ -105,32 +104,6 @@ export async function boardSnapshotJson(db: Knex, clock: Clock, me: Me, hospital
   return `${start},"openTotal":${page.total},"cases":${page.json}}`;
 }
 
-/** The level names of the policy version that evaluated a case (its names may differ from today's). */
-export async function levelsOfCase(db: Knex, row: Pick<CaseRow, 'hospital_id' | 'policy_id' | 'policy_version'>): Promise<BoardLevel[]> {
-  let policy: Policy = EXAMPLE_POLICY;
-  if (!(row.policy_id === EXAMPLE_POLICY.id && row.policy_version === EXAMPLE_POLICY.version)) {
-    const stored = await db('policy_versions').where({ hospital_id: row.hospital_id, policy_id: row.policy_id, version: row.policy_version }).first('document');
-    if (stored) policy = Policy.parse(JSON.parse(stored.document));
-  }
-  return policy.levels.map((l) => ({ id: l.id, name: l.name }));
-}
-
-const EVENT_PHRASES: Record<string, string> = {
-  received: 'received',
-  revised: 'updated by the crew',
-  cancelled: 'cancelled by the crew',
-  redirected: 'redirected by the crew',
-  acknowledged: 'acknowledged',
-  'level-decided': 'level decided',
-  'bay-assigned': 'bay assigned',
-  paged: 'team paged',
-  'page-failed': 'page failed',
-  arrived: 'marked arrived',
-  'team-at-bedside': 'team leader at the bedside recorded',
-  closed: 'closed',
-  overdue: 'marked overdue',
-};
-
 /** "Already acknowledged by Morgan at 03:12" for the race the product is built around; otherwise who changed it last. */
 async function staleMessage(db: Knex, row: CaseRow, action: BoardAction): Promise<string> {
   if (action === 'acknowledge' && row.acknowledged_at != null && !row.level_rose) {
@@ -138,7 +111,7 @@ async function staleMessage(db: Knex, row: CaseRow, action: BoardAction): Promis
     return `Already acknowledged by ${who?.name ?? 'someone'} at ${clockTime(Number(row.acknowledged_at))}.`;
   }
   const last = await db('case_events as e').leftJoin('users as u', 'u.id', 'e.actor_id').where('e.case_id', row.id).orderBy('e.id', 'desc').first('e.kind', 'e.at', 'e.actor_role', 'u.name');
-  const what = last ? `${EVENT_PHRASES[last.kind] ?? last.kind} by ${last.name ?? (last.actor_role === 'system' ? 'Plumbline' : 'someone')} at ${clockTime(Number(last.at))}` : 'changed';
+  const what = last ? `${eventPhrase(last.kind)} by ${last.name ?? (last.actor_role === 'system' ? 'Plumbline' : 'someone')} at ${clockTime(Number(last.at))}` : 'changed';
   return `The case changed first (${what}). Your board now shows it as it stands; look again before acting.`;
 }
 
@@ -188,7 +161,7 @@ const planners: { [A in Exclude<BoardAction, 'page'>]: Planner<A> } = {
     const below = LEVEL_RANK[body.level] < LEVEL_RANK[row.recommended_level];
     const reason = body.reason?.trim() || null;
     if (below && (reason ?? '').length < REASON_MIN) {
-      const levels = await levelsOfCase(db, row);
+      const levels = await levelsOfCase(db, row, at);
       throw invalid([{ field: 'reason', message: `is required to decide ${levelName(levels, body.level)}, below the recommended ${levelName(levels, row.recommended_level)}: say why in a few words` }]);
     }
     return {
@@ -290,7 +263,7 @@ export async function actOnCase(deps: BoardDeps, actor: CaseActor, caseId: numbe
 async function pageTeam(deps: BoardDeps, actor: CaseActor, row: CaseRow, at: number): Promise<BoardOutcome> {
   const { db, mailer } = deps;
   const level = row.decided_level;
-  const levels = await levelsOfCase(db, row);
+  const levels = await levelsOfCase(db, row, at);
   if (row.acknowledged_at == null) await refuse(db, row.id, 409, 'conflict', 'Acknowledge the case first.');
   if (!level) return refuse(db, row.id, 409, 'conflict', 'Decide the level before paging the team.');
   if (level === 'none') return refuse(db, row.id, 409, 'conflict', `${levelName(levels, 'none')} was decided, so there is no team to page.`);

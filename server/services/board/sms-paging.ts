@@ -8,14 +8,14 @@ import { surfaceOptions } from '../../../shared/schemas/clinical';
 import { PAGED_LEVELS, PagingPlan, type PagedLevel, type PagingContact, type PagingEntry, type PagingStatus, type ReplyAnswer } from '../../../shared/schemas/paging';
 import { roomOfHospital } from '../../../shared/realtime/events';
 import type { LevelId } from '../../../shared/triage/policy';
-import { assertHospital, hospitalIdsOf } from '../../auth/guards';
+import { assertHospital, hospitalIdsOf, roleFor } from '../../auth/guards';
 import type { Clock } from '../../deps';
 import { forbidden, invalid, notFound } from '../../errors';
 import type { Mailer } from '../../mail';
 import type { RealtimeServer } from '../../realtime';
 import type { SmsSender } from '../../sms';
 import { appendAudit, recordCaseEvent, systemActor, type Actor } from '../audit/audit';
-import { levelsOfCase } from './board';
+import { levelsOfCase } from '../policies/policies';
 import { loadCaseRow } from '../cases/queries';
 import { caseSummary } from '../cases/summary';
 import { composePage, notificationList } from './paging';
@@ -58,7 +58,7 @@ export async function setContact(db: Knex, me: Me, userId: number, contact: Pagi
   await db.transaction(async (trx) => {
     const before = await contactOf(trx, userId);
     await trx('paging_contacts').insert({ user_id: userId, email: contact.email, mobile: contact.mobile, updated_at: at }).onConflict('user_id').merge();
-    await appendAudit(trx, { at, actor: { id: me.user.id, role: 'admin' }, action: 'user.paging-contact-set', entity: 'user', entityId: userId, before, after: contact });
+    await appendAudit(trx, { at, actor: { id: me.user.id, role: roleFor(me, 'paging.manage') }, action: 'user.paging-contact-set', entity: 'user', entityId: userId, before, after: contact });
   });
   return contactOf(db, userId);
 }
@@ -84,7 +84,7 @@ export async function savePagingPlan(db: Knex, me: Me, hospitalId: number, plan:
     if (entry.kind === 'person' && !members.has(entry.value)) issues.push({ field: `levels.${level}.tiers[${t}][${i}]`, message: 'that person is not a member of this hospital' });
   }));
   if (issues.length) throw invalid(issues);
-  const actor: Actor = { id: me.user.id, role: 'admin' };
+  const actor: Actor = { id: me.user.id, role: roleFor(me, 'paging.manage') };
   await db.transaction(async (trx) => {
     const before = await getPagingPlan(trx, hospitalId);
     const timing: StoredPlan = { levels: Object.fromEntries(PAGED_LEVELS.map((l) => [l, { minutes: plan.levels[l].minutes, repeats: plan.levels[l].repeats }])) as StoredPlan['levels'], targetMinutes: plan.targetMinutes };
@@ -167,7 +167,7 @@ export async function sendRound(deps: PagingDeps, caseId: number, tier: number, 
   });
   if (!claimed) return false;
   const summary = await caseSummary(db, caseId);
-  const levels = await levelsOfCase(db, row);
+  const levels = await levelsOfCase(db, row, at);
   const text = composeSms(summary, level, levels, at, { tier, round });
   for (const target of targets.filter((t) => t.channel === 'sms')) {
     const [msg] = await db('outbound_messages').insert({ hospital_id: row.hospital_id, case_id: caseId, channel: 'sms', recipient: target.to, user_id: target.userId, body: text, state: 'queued', tier, round, created_at: at, updated_at: at }).returning('id');
@@ -230,7 +230,7 @@ async function fallBack(deps: PagingDeps, messageId: number): Promise<void> {
   if (address) {
     const row = await loadCaseRow(db, msg.case_id);
     const summary = await caseSummary(db, msg.case_id);
-    const mail = composePage(summary, row.decided_level ?? summary.recommendedLevel, await levelsOfCase(db, row), deps.clock.now());
+    const mail = composePage(summary, row.decided_level ?? summary.recommendedLevel, await levelsOfCase(db, row, deps.clock.now()), deps.clock.now());
     try {
       await deps.mailer.send({ ...mail, subject: `SMS not delivered, by e-mail instead: ${mail.subject}`, to: [address], hospitalId: msg.hospital_id, record: { caseId: msg.case_id, userId, tier: msg.tier, round: msg.round, fallbackOf: messageId } });
     } catch (err) {

@@ -4,6 +4,7 @@ import type { CrewDestinations } from '../../../shared/schemas/crew';
 import type { CaseEventView, CaseSummary, CrewCaseEventView } from '../../../shared/schemas/cases';
 import { agencyIdsOf, hospitalIdsOf } from '../../auth/guards';
 import { forbidden } from '../../errors';
+import { CREW_EVENT_KINDS } from '../../../shared/schemas/case-events';
 import { policyInForce } from '../policies/policies';
 
 /** The destinations and active units of the paramedic's own agencies, never another agency's. */
@@ -51,10 +52,6 @@ export async function crewDestinations(db: Knex, me: Me, at: number): Promise<Cr
 export function crewView(summary: CaseSummary): CaseSummary {
   return summary.decidedReason === null ? summary : { ...summary, decidedReason: null };
 }
-
-// The steps of a case a crew follows; pages (with their recipients), escalations and reviews
-// (with their comments) are the hospital's.
-const CREW_EVENT_KINDS = new Set(['received', 'revised', 'cancelled', 'redirected', 'acknowledged', 'level-decided', 'bay-assigned', 'arrived', 'team-at-bedside', 'closed']);
 
 /** The crew's timeline of a case: its steps, who took them and when, without what the hospital wrote. */
 export function crewEvents(events: CaseEventView[]): CrewCaseEventView[] {

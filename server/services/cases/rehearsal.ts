@@ -1,7 +1,8 @@
 import { randomUUID } from 'node:crypto';
 import type { Knex } from 'knex';
 import { PreAlert, PreAlertUpdate } from '../../../shared/schemas/cases';
-import { loadMe } from '../../auth/guards';
+import { rolesFor } from '../../../shared/access';
+import { loadMe, roleFor } from '../../auth/guards';
 import type { Clock } from '../../deps';
 import { reviseCase, submitPreAlert } from './commands';
 import { caseSummary } from './summary';
@@ -28,11 +29,12 @@ export async function rehearsePreAlerts(db: Knex, clock: Clock, rounds = 12): Pr
     .join('user_roles as r', 'r.user_id', 'u.id')
     .join('memberships as m', 'm.user_id', 'u.id')
     .join('agency_hospitals as ah', 'ah.agency_id', 'm.agency_id')
-    .where({ 'r.role': 'paramedic', 'u.active': true })
+    .whereIn('r.role', rolesFor('pre-alerts.send'))
+    .where({ 'u.active': true })
     .first('u.id as userId', 'ah.hospital_id as hospitalId');
   const me = crew && (await loadMe(db, crew.userId));
   if (!me) return 0;
-  const actor = { me, role: 'paramedic' as const };
+  const actor = { me, role: roleFor(me, 'pre-alerts.send') };
   let done = 0;
   // One transaction a round: with several processes on one database, a rehearsal holds the
   // write (and the audit chain's turn) only as long as one pre-alert does.

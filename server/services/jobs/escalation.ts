@@ -3,7 +3,7 @@ import { announceCase, type Announcer } from '../../realtime/broadcast';
 import type { Clock } from '../../deps';
 import type { Mailer } from '../../mail';
 import { recordCaseEvent, systemActor } from '../audit/audit';
-import { levelsOfCase } from '../board/board';
+import { levelsOfCase } from '../policies/policies';
 import { caseSummary } from '../cases/summary';
 import type { Job } from './job';
 import { composeEscalation, composeEscalationDigest, hospitalClock, notificationList, type NotificationList } from '../board/paging';
@@ -94,7 +94,7 @@ export async function runEscalation(deps: EscalationDeps): Promise<number[]> {
     if (!won) continue;
     const summary = await caseSummary(db, row.id);
     announceCase(deps, summary, { kind: newSteps[0].step === 1 ? 'overdue' : 'escalated', at: now, by: null });
-    const levels = await levelsOfCase(db, row);
+    const levels = await levelsOfCase(db, row, now);
     for (const [i, s] of newSteps.entries()) reached.push({ summary, minutes: s.afterMinutes, levels, step: s.step, list: s.list, recipients: recipients[i] });
   }
   await mailSteps(deps, reached, now);

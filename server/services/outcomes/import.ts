@@ -1,9 +1,9 @@
 import { createHash, randomBytes } from 'node:crypto';
 import type { Knex } from 'knex';
-import type { Me, Role } from '../../../shared/roles';
+import type { Me } from '../../../shared/roles';
 import type { ImportIssue, ImportPreview, ImportResult } from '../../../shared/schemas/quality';
-import { assertHospital, hasRole } from '../../auth/guards';
-import { AppError, forbidden, notFound } from '../../errors';
+import { assertHospital, assertMay, roleFor } from '../../auth/guards';
+import { AppError, notFound } from '../../errors';
 import type { Actor } from '../audit/audit';
 import { parseOutcomeCsv } from './parse';
 import { resolveCases, saveStaged, summarise } from './store';
@@ -48,18 +48,13 @@ async function heldFile(db: Knex, me: Me, hospitalId: number, token: string, at:
   return { originalname: entry.file_name, buffer: Buffer.from(entry.file) };
 }
 
-export function canImport(me: Me): boolean {
-  return hasRole(me, 'quality', 'admin');
-}
-
 function importer(me: Me): Actor {
-  const role: Role = hasRole(me, 'quality') ? 'quality' : 'admin';
-  return { id: me.user.id, role };
+  return { id: me.user.id, role: roleFor(me, 'quality.manage') };
 }
 
 /** Checks the file and answers every problem; stores nothing but the file, for the confirm. */
 export async function previewOutcomes(db: Knex, me: Me, hospitalId: number, file: UploadedFile, at: number): Promise<ImportPreview> {
-  if (!canImport(me)) throw forbidden('Only the quality team or an administrator imports outcomes.');
+  assertMay(me, 'quality.manage');
   assertHospital(me, hospitalId);
   const { rows, fileIssues } = await parseOutcomeCsv(file.buffer);
   if (fileIssues.length) return { token: null, expiresAt: null, ...summarise(file.originalname, hospitalId, [], fileIssues) };
@@ -80,7 +75,7 @@ const importing = new Set<number>();
  * before saving; one bad row and nothing is saved.
  */
 export async function importOutcomes(db: Knex, me: Me, hospitalId: number, source: { token: string } | { file: UploadedFile }, at: number): Promise<ImportResult> {
-  if (!canImport(me)) throw forbidden('Only the quality team or an administrator imports outcomes.');
+  assertMay(me, 'quality.manage');
   assertHospital(me, hospitalId);
   const file = 'token' in source ? await heldFile(db, me, hospitalId, source.token, at) : source.file;
   if (importing.has(hospitalId)) throw new AppError(409, 'import_running', 'Another outcomes import for this hospital is being saved; try again when it has finished.');

@@ -16,7 +16,7 @@ import {
   type UpdateUnit,
   type UpdateUser,
 } from '../../../shared/schemas/people';
-import { agencyIdsOf, assertAgency, assertHospital, hospitalIdsOf } from '../../auth/guards';
+import { agencyIdsOf, assertAgency, assertHospital, hospitalIdsOf, roleFor } from '../../auth/guards';
 import { endSessionsOf } from '../../auth/session';
 import { endIdentitySessionsOf } from '../../idp/store';
 import { hashPassword } from '../../auth/passwords';
@@ -29,7 +29,7 @@ import { membershipsOf, rolesOf } from './users';
 // people who share one of their places, changes only those whose every place is theirs, and
 // changes only those places' records.
 
-const actorOf = (me: Me): Actor => ({ id: me.user.id, role: 'admin' });
+const actorOf = (me: Me): Actor => ({ id: me.user.id, role: roleFor(me, 'people.manage') });
 
 function scopeOf(me: Me) {
   return { hospitals: new Set(hospitalIdsOf(me)), agencies: new Set(agencyIdsOf(me)) };

@@ -3,10 +3,11 @@ import { LRUCache } from 'lru-cache';
 import type { Me, Role } from '../../../shared/roles';
 import type { ApproveVersion, CreateDraft, LooseningWarning, PolicyStatus, PolicyVersionSummary, PublishVersion, SaveDraft } from '../../../shared/schemas/policies';
 import { EXAMPLE_POLICY, Policy, validatePolicy } from '../../../shared/triage/policy';
+import type { BoardLevel } from '../../../shared/schemas/board';
 import { withLocalCriteria } from '../../../shared/triage/local-criteria';
 import { looseningWarnings } from '../../../shared/triage/loosening';
 import { rekeyLocalCriteria, settleDraftCriteria } from './local-criteria';
-import { assertHospital, hasRole } from '../../auth/guards';
+import { assertHospital, assertMay, roleFor } from '../../auth/guards';
 import { AppError, conflict, forbidden, invalid, notFound } from '../../errors';
 import { appendAudit, type Actor } from '../audit/audit';
 
@@ -19,6 +20,22 @@ const publishedCache = new LRUCache<string, Policy>({ max: 200 });
  * The policy that decides a new evaluation at this hospital now: its latest published version
  * whose effective date has come, or the shipped example until the hospital publishes its own.
  */
+/**
+ * The levels, with their names, of the policy version that evaluated a case: its names may differ
+ * from today's. The one place a case's level names are looked up.
+ */
+export async function levelsOfCase(db: Knex, row: { hospital_id: number; policy_id: string; policy_version: number }, at: number): Promise<BoardLevel[]> {
+  let policy: Policy | undefined;
+  if (row.policy_id === EXAMPLE_POLICY.id && row.policy_version === EXAMPLE_POLICY.version) policy = EXAMPLE_POLICY;
+  else {
+    const stored = await db('policy_versions').where({ hospital_id: row.hospital_id, policy_id: row.policy_id, version: row.policy_version }).first('document');
+    if (stored) policy = Policy.parse(JSON.parse(stored.document));
+  }
+  // A version no longer stored reads with the example's names, or else today's.
+  policy ??= row.policy_id === EXAMPLE_POLICY.id ? EXAMPLE_POLICY : await policyInForce(db, row.hospital_id, at);
+  return policy.levels.map((l) => ({ id: l.id, name: l.name }));
+}
+
 export async function policyInForce(db: Knex, hospitalId: number, at: number): Promise<Policy> {
   const row = await db('policy_versions')
     .where({ hospital_id: hospitalId, status: 'published' })
@@ -198,7 +215,7 @@ export async function createDraft(db: Knex, me: Me, request: CreateDraft, at: nu
       .insert({ hospital_id: request.hospitalId, policy_id: policyId, version, status: 'draft', document: JSON.stringify(document), created_by: me.user.id, changed_by: me.user.id, created_at: at })
       .returning('id');
     await appendAudit(trx, {
-      at, actor: actorOf(me, 'admin'), action: 'policy.draft-created', entity: 'policy', entityId: inserted.id,
+      at, actor: actorOf(me, roleFor(me, 'policies.draft')), action: 'policy.draft-created', entity: 'policy', entityId: inserted.id,
       after: { hospitalId: request.hospitalId, from: source.example ? 'example' : { id: source.id, version: source.version } },
       policy: { id: policyId, version },
     });
@@ -218,7 +235,7 @@ export async function saveDraft(db: Knex, me: Me, versionId: number, edit: SaveD
     if (!check.ok) throw invalid(check.issues);
     await trx('policy_versions').where({ id: versionId }).update({ document: JSON.stringify(check.policy), changed_by: me.user.id });
     await appendAudit(trx, {
-      at, actor: actorOf(me, 'admin'), action: 'policy.draft-saved', entity: 'policy', entityId: versionId,
+      at, actor: actorOf(me, roleFor(me, 'policies.draft')), action: 'policy.draft-saved', entity: 'policy', entityId: versionId,
       before: { name: before.name, levels: before.levels, rules: before.rules, localCriteria: before.localCriteria ?? [] },
       after: { name: check.policy.name, levels: check.policy.levels, rules: check.policy.rules, localCriteria: check.policy.localCriteria ?? [] },
       policy: refOf(row),
@@ -232,7 +249,7 @@ export async function discardDraft(db: Knex, me: Me, versionId: number, at: numb
     const row = await loadVersion(trx, me, versionId);
     if (row.status !== 'draft') throw notEditable(row);
     await trx('policy_versions').where({ id: versionId }).delete();
-    await appendAudit(trx, { at, actor: actorOf(me, 'admin'), action: 'policy.draft-discarded', entity: 'policy', entityId: versionId, before: JSON.parse(row.document), policy: refOf(row) });
+    await appendAudit(trx, { at, actor: actorOf(me, roleFor(me, 'policies.draft')), action: 'policy.draft-discarded', entity: 'policy', entityId: versionId, before: JSON.parse(row.document), policy: refOf(row) });
   });
 }
 
@@ -241,7 +258,7 @@ export async function discardDraft(db: Knex, me: Me, versionId: number, at: numb
  * people stand behind every version in force: its author and its last editor may not approve it.
  */
 export async function approveVersion(db: Knex, me: Me, versionId: number, request: ApproveVersion, at: number): Promise<PolicyVersionDetail> {
-  if (!hasRole(me, 'trauma_lead')) throw forbidden('Only a trauma lead approves a policy version.');
+  assertMay(me, 'policies.approve');
   await db.transaction(async (trx) => {
     const row = await loadVersion(trx, me, versionId);
     if (row.status !== 'draft') throw conflict(`Version ${row.version} is ${row.status}; only a draft can be approved.`);
@@ -264,7 +281,7 @@ export async function approveVersion(db: Knex, me: Me, versionId: number, reques
         loosening_acknowledged: acknowledged && JSON.stringify(acknowledged),
       });
     await appendAudit(trx, {
-      at, actor: actorOf(me, 'trauma_lead'), action: 'policy.approved', entity: 'policy', entityId: versionId,
+      at, actor: actorOf(me, roleFor(me, 'policies.approve')), action: 'policy.approved', entity: 'policy', entityId: versionId,
       before: { status: 'draft' },
       after: { status: 'approved', approvedBy: me.user.name, approvedAt: at, looseningAcknowledged: acknowledged?.map((w) => w.message) ?? null },
       policy: refOf(row),
@@ -276,8 +293,7 @@ export async function approveVersion(db: Knex, me: Me, versionId: number, reques
 const isoDate = (ms: number) => new Date(ms).toISOString().slice(0, 10);
 
 export async function publishVersion(db: Knex, me: Me, versionId: number, request: PublishVersion, at: number): Promise<PolicyVersionDetail> {
-  const role: Role | undefined = hasRole(me, 'trauma_lead') ? 'trauma_lead' : hasRole(me, 'admin') ? 'admin' : undefined;
-  if (!role) throw forbidden('Only a trauma lead or an administrator publishes a policy version.');
+  const role = roleFor(me, 'policies.publish');
   const effectiveFrom = request.effectiveFrom ?? at;
   if (effectiveFrom < at - PAST_TOLERANCE_MS) {
     throw invalid([{ field: 'effectiveFrom', message: 'must not be in the past: cases already evaluated keep the version they were evaluated under' }]);

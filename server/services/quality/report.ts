@@ -8,12 +8,12 @@ import {
 } from '../../../shared/schemas/quality';
 import { findCriterion } from '../../../shared/triage/catalog';
 import type { LevelId } from '../../../shared/triage/policy';
-import { assertHospital, hasRole } from '../../auth/guards';
-import { forbidden, notFound } from '../../errors';
+import { assertHospital, assertMay, roleFor } from '../../auth/guards';
+import { notFound } from '../../errors';
 import { toCsv, type CsvColumn } from './csv';
 import { policyInForce } from '../policies/policies';
 import { getSetting, setSetting } from '../people/settings';
-import { periodOf, type Period } from './period';
+import { periodOf, type Period } from '../../../shared/days';
 import { selectRows } from '../../db';
 
 // The over- and under-triage report: one indexed scan over the hospital's cases in the period,
@@ -27,10 +27,8 @@ export const DEFAULT_TARGETS: Targets = {
   overTriageSystemMax: 0.5, // [source: Mohan 2011]
 };
 
-export const canReadQuality = (me: Me) => hasRole(me, 'quality', 'admin', 'trauma_lead');
-
 export function assertQualityReader(me: Me, hospitalId: number): void {
-  if (!canReadQuality(me)) throw forbidden('Triage quality is for the quality team, trauma leads and administrators.');
+  assertMay(me, 'quality.read');
   assertHospital(me, hospitalId);
 }
 
@@ -39,9 +37,9 @@ export async function qualityTargets(db: Knex, hospitalId: number): Promise<Targ
 }
 
 export async function saveQualityTargets(db: Knex, me: Me, hospitalId: number, targets: TargetsInput, at: number): Promise<Targets> {
-  if (!hasRole(me, 'quality', 'admin')) throw forbidden('Only the quality team or an administrator sets the targets.');
+  const role = roleFor(me, 'quality.manage');
   assertHospital(me, hospitalId);
-  await setSetting(db, TARGETS_KEY, targets, hospitalId, { actor: { id: me.user.id, role: hasRole(me, 'quality') ? 'quality' : 'admin' }, at });
+  await setSetting(db, TARGETS_KEY, targets, hospitalId, { actor: { id: me.user.id, role }, at });
   return qualityTargets(db, hospitalId);
 }
 

@@ -1,7 +1,7 @@
 import type { Knex } from 'knex';
 import type { ClinicalInput } from '../../../shared/schemas/clinical';
 import type { CriteriaSetId } from '../../../shared/triage/criteria';
-import type { LevelId } from '../../../shared/triage/policy';
+import { LEVEL_IDS, type LevelId } from '../../../shared/triage/policy';
 import { evaluationInputReader } from '../cases/evaluation-input';
 
 // The past cases a what-if evaluates again. A year of a busy hospital is 100,000 cases; reading
@@ -33,7 +33,7 @@ export interface PastCases {
    */
   inputAt(i: number): { set: CriteriaSetId; input: ClinicalInput };
 }
-export const LEVELS: readonly LevelId[] = ['full', 'limited', 'consult', 'none'];
+export const LEVELS: readonly LevelId[] = LEVEL_IDS;
 const LEVEL_CODE: Record<string, number> = { full: 0, limited: 1, consult: 2, none: 3 };
 export const NOT_DECIDED = 255;
 /** Ids per look-up of revisions read whole (well under any database's limit of bound parameters). */

@@ -7,7 +7,7 @@ import { LEVEL_RANK, validatePolicy, type LevelId, type Policy } from '../../../
 import { forbidden, invalid, notFound } from '../../errors';
 import { policyInForce } from '../policies/policies';
 import { assertQualityReader } from './report';
-import { periodOf } from './period';
+import { periodOf } from '../../../shared/days';
 import { LEVELS, NOT_DECIDED, readPastCases } from './what-if-inputs';
 import { localCriteriaRead } from './what-if-local';
 

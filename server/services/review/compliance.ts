@@ -1,16 +1,12 @@
 import type { Knex } from 'knex';
-import dayjs from 'dayjs';
-import utc from 'dayjs/plugin/utc';
-import timezone from 'dayjs/plugin/timezone';
 import type { Me } from '../../../shared/roles';
 import type { ComplianceMonth, ComplianceQuery, ComplianceReport } from '../../../shared/schemas/review';
 import { wilsonInterval } from '../../../shared/quality/wilson';
 import { forbidden } from '../../errors';
 import { rangeOf, scopeHospitals } from './reviews';
+import { addMonths, monthOf } from '../../../shared/days';
 import { getSetting } from '../people/settings';
 
-dayjs.extend(utc);
-dayjs.extend(timezone);
 
 // Response-time compliance: of the highest-level activations that arrived, the share with the
 // team leader at the bedside within the target after arrival, per month of arrival.
@@ -50,7 +46,7 @@ export async function complianceReport(db: Knex, me: Me, q: ComplianceQuery): Pr
   const byMonth = new Map<string, Counts>();
   const total: Counts = { activations: 0, met: 0, late: 0, notRecorded: 0 };
   for (const row of rows) {
-    const month = dayjs(Number(row.arrived_at)).tz(q.timeZone).format('YYYY-MM');
+    const month = monthOf(Number(row.arrived_at), q.timeZone);
     const counts = byMonth.get(month) ?? { activations: 0, met: 0, late: 0, notRecorded: 0 };
     const outcome = row.team_at_bedside_at == null ? 'notRecorded' : Number(row.team_at_bedside_at) - Number(row.arrived_at) <= targetMinutes * 60_000 ? 'met' : 'late';
     for (const c of [counts, total]) {
@@ -67,8 +63,7 @@ export async function complianceReport(db: Knex, me: Me, q: ComplianceQuery): Pr
   const last = q.to ? q.to.slice(0, 7) : keys[keys.length - 1];
   const months: ComplianceMonth[] = [];
   if (first && last) {
-    for (let m = dayjs(`${first}-01`); m.format('YYYY-MM') <= last && months.length < 240; m = m.add(1, 'month')) {
-      const key = m.format('YYYY-MM');
+    for (let key = first; key <= last && months.length < 240; key = addMonths(key, 1)) {
       months.push({ month: key, ...summarise(byMonth.get(key) ?? { activations: 0, met: 0, late: 0, notRecorded: 0 }, targetShare) });
     }
   }

@@ -1,30 +1,22 @@
 import type { Knex } from 'knex';
-import dayjs from 'dayjs';
-import utc from 'dayjs/plugin/utc';
-import timezone from 'dayjs/plugin/timezone';
-import type { Me, Role } from '../../../shared/roles';
+import type { Me } from '../../../shared/roles';
 import type { CaseState } from '../../../shared/schemas/cases';
 import type {
   CaseReviewState, CaseTimeline, DiscussionItem, IntervalView, ReviewFilters, ReviewListPage, ReviewListQuery, ReviewRow, ReviewSortKey, ReviewStatus, ReviewView, TimelineRevision,
 } from '../../../shared/schemas/review';
-import { EXAMPLE_POLICY, LEVEL_IDS, LEVEL_RANK, type LevelId, type Policy } from '../../../shared/triage/policy';
-import { assertHospital, hasRole, hospitalIdsOf } from '../../auth/guards';
+import { LEVEL_IDS, LEVEL_RANK, type LevelId } from '../../../shared/triage/policy';
+import { assertHospital, hospitalIdsOf, may, roleFor } from '../../auth/guards';
 import { conflict, forbidden, notFound } from '../../errors';
 import { recordCaseEvent, type Actor } from '../audit/audit';
 import { caseEvents, caseRevisions } from '../cases/queries';
 import { caseSummary } from '../cases/summary';
-import { policyInForce } from '../policies/policies';
+import { levelsOfCase, policyInForce } from '../policies/policies';
 import { getSetting } from '../people/settings';
-
-dayjs.extend(utc);
-dayjs.extend(timezone);
+import { dayEnd, dayStart } from '../../../shared/days';
 
 // The trauma lead's side of a case: the filtered table, the timeline and the review work.
 // Readers are the trauma lead, the administrator and the quality team of the case's hospital;
 // only the first two write reviews.
-
-export const REVIEWER_ROLES: Role[] = ['trauma_lead', 'admin'];
-export const REVIEW_READER_ROLES: Role[] = ['trauma_lead', 'admin', 'quality'];
 
 const MINUTE = 60_000;
 const rankSql = (column: string) => `CASE ${column} ${LEVEL_IDS.map((id) => `WHEN '${id}' THEN ${LEVEL_RANK[id]}`).join(' ')} END`;
@@ -49,8 +41,8 @@ const SORT_SQL: Record<ReviewSortKey, string> = {
 /** Day boundaries in the reader's time zone: from the start of `from` to the end of `to`. */
 export function rangeOf(q: { from?: string; to?: string; timeZone: string }): { start: number | null; end: number | null } {
   return {
-    start: q.from ? dayjs.tz(q.from, q.timeZone).startOf('day').valueOf() : null,
-    end: q.to ? dayjs.tz(q.to, q.timeZone).add(1, 'day').startOf('day').valueOf() : null,
+    start: q.from ? dayStart(q.from, q.timeZone) : null,
+    end: q.to ? dayEnd(q.to, q.timeZone) : null,
   };
 }
 
@@ -71,21 +63,14 @@ export async function responseTargets(db: Knex, hospitalIds: number[]): Promise<
   return targets;
 }
 
-/** The level names a case was decided under: its own policy version, else the one in force. */
-async function levelNamesOfCase(db: Knex, row: { hospital_id: number; policy_id: string; policy_version: number }, at: number): Promise<Record<LevelId, string>> {
-  const stored = await db('policy_versions').where({ hospital_id: row.hospital_id, policy_id: row.policy_id, version: row.policy_version }).first('document');
-  const policy = stored ? (JSON.parse(stored.document) as Policy) : row.policy_id === EXAMPLE_POLICY.id ? EXAMPLE_POLICY : await policyInForce(db, row.hospital_id, at);
-  return namesOf(policy);
-}
-
-function namesOf(policy: Policy): Record<LevelId, string> {
+function namesOf(levels: readonly { id: LevelId; name: string }[]): Record<LevelId, string> {
   const names = Object.fromEntries(LEVEL_IDS.map((id) => [id, id])) as Record<LevelId, string>;
-  for (const level of policy.levels) names[level.id] = level.name;
+  for (const level of levels) names[level.id] = level.name;
   return names;
 }
 
 export async function levelNamesOf(db: Knex, hospitalId: number, at: number): Promise<Record<LevelId, string>> {
-  return namesOf(await policyInForce(db, hospitalId, at));
+  return namesOf((await policyInForce(db, hospitalId, at)).levels);
 }
 
 function filteredCases(db: Knex, hospitalIds: number[], filters: ReviewFilters, targets: Map<number, number>) {
@@ -262,21 +247,19 @@ export async function caseTimeline(db: Knex, me: Me, caseId: number, at: number)
   const reviews = await caseReviews(db, caseId);
   return {
     case: await caseSummary(db, caseId),
-    levelNames: await levelNamesOfCase(db, row, at),
+    levelNames: namesOf(await levelsOfCase(db, row, at)),
     events: await caseEvents(db, caseId),
     revisions,
     intervals: intervalsOf(row, responseMinutes),
     reviews,
     review: reviews.length ? reviews[reviews.length - 1].status : 'unreviewed',
-    canReview: hasRole(me, ...REVIEWER_ROLES),
+    canReview: may(me, 'review.write'),
     reviewBlocked: blockedReason(row.state),
   };
 }
 
 function reviewerActor(me: Me): Actor {
-  const role = (['trauma_lead', 'admin'] as const).find((r) => me.roles.includes(r));
-  if (!role) throw forbidden('Only a trauma lead or an administrator reviews cases.');
-  return { id: me.user.id, role };
+  return { id: me.user.id, role: roleFor(me, 'review.write') };
 }
 
 export type ReviewAction = 'sign-off' | 'flag';
