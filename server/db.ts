@@ -1,10 +1,10 @@
 import { randomBytes } from 'node:crypto';
 import { readdirSync } from 'node:fs';
+import { createRequire } from 'node:module';
 import { dirname, join, resolve } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import knex, { type Knex } from 'knex';
 import { LRUCache } from 'lru-cache';
-import pg from 'pg';
 import { loadAuditKey } from './audit-key';
 import { migrationsDir } from './paths';
 import { useAuditKey } from './services/audit/audit';
@@ -55,16 +55,23 @@ export const isPostgresUrl = (target: string) => /^postgres(ql)?:\/\//.test(targ
 /** True when the database is PostgreSQL; the one test every dialect branch uses. */
 export const isPostgres = (db: Knex) => db.client.config.client === 'pg';
 
-// PostgreSQL answers bigint (int8) and count(*) as strings, since they may exceed 2^53. Every
-// bigint here is a time in ms or an id, far below that, so they come back as numbers, as SQLite
-// gives them. A value past Number.MAX_SAFE_INTEGER would be an error, not a rounding.
-pg.types.setTypeParser(pg.types.builtins.INT8, (text) => {
-  const n = Number(text);
-  if (!Number.isSafeInteger(n)) throw new Error(`a bigint column holds ${text}, past the largest safe number`);
-  return n;
-});
-// numeric (from AVG, SUM over integers, ROUND) as a number too, as SQLite answers it.
-pg.types.setTypeParser(pg.types.builtins.NUMERIC, (text) => Number(text));
+/**
+ * PostgreSQL answers bigint (int8) and count(*) as strings, since they may exceed 2^53. Every
+ * bigint here is a time in ms or an id, far below that, so they come back as numbers, as SQLite
+ * gives them. A value past Number.MAX_SAFE_INTEGER would be an error, not a rounding. The driver
+ * is loaded here, when a PostgreSQL database is opened, not by every SQLite server's start; it is
+ * the same module instance Knex's pg client then uses.
+ */
+function setUpPostgresTypes(): void {
+  const pg = createRequire(import.meta.url)('pg') as typeof import('pg');
+  pg.types.setTypeParser(pg.types.builtins.INT8, (text) => {
+    const n = Number(text);
+    if (!Number.isSafeInteger(n)) throw new Error(`a bigint column holds ${text}, past the largest safe number`);
+    return n;
+  });
+  // numeric (from AVG, SUM over integers, ROUND) as a number too, as SQLite answers it.
+  pg.types.setTypeParser(pg.types.builtins.NUMERIC, (text) => Number(text));
+}
 
 /**
  * Transactions take SQLite's write lock when they begin. Several processes may share one file
@@ -83,6 +90,7 @@ export function beginImmediately(conn: SqliteConnection): void {
  */
 export function createDb(target: string, opts: { auditKey?: Buffer; keyDir?: string } = {}): Db {
   if (isPostgresUrl(target)) {
+    setUpPostgresTypes();
     const db = knex({
       client: 'pg',
       connection: target,

@@ -12,7 +12,6 @@ import { createSessionMiddleware } from './auth/session';
 import { createLocalIdp } from './idp/provider';
 import { machineAudienceOf } from './exchange/machine-auth';
 import type { LimiterStore } from './limits';
-import { connectRegionRedis } from './redis';
 import { signInThrottle } from './auth/sign-in-throttle';
 import { createMailer, type Mailer } from './mail';
 import { createSmsSender, type SmsSender } from './sms';
@@ -93,7 +92,8 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
   });
   if (rehearsed) logger.info({ rounds: rehearsed, ms: Date.now() - started }, 'pre-alert path rehearsed');
 
-  const redis = config.redisUrl ? await connectRegionRedis(config.redisUrl, config.redisPrefix, logger) : undefined;
+  // Loaded only for a region: a single process never holds the Redis client in memory.
+  const redis = config.redisUrl ? await (await import('./redis')).connectRegionRedis(config.redisUrl, config.redisPrefix, logger) : undefined;
   if (redis) logger.info({ prefix: config.redisPrefix }, 'Redis connected: sockets, recovery and rate limits are shared with the other processes');
   const limiterStore = opts.limiterStore ?? redis?.limiterStore;
 
