@@ -3,7 +3,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { startTestServer, type TestServer } from '../support/server';
 import { browserlessClient, signIn, type SignedInClient } from '../support/sign-in';
 import { loadMe } from '../../server/auth/guards';
-import { createDb } from '../../server/db';
+import { openDb } from '../../server/db';
 import { importOutcomes } from '../../server/services/outcomes/import';
 import { verifyAuditChain } from '../../server/services/audit/audit';
 import { submitPreAlert } from '../../server/services/cases/commands';
@@ -193,7 +193,7 @@ describe('the save is all rows or none', () => {
     const held = await server.db('outcome_import_previews').select('token_hash', 'file_name', 'expires_at');
     expect(held.some((h) => h.token_hash === p.token)).toBe(false);
     expect(held).toContainEqual({ token_hash: createHash('sha256').update(p.token!).digest('hex'), file_name: 'registry.csv', expires_at: p.expiresAt });
-    const other = createDb(server.config.databaseFile);
+    const other = openDb(server.config);
     try {
       const qualityUser = await other('users').where({ email: 'quality@plumbline.test' }).first('id');
       const me = (await loadMe(other, qualityUser.id))!;
