@@ -1,19 +1,12 @@
 import { spawnSync } from 'node:child_process';
-import { existsSync, readdirSync, statSync } from 'node:fs';
+import { existsSync, statSync } from 'node:fs';
 import { createRequire } from 'node:module';
 import { dirname, join } from 'node:path';
+import { newestMtime } from './server-build.mjs';
 
 /** The built client that the production server serves. */
 export const BUILT_CLIENT = 'dist/client/index.html';
 
-function newestMtime(path: string): number {
-  if (!existsSync(path)) return 0;
-  const stat = statSync(path);
-  if (!stat.isDirectory()) return stat.mtimeMs;
-  let newest = 0;
-  for (const entry of readdirSync(path)) newest = Math.max(newest, newestMtime(join(path, entry)));
-  return newest;
-}
 
 /**
  * Whether the client must be built before it is served: never built, or any of its sources

@@ -13,11 +13,12 @@ export const BUILT_SERVER = join(root, 'dist/server/main.js');
 const STAMP = join(root, 'dist/server/built.json');
 const SOURCES = ['server', 'shared', 'migrations', 'package.json'];
 
-function newestMtime(path) {
+/** The newest modification time of a file, or of anything under a folder (0 when missing). */
+export function newestMtime(path) {
   if (!existsSync(path)) return 0;
   const stat = statSync(path);
   if (!stat.isDirectory()) return stat.mtimeMs;
-  let newest = stat.mtimeMs;
+  let newest = 0;
   for (const entry of readdirSync(path)) newest = Math.max(newest, newestMtime(join(path, entry)));
   return newest;
 }
