@@ -86,6 +86,8 @@ const stealSince = (start: number | null) => {
   const end = stealTicks();
   return start === null || end === null ? null : Math.round(end - start) / 100;
 };
+/** The machine the figures were measured on, as the run ends: every timing is read beside it. */
+const machineNow = (stealAtStart: number | null) => ({ cpus: cpus().length, loadAverage: loadavg().map((l) => Math.round(l * 100) / 100), stealSeconds: stealSince(stealAtStart) });
 
 /**
  * The same load run and the same echo, with the load on two server processes sharing one
@@ -152,7 +154,7 @@ async function mainCluster(): Promise<void> {
       p99WithinThreeTimesBare: p99OverBare != null && p99OverBare <= TARGETS.p99OverBare,
     },
     seconds: Math.round((Date.now() - started) / 100) / 10,
-    machine: { cpus: cpus().length, loadAverage: loadavg().map((l) => Math.round(l * 100) / 100), stealSeconds: stealSince(stealAtStart) },
+    machine: machineNow(stealAtStart),
   };
   if (json) {
     process.stdout.write(`${JSON.stringify(result)}\n`);
@@ -287,7 +289,7 @@ async function main(): Promise<void> {
     },
     seconds: Math.round((Date.now() - started) / 100) / 10,
     // Other work on the machine moves every timing; the figures are read beside this.
-    machine: { cpus: cpus().length, loadAverage: loadavg().map((l) => Math.round(l * 100) / 100), stealSeconds: stealSince(stealAtStart) },
+    machine: machineNow(stealAtStart),
   };
   if (json) {
     process.stdout.write(`${JSON.stringify(result)}\n`);
