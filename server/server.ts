@@ -79,8 +79,6 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
   // An import cut short by a stop left staged rows that never became outcomes.
   const abandoned = await abandonStagedImports(db, clock.now());
   if (abandoned.length) logger.warn({ batches: abandoned }, 'outcomes imports stopped before they were saved; nothing of them was kept');
-  // Off the event loop: a checkpoint's fsyncs no longer land inside a pre-alert's commit.
-  const checkpoints = opts.db ? null : await startCheckpoints(db, config.databaseFile, logger);
   // Before anyone can connect: the boards reloading after a restart find their cases ready.
   const primed = await primeCaseLists(db);
   if (primed) logger.info({ cases: primed }, 'open cases ready for the boards');
@@ -91,6 +89,8 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
     return 0;
   });
   if (rehearsed) logger.info({ rounds: rehearsed, ms: Date.now() - started }, 'pre-alert path rehearsed');
+  // Off the event loop from here on: a checkpoint's fsyncs no longer land inside a pre-alert's commit.
+  const checkpoints = opts.db ? null : await startCheckpoints(db, config.databaseFile, logger);
 
   // Loaded only for a region: a single process never holds the Redis client in memory.
   const redis = config.redisUrl ? await (await import('./redis')).connectRegionRedis(config.redisUrl, config.redisPrefix, logger) : undefined;

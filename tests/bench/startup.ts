@@ -5,7 +5,7 @@
 import { spawn } from 'node:child_process';
 import { join } from 'node:path';
 import { pathToFileURL } from 'node:url';
-import { freePort, repoRoot, residentMb, tempDataDir } from './support/child-server';
+import { freePort, repoRoot, residentMb, START_ENV, START_FLAGS, tempDataDir } from './support/child-server';
 import { prepareRegion } from './support/fixtures';
 
 export interface StartupResult {
@@ -22,9 +22,9 @@ async function oneStart(dataDir: string): Promise<{ coldStartMs: number; idleRss
   const port = await freePort();
   const url = `http://127.0.0.1:${port}`;
   const started = performance.now();
-  const child = spawn(process.execPath, ['--max-semi-space-size=4', '--no-parallel-scavenge', join(repoRoot, 'server/cli/bin.mjs'), 'start'], {
+  const child = spawn(process.execPath, [...START_FLAGS, join(repoRoot, 'server/cli/bin.mjs'), 'start'], {
     cwd: repoRoot,
-    env: { ...process.env, NODE_ENV: 'production', PORT: String(port), HOST: '127.0.0.1', PUBLIC_URL: url, DATA_DIR: dataDir, LOG_LEVEL: 'warn', SMTP_URL: '', OIDC_ISSUER: '' },
+    env: { ...process.env, ...START_ENV, NODE_ENV: 'production', PORT: String(port), HOST: '127.0.0.1', PUBLIC_URL: url, DATA_DIR: dataDir, LOG_LEVEL: 'warn', SMTP_URL: '', OIDC_ISSUER: '' },
     stdio: ['ignore', 'ignore', 'inherit'],
   });
   try {

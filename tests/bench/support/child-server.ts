@@ -35,6 +35,10 @@ process.on('exit', () => {
   for (const dir of ownDirs) rmSync(dir, { recursive: true, force: true });
 });
 
+/** How `npm start` runs the server: its Node flags and the C library's tunable (server/cli/bin.mjs says why). */
+export const START_FLAGS = ['--max-semi-space-size=4', '--no-parallel-scavenge'];
+export const START_ENV = { GLIBC_TUNABLES: 'glibc.malloc.mmap_threshold=131072' };
+
 export const databaseFileOf = (dataDir: string) => join(dataDir, 'plumbline.sqlite');
 
 export interface ChildServer {
@@ -100,10 +104,11 @@ export async function childServer(opts: ChildServerOptions = {}): Promise<ChildS
     },
     async start() {
       if (child && child.exitCode === null && child.signalCode === null) throw new Error('the server is already running');
-      const proc = spawn(process.execPath, ['--max-semi-space-size=4', '--no-parallel-scavenge', join(repoRoot, 'server/cli/bin.mjs'), 'start'], {
+      const proc = spawn(process.execPath, [...START_FLAGS, join(repoRoot, 'server/cli/bin.mjs'), 'start'], {
         cwd: repoRoot,
         env: {
           ...process.env,
+          ...START_ENV,
           NODE_ENV: 'production',
           PORT: String(port),
           HOST: '127.0.0.1',

@@ -21,6 +21,14 @@ async function openDb(): Promise<string> {
   return file;
 }
 
+const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
+async function until(condition: () => boolean, what: string): Promise<void> {
+  for (let waited = 0; !condition(); waited += 20) {
+    if (waited > 5000) throw new Error(`waited 5 s for ${what}`);
+    await sleep(20);
+  }
+}
+
 const autocheckpoint = async () => ((await db.raw('PRAGMA wal_autocheckpoint')) as Array<{ wal_autocheckpoint: number }>)[0].wal_autocheckpoint;
 
 afterEach(async () => {
@@ -32,7 +40,7 @@ describe('WAL checkpoints off the event loop', () => {
   it('turn the commits’ own checkpoints off while the thread runs, and back on when it stops', async () => {
     const file = await openDb();
     expect(await autocheckpoint()).toBe(1000); // SQLite's default [SQLite docs, PRAGMA wal_autocheckpoint]
-    const checkpoints = (await startCheckpoints(db, file, quiet, 60_000))!;
+    const checkpoints = (await startCheckpoints(db, file, quiet, { everyMs: 60_000 }))!;
     expect(await autocheckpoint()).toBe(0);
     await checkpoints.stop();
     expect(await autocheckpoint()).toBe(1000);
@@ -40,7 +48,7 @@ describe('WAL checkpoints off the event loop', () => {
 
   it('copy the log into the database file from the other thread, while the writes go on', async () => {
     const file = await openDb();
-    const checkpoints = (await startCheckpoints(db, file, quiet, 60_000))!;
+    const checkpoints = (await startCheckpoints(db, file, quiet, { everyMs: 60_000 }))!;
     try {
       const before = statSync(file).size;
       // About 1,200 pages of log: past the point where a commit would have checkpointed by itself.
@@ -58,6 +66,34 @@ describe('WAL checkpoints off the event loop', () => {
     } finally {
       await checkpoints.stop();
     }
+  });
+
+  it('run a thread only while there is something to copy: none when quiet, one after a commit, none again once all is copied', async () => {
+    const file = await openDb();
+    // The start's own writes (the table above) are copied at once, before the server listens.
+    const checkpoints = (await startCheckpoints(db, file, quiet, { everyMs: 40, restAfterMs: 400 }))!;
+    try {
+      expect(statSync(`${file}-wal`).size).toBe(0);
+      await sleep(300);
+      expect(checkpoints.running).toBe(false);
+
+      const before = statSync(file).size;
+      await db('notes').insert(Array.from({ length: 40 }, (_, k) => ({ body: `${k} ${'x'.repeat(1800)}` })));
+      expect(statSync(file).size).toBe(before); // the commit itself copied nothing
+      await until(() => checkpoints.running, 'the thread to start after a commit');
+      // Copied by the thread, then it rests once no commit has come for restAfterMs.
+      await until(() => !checkpoints.running, 'the thread to rest');
+      expect(statSync(file).size).toBeGreaterThan(before + 40 * 1800);
+
+      // Commits go on while it rests, and the next one wakes it again.
+      await db('notes').insert({ body: 'later' });
+      await until(() => checkpoints.running, 'the thread to start again');
+      expect((await db('notes').count({ n: '*' }))[0].n).toBe(41);
+    } finally {
+      await checkpoints.stop();
+    }
+    expect(checkpoints.running).toBe(false);
+    expect(await autocheckpoint()).toBe(1000);
   });
 
   it('are not started for a database in memory', async () => {
