@@ -1,4 +1,4 @@
-import { createRouter, createWebHistory, type RouteRecordRaw } from 'vue-router';
+import { createRouter, createWebHistory, START_LOCATION, type RouteRecordRaw } from 'vue-router';
 import { ApiError } from '@/api/http';
 import { signInUrl, type Role } from '@/api/me';
 import { useSessionStore } from '@/stores/session';
@@ -103,7 +103,9 @@ const routes: RouteRecordRaw[] = [
 export const router = createRouter({
   history: createWebHistory(import.meta.env.BASE_URL),
   routes,
-  scrollBehavior: (_to, _from, saved) => saved ?? { top: 0 },
+  // The first screen of a visit opens at the top by itself: asking for it there would only make
+  // the browser lay the page out early, in the middle of drawing it.
+  scrollBehavior: (_to, from, saved) => saved ?? (from === START_LOCATION ? false : { top: 0 }),
 });
 
 router.beforeEach(async (to) => {
