@@ -90,8 +90,13 @@ export async function startCheckpoints(db: Knex, filename: string, logger: Logge
       } catch {
         return null;
       }
-      worker = stopping ? null : thread;
-      return worker;
+      // A stop that came while the thread was starting finds no running thread: stop it here.
+      if (stopping) {
+        await rest(thread);
+        return null;
+      }
+      worker = thread;
+      return thread;
     })().finally(() => (starting = null));
     return starting;
   }
@@ -131,9 +136,11 @@ export async function startCheckpoints(db: Knex, filename: string, logger: Logge
     async stop() {
       if (stopping) return;
       stopping = true;
-      const thread = worker ?? (await starting);
+      const thread = worker;
       worker = null;
       if (thread) await rest(thread);
+      // A thread still starting rests itself once it is up.
+      await starting;
       await handBack();
     },
     async now() {
