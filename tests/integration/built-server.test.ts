@@ -5,6 +5,7 @@ import type { CaseSummary } from '../../shared/schemas/cases';
 import { childServer, type ChildServer } from '../bench/support/child-server';
 import { signIn, type SignedInClient } from '../support/sign-in';
 import { command, connectAs, type TestSocket } from '../support/socket';
+import { until } from '../support/until';
 
 // `npm start` runs the build in dist/server, where the packages every start loads are bundled
 // in and compressed (server/cli/server-build.mjs). The other tests run the TypeScript sources, so
@@ -14,7 +15,8 @@ import { command, connectAs, type TestSocket } from '../support/socket';
 // a multipart CSV upload (multer, csv-parse), a FHIR export as a ZIP (fflate), the OpenAPI
 // document and its viewer's files, and a machine client's token.
 
-// SBP 84 < 90 mmHg: a high-risk finding of the 2021 field triage guideline (SOURCES.md §2.1).
+// SBP 84 < 90 mmHg at age 34: high risk in the 2021 field-triage guideline (SOURCES.md §2.5), and
+// a full activation under the example policy [ours] (SOURCES.md §6).
 const HYPOTENSIVE = { ageYears: 34, sex: 'male', fall: { heightM: 4 }, vitals: { sbp: 84, hr: 120 } };
 
 let server: ChildServer;
@@ -50,12 +52,9 @@ describe('the built server', () => {
       summary = ((await res.json()) as { case: CaseSummary }).case;
     }
     // The message went over SMTP and was parsed back; the Messages sent page lists it.
-    let listed: Array<{ subject: string }> = [];
-    for (let i = 0; i < 50 && !listed.some((m) => m.subject.includes(`case ${summary.caseNumber})`)); i++) {
-      await new Promise((r) => setTimeout(r, 100));
-      listed = ((await (await admin.get('/api/messages')).json()) as { messages: Array<{ subject: string }> }).messages;
-    }
-    expect(listed.find((m) => m.subject.includes(`case ${summary.caseNumber})`))?.subject).toMatch(/^Full trauma team: /);
+    const ofThisCase = (messages: Array<{ subject: string }>) => messages.find((m) => m.subject.includes(`case ${summary.caseNumber})`));
+    const listed = await until(async () => ((await (await admin.get('/api/messages')).json()) as { messages: Array<{ subject: string }> }).messages, (messages) => ofThisCase(messages) !== undefined);
+    expect(ofThisCase(listed)!.subject).toMatch(/^Full trauma team: /);
   });
 
   it('reads an uploaded outcomes file and names its problems', async () => {
@@ -97,6 +96,7 @@ describe('the built server', () => {
       body: new URLSearchParams({ grant_type: 'client_credentials' }),
     });
     expect(token.status, await token.clone().text()).toBe(200);
+    // Machine tokens last 10 minutes [ours: MACHINE_TOKEN_SECONDS in server/idp/provider.ts].
     expect(((await token.json()) as { expires_in: number }).expires_in).toBe(600);
   });
 });

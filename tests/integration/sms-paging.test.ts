@@ -10,6 +10,7 @@ import type { SmsFake } from '../../server/sms/fake';
 import { startTestServer, type TestServer } from '../support/server';
 import { signIn, type SignedInClient } from '../support/sign-in';
 import { command, connectAs, nextEvent, type TestSocket } from '../support/socket';
+import { until } from '../support/until';
 
 // The real SDK (twilio) talks HTTP to the in-process fake of the provider's REST API; the fake
 // calls our webhooks back, signed as the provider signs. The server's clock is a fake the test
@@ -53,16 +54,6 @@ async function pagedCase(notes?: string): Promise<CaseSummary> {
   // Every case of this file goes to the same bay: the nurse confirms the double booking.
   summary = await act(summary, 'bay', { bay: 'Resus 4', confirmOccupied: true });
   return act(summary, 'page');
-}
-
-async function until<T>(what: () => Promise<T>, ok: (v: T) => boolean, ms = 5000): Promise<T> {
-  const end = Date.now() + ms;
-  for (;;) {
-    const v = await what();
-    if (ok(v)) return v;
-    if (Date.now() > end) throw new Error(`timed out; last value ${JSON.stringify(v)}`);
-    await new Promise((r) => setTimeout(r, 50));
-  }
 }
 
 const smsTo = (caseId: number, to: string) => server.db('outbound_messages').where({ case_id: caseId, channel: 'sms', recipient: to }).orderBy('id').select('*');

@@ -1,10 +1,11 @@
-import { mkdtempSync, rmSync, statSync } from 'node:fs';
+import { mkdtempSync, readFileSync, rmSync, statSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import pino from 'pino';
 import { afterEach, describe, expect, it } from 'vitest';
 import { createDb, type Db } from '../../../server/db';
 import { startCheckpoints } from '../../../server/db-checkpoints';
+import { until } from '../../support/until';
 
 const quiet = pino({ level: 'silent' });
 let dir: string;
@@ -22,12 +23,6 @@ async function openDb(): Promise<string> {
 }
 
 const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
-async function until(condition: () => boolean, what: string): Promise<void> {
-  for (let waited = 0; !condition(); waited += 20) {
-    if (waited > 5000) throw new Error(`waited 5 s for ${what}`);
-    await sleep(20);
-  }
-}
 
 const autocheckpoint = async () => ((await db.raw('PRAGMA wal_autocheckpoint')) as Array<{ wal_autocheckpoint: number }>)[0].wal_autocheckpoint;
 
@@ -80,19 +75,32 @@ describe('WAL checkpoints off the event loop', () => {
       const before = statSync(file).size;
       await db('notes').insert(Array.from({ length: 40 }, (_, k) => ({ body: `${k} ${'x'.repeat(1800)}` })));
       expect(statSync(file).size).toBe(before); // the commit itself copied nothing
-      await until(() => checkpoints.running, 'the thread to start after a commit');
+      await until(() => checkpoints.running, Boolean); // the thread starts after a commit
       // Copied by the thread, then it rests once no commit has come for restAfterMs.
-      await until(() => !checkpoints.running, 'the thread to rest');
+      await until(() => checkpoints.running, (running) => !running);
       expect(statSync(file).size).toBeGreaterThan(before + 40 * 1800);
 
       // Commits go on while it rests, and the next one wakes it again.
       await db('notes').insert({ body: 'later' });
-      await until(() => checkpoints.running, 'the thread to start again');
+      await until(() => checkpoints.running, Boolean);
       expect((await db('notes').count({ n: '*' }))[0].n).toBe(41);
     } finally {
       await checkpoints.stop();
     }
     expect(checkpoints.running).toBe(false);
+    expect(await autocheckpoint()).toBe(1000);
+  });
+
+  it('leave no thread behind when the stop comes while the thread is starting', async () => {
+    const file = await openDb();
+    const threads = () => Number(/^Threads:\s+(\d+)/m.exec(readFileSync('/proc/self/status', 'utf8'))?.[1]);
+    const before = threads();
+    const checkpoints = (await startCheckpoints(db, file, quiet, { everyMs: 60_000 }))!;
+    const asked = checkpoints.now(); // starts the thread
+    await checkpoints.stop();
+    expect(await asked).toEqual({ kind: 'failed', message: 'the checkpoint thread did not start' });
+    expect(checkpoints.running).toBe(false);
+    await until(threads, (n) => n <= before);
     expect(await autocheckpoint()).toBe(1000);
   });
 
