@@ -79,6 +79,9 @@ export type BoardActionBody = {
   close: BoardClose;
 };
 
+/** What a screen gives for an action: its body less the row version, which the board store adds. */
+export type BoardActionFields<A extends BoardAction> = Omit<BoardActionBody[A], 'rowVersion'>;
+
 /** The case_events kind each action records, and the change kind its broadcast carries. */
 export const ACTION_EVENT = {
   acknowledge: 'acknowledged',

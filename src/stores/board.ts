@@ -4,7 +4,7 @@ import { computed, ref, watch, type WatchStopHandle } from 'vue';
 import * as api from '@/api/board';
 import { ApiError } from '@/api/http';
 import { connection, getSocket } from '@/api/socket';
-import type { BoardAction, BoardActionBody, BoardLevel, BoardSnapshot } from '@shared/schemas/board';
+import type { BoardAction, BoardActionBody, BoardActionFields, BoardLevel, BoardSnapshot } from '@shared/schemas/board';
 import { OPEN_STATES, type CaseSummary } from '@shared/schemas/cases';
 import type { CaseChange } from '@shared/realtime/events';
 import type { LevelId } from '@shared/triage/policy';
@@ -193,7 +193,7 @@ export const useBoardStore = defineStore('board', () => {
    * One action. A refusal because someone else acted first (409) or the page failed (502)
    * carries the case's truth, so this board agrees with the winner's, then rethrows for the card.
    */
-  async function act<A extends BoardAction>(caseId: number, action: A, body: Omit<BoardActionBody[A], 'rowVersion'>): Promise<CaseSummary> {
+  async function act<A extends BoardAction>(caseId: number, action: A, body: BoardActionFields<A>): Promise<CaseSummary> {
     const held = byId.value[caseId];
     if (!held) throw new Error('That case is no longer on the board.');
     busy.value = { ...busy.value, [caseId]: action };
