@@ -73,7 +73,7 @@ const EXTERNAL = [
 const requireShim = "import { createRequire as __plumblineRequire } from 'node:module'; const require = __plumblineRequire(import.meta.url);";
 
 export async function buildServer({ quiet = false } = {}) {
-  const { build } = await import('esbuild');
+  const { build, stop } = await import('esbuild');
   const started = Date.now();
   const out = join(root, `dist/server-${process.pid}-${started}`);
   const common = { platform: 'node', format: 'esm', target: 'node20', logLevel: quiet ? 'error' : 'warning', legalComments: 'none' };
@@ -109,6 +109,10 @@ export async function buildServer({ quiet = false } = {}) {
     // Another process may have put a build in place first; a fresh one is as good as ours.
     if (!serverBuildIsStale()) return;
     throw error;
+  } finally {
+    // esbuild builds in a helper process that it keeps for further builds; `plumbline start`
+    // builds once and then serves, so the helper (about 270 MB resident) goes now.
+    await stop();
   }
   if (!quiet) console.log(`Built the server into dist/server in ${Date.now() - started} ms.`);
 }

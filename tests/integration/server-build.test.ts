@@ -19,6 +19,30 @@ describe('the compiled server', () => {
     expect(readFileSync(BUILT_SERVER, 'utf8')).not.toMatch(/import type |: Promise<number>/);
   });
 
+  it('leaves no esbuild helper process behind once a build is done', async () => {
+    // `plumbline start` builds when stale and then serves for days: esbuild's helper (a process of
+    // its own, about 270 MB resident) must not stay beside it. A build in a process of its own,
+    // which then lists its child processes by name from /proc.
+    const script = `
+      import { readdirSync, readFileSync } from 'node:fs';
+      const { buildServer } = await import(${JSON.stringify(new URL('../../server/cli/server-build.mjs', import.meta.url).href)});
+      await buildServer({ quiet: true });
+      const children = readdirSync('/proc').filter((d) => /^\\d+$/.test(d)).flatMap((pid) => {
+        try {
+          const stat = readFileSync('/proc/' + pid + '/stat', 'utf8').trim();
+          const [, name, rest] = /^\\d+ \\((.*)\\) (.*)$/.exec(stat);
+          const [state, parent] = rest.split(' ');
+          // A child that has exited but is not yet reaped (Z) holds no memory.
+          return parent === String(process.pid) && state !== 'Z' ? [name] : [];
+        } catch { return []; }
+      });
+      console.log(JSON.stringify(children));
+      process.exit(0);`;
+    const { stdout } = await run(process.execPath, ['--input-type=module', '-e', script]);
+    expect(JSON.parse(stdout.trim())).not.toContain('esbuild');
+    expect(serverBuildIsStale()).toBe(false);
+  });
+
   it('knows the migrations a database got from the sources, by the same names', async () => {
     const dataDir = mkdtempSync(join(tmpdir(), 'plumbline-build-'));
     dirs.push(dataDir);
