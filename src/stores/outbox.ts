@@ -159,8 +159,9 @@ export const useOutboxStore = defineStore('outbox', () => {
       userId = forUser;
       deliveries.value = [];
     }
-    getSocket();
     await refresh();
+    // The live link opens after the kept entries are read, not in the task that asked.
+    getSocket();
     void drain();
   }
 

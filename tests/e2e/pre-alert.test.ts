@@ -217,4 +217,23 @@ describeInBrowser('New pre-alert on a phone in Chromium', () => {
     await expectAccessible(page, 'New pre-alert held back by the rate limit');
     await screenshot(page, 'pre-alert-phone-held-back');
   });
+
+  it('a Send tapped as the screen opens checks the whole draft, sections still to be drawn included, and then every section is there', async () => {
+    // The form draws the patient and the Send bar first and the other sections a frame at a time.
+    const fresh = await context.newPage();
+    try {
+      await fresh.goto(new URL('/pre-alert', server.url).href);
+      const send = fresh.getByRole('button', { name: 'Send pre-alert' });
+      await send.and(fresh.locator(':enabled')).waitFor();
+      await send.click();
+      const issues = await fresh.locator('#send-issues li').allInnerTexts();
+      expect(issues).toEqual(expect.arrayContaining([expect.stringMatching(/^Age is required/), expect.stringMatching(/^Fall height is required/)]));
+      for (const heading of ['Patient', 'The fall', 'Vital signs', 'Injuries and concerns', 'Notes']) {
+        await fresh.getByRole('heading', { name: heading, exact: true }).waitFor();
+      }
+      await fresh.getByRole('complementary', { name: 'Live result' }).waitFor();
+    } finally {
+      await fresh.close();
+    }
+  });
 });
