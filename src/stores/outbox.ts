@@ -159,9 +159,8 @@ export const useOutboxStore = defineStore('outbox', () => {
       userId = forUser;
       deliveries.value = [];
     }
-    await refresh();
-    // The live link opens after the kept entries are read, not in the task that asked.
     getSocket();
+    await refresh();
     void drain();
   }
 
