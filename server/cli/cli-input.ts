@@ -129,10 +129,16 @@ export function detectDelimiter(firstLine: string): string {
 export function readCsv(text: string, delimiter?: string): { rows: string[][]; lines: number[]; error?: undefined } | { error: string } {
   const first = text.split(/\r?\n/, 1)[0] ?? '';
   try {
-    const records = parseCsv(text, {
-      delimiter: delimiter ?? detectDelimiter(first), skip_empty_lines: true, relax_column_count: true, trim: true, info: true,
-    }) as unknown as { record: string[]; info: { lines: number } }[];
-    return { rows: records.map((r) => r.record), lines: records.map((r) => r.info.lines) };
+    // The line each row was read on, noted as the parser hands the row over.
+    const lines: number[] = [];
+    const rows = parseCsv(text, {
+      delimiter: delimiter ?? detectDelimiter(first), skip_empty_lines: true, relax_column_count: true, trim: true,
+      on_record: (record, context) => {
+        lines.push(context.lines);
+        return record;
+      },
+    });
+    return { rows, lines };
   } catch (error) {
     return { error: `not valid CSV (${(error as Error).message.split('\n')[0]})` };
   }

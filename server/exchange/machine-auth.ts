@@ -34,7 +34,7 @@ export function requireMachineClient({ db, config, publicUrl, limiterStore = mem
   const issuer = config.oidc.issuer ?? `${publicUrl}/idp`;
   const audience = machineAudienceOf(publicUrl);
   // Only the built-in provider issues machine clients; with an outside issuer there are none.
-  const keys: JWTVerifyGetKey | null = config.oidc.issuer ? null : createLocalJWKSet(localIdpPublicKeys(config.dataDir) as never);
+  const keys: JWTVerifyGetKey | null = config.oidc.issuer ? null : createLocalJWKSet(localIdpPublicKeys(config.dataDir));
   // One limiter per budget, counted where every other limit is (shared by the region's processes with Redis).
   const limiters = new Map<number, RateLimiterAbstract>();
   const limiterFor = (perMinute: number) => {

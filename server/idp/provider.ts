@@ -4,7 +4,9 @@ import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import express, { Router, type Request, type Response } from 'express';
 import Provider, { errors, interactionPolicy, type Configuration, type KoaContextWithOIDC } from 'oidc-provider';
+import type { JSONWebKeySet } from 'jose';
 import type { Knex } from 'knex';
+import { z } from 'zod';
 import type { Logger } from 'pino';
 import { verifyPassword } from '../auth/passwords';
 import { signInThrottle, type SignInThrottle } from '../auth/sign-in-throttle';
@@ -36,18 +38,37 @@ export const MACHINE_TOKEN_SECONDS = 600;
 const fontFiles = join(dirname(fileURLToPath(import.meta.resolve('@fontsource/atkinson-hyperlegible/package.json'))), 'files');
 
 /** The public half of the built-in provider's signing keys, to check its access tokens in-process. */
-export function localIdpPublicKeys(dataDir: string): { keys: Array<Record<string, unknown>> } {
-  const { keys } = signingKeys(dataDir) as { keys: Array<Record<string, unknown>> };
+/** The provider's key file as this server writes it: RSA keys for RS256 signatures, private parts kept. */
+const SigningKeyFile = z.object({
+  keys: z
+    .array(z.looseObject({ kty: z.literal('RSA'), n: z.string(), e: z.string(), d: z.string(), kid: z.string(), alg: z.literal('RS256'), use: z.literal('sig') }))
+    .min(1),
+});
+type SigningKeyFile = z.infer<typeof SigningKeyFile>;
+
+/** The public half of the built-in provider's keys, to check the tokens it signs. */
+export function localIdpPublicKeys(dataDir: string): JSONWebKeySet {
+  const { keys } = signingKeys(dataDir);
   return { keys: keys.map(({ kty, n, e, kid, alg, use }) => ({ kty, n, e, kid, alg, use })) };
 }
 
-function signingKeys(dataDir: string) {
+function signingKeys(dataDir: string): SigningKeyFile {
   const file = join(dataDir, 'idp-signing-key.json');
-  if (existsSync(file)) return JSON.parse(readFileSync(file, 'utf8'));
+  if (existsSync(file)) {
+    let read: unknown;
+    try {
+      read = JSON.parse(readFileSync(file, 'utf8'));
+    } catch {
+      read = null;
+    }
+    const parsed = SigningKeyFile.safeParse(read);
+    if (!parsed.success) throw new Error(`${file} is not a key file this server wrote (${parsed.error.issues[0]?.path.join('.') || 'the file'}: ${parsed.error.issues[0]?.message}). Move it aside to have a new key made; every session then signs in again.`);
+    return parsed.data;
+  }
   const { privateKey } = generateKeyPairSync('rsa', { modulusLength: 2048 });
-  const jwk = { ...privateKey.export({ format: 'jwk' }), use: 'sig', alg: 'RS256', kid: `plumbline-${Date.now()}` };
-  writeFileSync(file, JSON.stringify({ keys: [jwk] }), { mode: 0o600 });
-  return { keys: [jwk] };
+  const keyFile = SigningKeyFile.parse({ keys: [{ ...privateKey.export({ format: 'jwk' }), use: 'sig', alg: 'RS256', kid: `plumbline-${Date.now()}` }] });
+  writeFileSync(file, JSON.stringify(keyFile), { mode: 0o600 });
+  return keyFile;
 }
 
 /**
