@@ -38,4 +38,7 @@ if (argv[0] === 'dev') {
   }
   ({ main } = await import(pathToFileURL(BUILT_SERVER).href));
 }
-process.exitCode = await main(argv);
+const code = await main(argv);
+// A command that failed may leave something open (a start that failed half way has its database
+// and mail server open): it ends here rather than waiting on them.
+if (code !== 0) process.exit(code);

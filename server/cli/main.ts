@@ -105,7 +105,15 @@ async function serve(dev: boolean): Promise<number> {
     }
   }
   const { startServer } = await import('../server');
-  const server = await startServer(config, { dev });
+  let server: Awaited<ReturnType<typeof startServer>>;
+  try {
+    server = await startServer(config, { dev });
+  } catch (error) {
+    // What an operator can act on (a port in use, a damaged key file), without a stack trace
+    // through the bundled build.
+    console.error(`Plumbline could not start: ${error instanceof Error ? error.message : String(error)}`);
+    return 1;
+  }
   const local = !config.oidc.issuer;
   console.log(`\nPlumbline is running at ${server.url}${dev ? ' (development, hot reload)' : ''}`);
   console.log(`Data: ${config.dataDir}${server.mailer.local ? '  ·  mail: built-in SMTP fake (read it on the Messages sent page)' : ''}`);
