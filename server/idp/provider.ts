@@ -37,7 +37,6 @@ export const MACHINE_TOKEN_SECONDS = 600;
 
 const fontFiles = join(dirname(fileURLToPath(import.meta.resolve('@fontsource/atkinson-hyperlegible/package.json'))), 'files');
 
-/** The public half of the built-in provider's signing keys, to check its access tokens in-process. */
 /** The provider's key file as this server writes it: RSA keys for RS256 signatures, private parts kept. */
 const SigningKeyFile = z.object({
   keys: z
@@ -55,14 +54,15 @@ export function localIdpPublicKeys(dataDir: string): JSONWebKeySet {
 function signingKeys(dataDir: string): SigningKeyFile {
   const file = join(dataDir, 'idp-signing-key.json');
   if (existsSync(file)) {
+    const refused = (why: string) => new Error(`${file} is not a key file this server wrote (${why}). Move it aside to have a new key made; every session then signs in again.`);
     let read: unknown;
     try {
       read = JSON.parse(readFileSync(file, 'utf8'));
-    } catch {
-      read = null;
+    } catch (error) {
+      throw refused(`not valid JSON: ${(error as Error).message}`);
     }
     const parsed = SigningKeyFile.safeParse(read);
-    if (!parsed.success) throw new Error(`${file} is not a key file this server wrote (${parsed.error.issues[0]?.path.join('.') || 'the file'}: ${parsed.error.issues[0]?.message}). Move it aside to have a new key made; every session then signs in again.`);
+    if (!parsed.success) throw refused(`${parsed.error.issues[0].path.join('.') || 'the file'}: ${parsed.error.issues[0].message}`);
     return parsed.data;
   }
   const { privateKey } = generateKeyPairSync('rsa', { modulusLength: 2048 });
