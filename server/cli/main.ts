@@ -6,6 +6,7 @@ import { loadConfig } from '../config';
 import { migrate, openDb } from '../db';
 import { systemClock } from '../deps';
 import { DEMO_PASSWORD, demoAccounts, isEmpty, seedDemo } from '../services/demo/seed';
+import type { RunningServer } from '../server';
 import { BUILT_CLIENT, clientBuildIsStale } from './client-build';
 
 const usage = `Usage: plumbline <command>
@@ -105,7 +106,7 @@ async function serve(dev: boolean): Promise<number> {
     }
   }
   const { startServer } = await import('../server');
-  let server: Awaited<ReturnType<typeof startServer>>;
+  let server: RunningServer;
   try {
     server = await startServer(config, { dev });
   } catch (error) {

@@ -7,9 +7,8 @@ import { onBeforeUnmount, onMounted, ref, type Ref } from 'vue';
  * task of its own, so a tap on Send waits for one part at most, never for the whole form. The
  * data behind the later parts is there from the start; only their drawing waits.
  */
-export function useDrawnInSteps(steps: number, enabled = true): Ref<number> {
-  const drawn = ref(enabled ? 0 : steps);
-  if (!enabled) return drawn;
+export function useDrawnInSteps(steps: number): Ref<number> {
+  const drawn = ref(0);
   let frame = 0;
   let timer: ReturnType<typeof setTimeout> | undefined;
   // requestAnimationFrame runs just before a frame is drawn; the timeout's task comes after it.
