@@ -1,5 +1,6 @@
 // What the crew's screens keep on the device so that they open with no signal: who is signed in,
-// the destinations and their policies, and the crew's own open cases as last seen. IndexedDB,
+// the destinations and their policies, the crew's own open cases as last seen, and the half-typed
+// form (src/stores/pre-alert.ts). IndexedDB,
 // like the outbox, and wiped with it at sign-out (wipeDevice). The service worker keeps only
 // code, styles, fonts and icons, never an API answer.
 import { openDB, type DBSchema, type IDBPDatabase } from 'idb';
@@ -47,6 +48,7 @@ export async function kept<T>(key: string): Promise<Kept<T> | null> {
 /** Forgets everything this device kept for the person signing out, the outbox included. */
 export async function wipeDevice(): Promise<void> {
   await Promise.allSettled([database().then((db) => db.clear('kept')), wipeOutbox()]);
-  // The half-typed form of this tab; the remembered destination and unit carry no patient data.
+  // Where older versions kept the half-typed form of a tab. The destination and unit remembered
+  // for each person (localStorage) carry no patient data and stay.
   for (const key of Object.keys(sessionStorage)) if (key.startsWith('plumbline.')) sessionStorage.removeItem(key);
 }

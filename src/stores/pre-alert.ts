@@ -8,6 +8,7 @@ import { withLocalCriteria } from '@shared/triage/local-criteria';
 import { EXAMPLE_POLICY } from '@shared/triage/policy';
 import { describePatient, emptyDraft, emptyHandover, toClinical, type ClinicalDraft, type HeightUnit } from '@/forms/clinical-draft';
 import { useOutboxStore } from './outbox';
+import { useSessionStore } from './session';
 import { keep, kept } from '@/offline/device-store';
 
 interface FormState {
@@ -28,12 +29,17 @@ function newClientId(): string {
   return `${h.slice(0, 8)}-${h.slice(8, 12)}-${h.slice(12, 16)}-${h.slice(16, 20)}-${h.slice(20)}`;
 }
 
-const REMEMBER_KEY = 'plumbline.crew.choices';
-// The half-filled form lives in sessionStorage: it survives a reload of this tab, and patient
-// details do not linger on the device after the tab is closed (the outbox keeps what was sent).
-const DRAFT_KEY = 'plumbline.crew.draft';
+// The destination, unit and height unit last chosen, for each person: the next crew on a shared
+// phone does not find the last crew's unit already chosen. No patient data.
+const rememberKey = (userId: number | null) => `plumbline.crew.choices.${userId ?? 'nobody'}`;
+// The half-typed form is kept on the device (IndexedDB, beside the outbox) as it is typed: it
+// comes back after a reload, a crash or the phone closing the app, for the same person only, and
+// sign-out wipes it with the rest. A draft older than a long shift is not brought back [ours].
+const DRAFT_KEY = 'draft';
+const DRAFT_MAX_AGE_MS = 12 * 60 * 60 * 1000;
 
 interface Remembered { hospitalId: number | null; unitId: number | null; heightUnit: HeightUnit | null }
+interface KeptDraft { userId: number; form: FormState }
 
 function readJson<T>(storage: Storage, key: string): T | null {
   try {
@@ -47,10 +53,10 @@ function readJson<T>(storage: Storage, key: string): T | null {
 export const usePreAlertStore = defineStore('pre-alert', () => {
   const destinations = ref<CrewDestinations | null>(null);
   const loadError = ref<string | null>(null);
-  const remembered = ref<Remembered>({ hospitalId: null, unitId: null, heightUnit: null, ...readJson<Remembered>(localStorage, REMEMBER_KEY) });
-  const form = ref<FormState>(readJson<FormState>(sessionStorage, DRAFT_KEY) ?? blankForm());
-  // A draft kept by an older version of the form has no handover part yet.
-  form.value.clinical.handover ??= emptyHandover();
+  // The screen opens only once the router knows who is signed in.
+  const userId = useSessionStore().user?.id ?? null;
+  const remembered = ref<Remembered>({ hospitalId: null, unitId: null, heightUnit: null, ...readJson<Remembered>(localStorage, rememberKey(userId)) });
+  const form = ref<FormState>(blankForm());
   /** Set once the paramedic pressed Send: from then on every problem shows, not just typed ones. */
   const attempted = ref(false);
   const sendIssues = ref<FieldIssue[]>([]);
@@ -60,12 +66,39 @@ export const usePreAlertStore = defineStore('pre-alert', () => {
     return { hospitalId: r?.hospitalId ?? null, unitId: r?.unitId ?? null, eta: '', notes: '', clinical: emptyDraft(r?.heightUnit ?? 'm') };
   }
 
-  watch(form, (value) => sessionStorage.setItem(DRAFT_KEY, JSON.stringify(value)), { deep: true });
+  // The kept draft is read as the screen opens. Anything typed before it arrives wins over it,
+  // and nothing is written over it until it has been read.
+  let draftRead = false;
+  let typedBeforeDraft = false;
+  const restored = (async () => {
+    const last = userId === null ? null : await kept<KeptDraft>(DRAFT_KEY);
+    const fresh = last !== null && last.value.userId === userId && Date.now() - last.savedAt < DRAFT_MAX_AGE_MS;
+    if (fresh && !typedBeforeDraft) {
+      form.value = last.value.form;
+      // A draft kept by an older version of the form has no handover part yet.
+      form.value.clinical.handover ??= emptyHandover();
+    }
+    draftRead = true;
+    if (typedBeforeDraft) saveDraft();
+  })();
+
+  function saveDraft(): void {
+    if (userId !== null) void keep<KeptDraft>(DRAFT_KEY, { userId, form: form.value });
+  }
+
+  watch(
+    form,
+    () => {
+      if (draftRead) saveDraft();
+      else typedBeforeDraft = true;
+    },
+    { deep: true },
+  );
   watch(
     () => [form.value.hospitalId, form.value.unitId, form.value.clinical.heightUnit] as const,
     ([hospitalId, unitId, heightUnit]) => {
       remembered.value = { hospitalId, unitId, heightUnit };
-      localStorage.setItem(REMEMBER_KEY, JSON.stringify(remembered.value));
+      localStorage.setItem(rememberKey(userId), JSON.stringify(remembered.value));
     },
   );
 
@@ -85,6 +118,8 @@ export const usePreAlertStore = defineStore('pre-alert', () => {
   async function load(): Promise<void> {
     try {
       const answer = await fetchDestinations();
+      // The choices below are made on the kept draft, once it is back, not under it.
+      await restored;
       destinations.value = answer;
       loadError.value = null;
       const f = form.value;

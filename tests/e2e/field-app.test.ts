@@ -1,7 +1,7 @@
 import { afterAll, beforeAll, beforeEach, expect, it } from 'vitest';
 import type { Browser, BrowserContext, Page } from 'playwright-core';
 import { startTestServer, type TestServer } from '../support/server';
-import { collectPageErrors, DESK, describeInBrowser, expectAccessible, launchBrowser, newSignedInPage, PHONE, screenshot } from './support/browser';
+import { collectPageErrors, DESK, describeInBrowser, expectAccessible, launchBrowser, newSignedInPage, PHONE, screenshot, signInThroughPage } from './support/browser';
 
 // Check values: 2021 field-triage guideline (Newgard CD et al., 2022) [source]: a ground-level
 // fall at 78 with a head strike on an anticoagulant is moderate risk; the example policy
@@ -175,6 +175,77 @@ describeInBrowser('the crew app installed on a phone, with and without signal', 
     await page.reload();
     await expect.poll(connection).toBe('Connected');
     expect(await countByClientId(clientId)).toBe(1);
+    await context.close();
+  }, 180_000);
+
+  it('a half-typed form comes back after the app is closed; sign-out at shift change leaves nothing of the patient on the phone', async () => {
+    const { context, page } = await newSignedInPage(browser, server.url, 'paramedic@plumbline.test', { path: '/pre-alert', device: PHONE });
+    await expect.poll(() => page.getByTestId('connection').textContent()).toBe('Connected');
+    await installed(page);
+    await page.getByRole('tab', { name: /^Open cases/ }).click();
+    await page.locator('article[data-case-number]').first().waitFor();
+
+    // One pre-alert waits to be sent (the sockets are cut; pages and sign-out still get through),
+    // and a second patient is half typed when the phone closes the app.
+    signal = false;
+    const engine = server.io.engine as unknown as { clients: Record<string, { close(): void }> };
+    for (const client of Object.values(engine.clients)) client.close();
+    await fillOfflineCase(page);
+    await page.getByRole('button', { name: 'Send pre-alert' }).click();
+    await expect.poll(() => outboxIds(page)).toHaveLength(1);
+    const [clientId] = await outboxIds(page);
+    await page.getByLabel('Age (years)', { exact: true }).fill('45');
+    await page.getByLabel('Fall height (ft)', { exact: true }).fill('12');
+    await page.close();
+
+    const reopened = await context.newPage();
+    await reopened.goto(`${server.url}/pre-alert`);
+    await expect.poll(() => reopened.getByLabel('Age (years)', { exact: true }).inputValue()).toBe('45');
+    expect(await reopened.getByLabel('Fall height (ft)', { exact: true }).inputValue()).toBe('12');
+    expect(await outboxIds(reopened)).toEqual([clientId]);
+
+    // Shift change: signing out asks about the waiting pre-alert, then wipes the device.
+    await reopened.getByRole('button', { name: 'Menu' }).click();
+    await reopened.getByRole('button', { name: 'Sign out', exact: true }).click();
+    await expect.poll(() => reopened.getByRole('alertdialog').textContent()).toContain('One pre-alert has not reached the ED.');
+    await screenshot(reopened, 'field-app-sign-out-waiting');
+    await reopened.getByRole('button', { name: 'Sign out and delete' }).click();
+    await reopened.waitForURL(`${server.url}/signed-out`);
+    const left = await reopened.evaluate(async () => {
+      const count = (name: string, store: string) =>
+        new Promise<number>((resolve, reject) => {
+          const open = indexedDB.open(name);
+          open.onsuccess = () => {
+            const all = open.result.transaction(store).objectStore(store).count();
+            all.onsuccess = () => resolve(all.result);
+            all.onerror = () => reject(all.error);
+          };
+          open.onerror = () => reject(open.error);
+        });
+      const cached: string[] = [];
+      for (const name of await caches.keys()) for (const request of await (await caches.open(name)).keys()) cached.push(new URL(request.url).pathname);
+      return { kept: await count('plumbline-device', 'kept'), outbox: await count('plumbline-outbox', 'outbox'), cached };
+    });
+    expect(left.kept).toBe(0);
+    expect(left.outbox).toBe(0);
+    // The service worker keeps the app's files, never an answer of the API.
+    expect(left.cached.length).toBeGreaterThan(0);
+    expect(left.cached.filter((path) => !path.startsWith('/assets/') && !path.startsWith('/icons/') && !/^\/[\w.-]+$/.test(path))).toEqual([]);
+
+    // The next crew member on the phone (same agency) starts on a blank form with no unit chosen
+    // for them, and the deleted pre-alert never goes.
+    signal = true;
+    const first = await server.db('users').where({ email: 'paramedic@plumbline.test' }).first('id', 'password_hash');
+    const [next] = await server.db('users').insert({ email: 'next.crew@plumbline.test', name: 'Next Crew', password_hash: first.password_hash, active: true, created_at: Date.now() }).returning('id');
+    await server.db('user_roles').insert({ user_id: next.id, role: 'paramedic' });
+    const memberships = await server.db('memberships').where({ user_id: first.id }).select('hospital_id', 'agency_id');
+    await server.db('memberships').insert(memberships.map((m) => ({ ...m, user_id: next.id })));
+    await signInThroughPage(reopened, server.url, 'next.crew@plumbline.test', '/pre-alert');
+    await expect.poll(() => reopened.getByTestId('connection').textContent()).toBe('Connected');
+    expect(await reopened.getByLabel('Age (years)', { exact: true }).inputValue()).toBe('');
+    expect(await reopened.getByRole('group', { name: 'Unit', exact: true }).getByRole('radio', { name: 'No unit', exact: true }).isChecked()).toBe(true);
+    expect(await reopened.getByTestId('outbox').count()).toBe(0);
+    expect(await countByClientId(clientId)).toBe(0);
     await context.close();
   }, 180_000);
 
