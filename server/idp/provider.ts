@@ -8,6 +8,7 @@ import type { JSONWebKeySet } from 'jose';
 import type { Knex } from 'knex';
 import { z } from 'zod';
 import type { Logger } from 'pino';
+import { describeIssues, formatIssue } from '../../shared/schemas/issues';
 import { verifyPassword } from '../auth/passwords';
 import { signInThrottle, type SignInThrottle } from '../auth/sign-in-throttle';
 import { waitText } from '../limits';
@@ -62,7 +63,10 @@ function signingKeys(dataDir: string): SigningKeyFile {
       throw refused(`not valid JSON: ${(error as Error).message}`);
     }
     const parsed = SigningKeyFile.safeParse(read);
-    if (!parsed.success) throw refused(`${parsed.error.issues[0].path.join('.') || 'the file'}: ${parsed.error.issues[0].message}`);
+    if (!parsed.success) {
+      const [issue] = describeIssues(parsed.error);
+      throw refused(issue.field === '(input)' ? `the file: ${issue.message}` : formatIssue(issue));
+    }
     return parsed.data;
   }
   const { privateKey } = generateKeyPairSync('rsa', { modulusLength: 2048 });

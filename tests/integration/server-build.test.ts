@@ -76,7 +76,7 @@ describe('the compiled server', () => {
     expect(failed?.code).toBe(1);
     // Only the line for the operator: no stack trace through the bundled build (the identity
     // provider's own line about the Node.js version aside).
-    expect(failed?.stderr.trim().split('\n').filter((line) => !line.startsWith('oidc-provider WARNING'))).toEqual([`Plumbline could not start: ${keyFile} is not a key file this server wrote (keys.0.n: Invalid input: expected string, received undefined). Move it aside to have a new key made; every session then signs in again.`]);
+    expect(failed?.stderr.trim().split('\n').filter((line) => !line.startsWith('oidc-provider WARNING'))).toEqual([`Plumbline could not start: ${keyFile} is not a key file this server wrote (keys[0].n: Invalid input: expected string, received undefined). Move it aside to have a new key made; every session then signs in again.`]);
     expect(readFileSync(keyFile, 'utf8')).toBe(tampered);
   });
 

@@ -34,7 +34,7 @@ describe("the built-in identity provider's key file", () => {
     const file = join(dir, 'idp-signing-key.json');
     const tampered = JSON.stringify({ keys: [{ kty: 'RSA', n: 'x', e: 'AQAB', kid: 'k1', alg: 'none', use: 'sig', d: 'y' }] });
     writeFileSync(file, tampered);
-    expect(() => localIdpPublicKeys(dir)).toThrow(/idp-signing-key\.json is not a key file this server wrote \(keys\.0\.alg: /);
+    expect(() => localIdpPublicKeys(dir)).toThrow(/idp-signing-key\.json is not a key file this server wrote \(keys\[0\]\.alg: /);
     expect(readFileSync(file, 'utf8')).toBe(tampered);
 
     writeFileSync(file, '{"keys": [');
