@@ -1,13 +1,10 @@
-import { spawnSync } from 'node:child_process';
 import { existsSync } from 'node:fs';
-import { createRequire } from 'node:module';
-import { dirname, join } from 'node:path';
 import { loadConfig } from '../config';
 import { migrate, openDb } from '../db';
 import { systemClock } from '../deps';
 import { DEMO_PASSWORD, demoAccounts, isEmpty, seedDemo } from '../services/demo/seed';
 import type { RunningServer } from '../server';
-import { BUILT_CLIENT, clientBuildIsStale } from './client-build';
+import { BUILT_CLIENT, buildClient, clientBuildIsStale } from './client-build';
 
 const usage = `Usage: plumbline <command>
 
@@ -31,7 +28,6 @@ const usage = `Usage: plumbline <command>
   restore FILE          put a backup back in place; refuses while a server has the database open
 `;
 
-const require = createRequire(import.meta.url);
 const io = { stdin: process.stdin, stdout: process.stdout, stderr: process.stderr };
 
 export async function main(argv: string[]): Promise<number> {
@@ -98,10 +94,13 @@ async function serve(dev: boolean): Promise<number> {
   const config = loadConfig(process.env, { dev });
   if (!dev && clientBuildIsStale()) {
     console.log(existsSync(BUILT_CLIENT) ? 'Building the client (its sources changed since the last build)…' : 'Building the client (first start)…');
-    // In a child process, so the server does not keep the bundler's memory for its whole life.
-    const built = spawnSync(process.execPath, [join(dirname(require.resolve('vite/package.json')), 'bin', 'vite.js'), 'build', '--logLevel', 'warn'], { stdio: 'inherit' });
-    if (built.status !== 0) {
-      console.error('The client build failed; see above.');
+    // As it ships (a NODE_ENV of "test" or "development" in the shell would otherwise give the
+    // libraries' development builds), in a child process so the server does not keep the
+    // bundler's memory for its whole life.
+    try {
+      buildClient();
+    } catch (error) {
+      console.error((error as Error).message);
       return 1;
     }
   }
