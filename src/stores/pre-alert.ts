@@ -6,7 +6,8 @@ import { describeIssues, type FieldIssue } from '@shared/schemas/issues';
 import { evaluate, type Evaluation } from '@shared/triage/evaluate';
 import { withLocalCriteria } from '@shared/triage/local-criteria';
 import { EXAMPLE_POLICY } from '@shared/triage/policy';
-import { describePatient, emptyDraft, emptyHandover, toClinical, type ClinicalDraft, type HeightUnit } from '@/forms/clinical-draft';
+import { describePatient, emptyDraft, toClinical, type ClinicalDraft, type HeightUnit } from '@/forms/clinical-draft';
+import { overBlank } from '@/forms/over-blank';
 import { useOutboxStore } from './outbox';
 import { useSessionStore } from './session';
 import { keep, kept } from '@/offline/device-store';
@@ -72,12 +73,8 @@ export const usePreAlertStore = defineStore('pre-alert', () => {
   let typedBeforeDraft = false;
   const restored = (async () => {
     const last = userId === null ? null : await kept<KeptDraft>(DRAFT_KEY);
-    const fresh = last !== null && last.value.userId === userId && Date.now() - last.savedAt < DRAFT_MAX_AGE_MS;
-    if (fresh && !typedBeforeDraft) {
-      form.value = last.value.form;
-      // A draft kept by an older version of the form has no handover part yet.
-      form.value.clinical.handover ??= emptyHandover();
-    }
+    const fresh = last !== null && last.value?.userId === userId && Date.now() - last.savedAt < DRAFT_MAX_AGE_MS;
+    if (fresh && !typedBeforeDraft) form.value = overBlank(blankForm(), last.value.form);
     draftRead = true;
     if (typedBeforeDraft) saveDraft();
   })();
