@@ -45,6 +45,15 @@ export async function kept<T>(key: string): Promise<Kept<T> | null> {
   }
 }
 
+/** Forgets one kept answer. */
+export async function forget(key: string): Promise<void> {
+  try {
+    await (await database()).delete('kept', key);
+  } catch {
+    // Nothing was kept.
+  }
+}
+
 /** Forgets everything this device kept for the person signing out, the outbox included. */
 export async function wipeDevice(): Promise<void> {
   await Promise.allSettled([database().then((db) => db.clear('kept')), wipeOutbox()]);

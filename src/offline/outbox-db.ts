@@ -62,6 +62,11 @@ export async function removeEntry(clientId: string): Promise<void> {
   await (await database()).delete('outbox', clientId);
 }
 
+/** What waits on this device, whoever made it. */
+export async function allEntries(): Promise<OutboxEntry[]> {
+  return inOrderMade(await (await database()).getAll('outbox'));
+}
+
 /** Empties the outbox of every person on this device (sign-out). */
 export async function wipeOutbox(): Promise<void> {
   await (await database()).clear('outbox');

@@ -1,6 +1,6 @@
 import { createRouter, createWebHistory, START_LOCATION, type RouteRecordRaw } from 'vue-router';
 import { ApiError } from '@/api/http';
-import { signInUrl, type Role } from '@/api/me';
+import type { Role } from '@/api/me';
 import { useSessionStore } from '@/stores/session';
 import { canOpen, type Action } from '@shared/access';
 
@@ -123,7 +123,7 @@ router.beforeEach(async (to) => {
   } catch (error) {
     if (error instanceof ApiError && error.status === 401) {
       // Sign-in is a server round trip through the identity provider, not a client route.
-      window.location.assign(signInUrl(to.fullPath));
+      await session.signInAgain(to.fullPath);
       return false;
     }
     // Any other failure is kept in the store and shown by the shell with a way to retry.

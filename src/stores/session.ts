@@ -2,7 +2,7 @@ import { defineStore } from 'pinia';
 import { computed, ref } from 'vue';
 import { ApiError } from '@/api/http';
 import { getMe, signInUrl, type MeResponse, type Role } from '@/api/me';
-import { keep, kept } from '@/offline/device-store';
+import { forget, keep, kept } from '@/offline/device-store';
 import { mayDo, type Action } from '@shared/access';
 
 // When a person holds several roles, the first match decides where "/" takes them: the role
@@ -64,9 +64,17 @@ export const useSessionStore = defineStore('session', () => {
       if (!last) return fetchMe();
       me.value = last.value;
       fromDevice.value = last.savedAt;
-      fetchMe().catch((error: unknown) => {
-        if (error instanceof ApiError && error.status === 401) window.location.assign(signInUrl(window.location.pathname + window.location.search));
-      });
+      fetchMe()
+        .then(async (fresh) => {
+          // Someone else signed in on this device since (a sign-in this app did not start): the
+          // screens opened as the kept account start again as the one the server knows.
+          if (fresh.user.id === last.value.user.id) return;
+          await keep('me', fresh);
+          window.location.reload();
+        })
+        .catch((error: unknown) => {
+          if (error instanceof ApiError && error.status === 401) void signInAgain(window.location.pathname + window.location.search);
+        });
       return last.value;
     })()
       .catch((error: unknown) => {
@@ -80,10 +88,20 @@ export const useSessionStore = defineStore('session', () => {
     return pending;
   }
 
+  /**
+   * Off to the identity provider. The kept account is forgotten first: whoever signs in next on
+   * this device (the next crew on a shared phone) opens as themselves, never as the last one. What
+   * waits in the outbox stays; it belongs to the person who made it and goes when they sign in.
+   */
+  async function signInAgain(returnTo: string): Promise<void> {
+    await forget('me');
+    window.location.assign(signInUrl(returnTo));
+  }
+
   /** Whether this person's roles open an action of the access map (the server checks again). */
   function may(action: Action): boolean {
     return mayDo(roles.value, action);
   }
 
-  return { me, user, roles, memberships, hospitals, homeRoute, loadError, fromDevice, load, may };
+  return { me, user, roles, memberships, hospitals, homeRoute, loadError, fromDevice, load, signInAgain, may };
 });

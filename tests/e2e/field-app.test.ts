@@ -249,6 +249,70 @@ describeInBrowser('the crew app installed on a phone, with and without signal', 
     await context.close();
   }, 180_000);
 
+  it('a phone left signed in: the next crew member signs in over the ended session and opens as themselves, and the last one\'s pre-alert waits for its maker', async () => {
+    const { context, page } = await newSignedInPage(browser, server.url, 'paramedic@plumbline.test', { path: '/pre-alert', device: PHONE });
+    await expect.poll(() => page.getByTestId('connection').textContent()).toBe('Connected');
+    await installed(page);
+    // Robin leaves a pre-alert waiting (the sockets are cut) and a half-typed patient.
+    signal = false;
+    const engine = server.io.engine as unknown as { clients: Record<string, { close(): void }> };
+    for (const client of Object.values(engine.clients)) client.close();
+    await fillOfflineCase(page);
+    await page.getByRole('button', { name: 'Send pre-alert' }).click();
+    await expect.poll(() => outboxIds(page)).toHaveLength(1);
+    const [clientId] = await outboxIds(page);
+    await page.getByLabel('Age (years)', { exact: true }).fill('45');
+
+    // The session ends on the server and at the identity provider (the phone was left for hours).
+    await server.db('sessions').delete();
+    await server.db('identity_store').where({ model: 'Session' }).delete();
+    signal = true;
+    await expect.poll(() => page.getByTestId('connection').locator('span').textContent(), { timeout: 15_000 }).toMatch(/^Signed out on the server/);
+
+    const robin = await server.db('users').where({ email: 'paramedic@plumbline.test' }).first('id', 'password_hash');
+    const [kim] = await server.db('users').insert({ email: 'kim.crew@plumbline.test', name: 'Kim Orrell', password_hash: robin.password_hash, active: true, created_at: Date.now() }).returning('id');
+    await server.db('user_roles').insert({ user_id: kim.id, role: 'paramedic' });
+    const memberships = await server.db('memberships').where({ user_id: robin.id }).select('hospital_id', 'agency_id');
+    await server.db('memberships').insert(memberships.map((m) => ({ ...m, user_id: kim.id })));
+
+    await page.getByRole('link', { name: 'Sign in again' }).click();
+    await page.getByLabel('Email').fill('kim.crew@plumbline.test');
+    await page.getByLabel('Password').fill('demo');
+    await page.getByRole('button', { name: 'Sign in' }).click();
+    await page.waitForURL((url) => url.pathname === '/pre-alert');
+    await expect.poll(() => page.getByTestId('connection').textContent(), { timeout: 15_000 }).toBe('Connected');
+    // Kim, from the first frame: her name, a blank form, none of Robin's outbox, nothing sent for him.
+    await page.getByRole('button', { name: 'Menu' }).click();
+    expect(await page.locator('.person-name').textContent()).toBe('Kim Orrell');
+    expect(await page.getByLabel('Age (years)', { exact: true }).inputValue()).toBe('');
+    expect(await page.getByTestId('outbox').count()).toBe(0);
+    expect(await countByClientId(clientId)).toBe(0);
+    expect(await outboxIds(page)).toEqual([clientId]);
+
+    // Kim signs out: the warning counts Robin's pre-alert too, since it goes with the rest.
+    await page.getByRole('button', { name: 'Sign out', exact: true }).click();
+    await expect.poll(() => page.getByRole('alertdialog').textContent()).toContain('One pre-alert has not reached the ED, made by someone signed in here before you.');
+    await page.getByRole('button', { name: 'Stay signed in' }).click();
+    expect(await outboxIds(page)).toEqual([clientId]);
+
+    // Robin signs in again on the same phone by a way the app did not start (the sign-in page
+    // opened directly), on a weak link: the screen opens from the device as Kim before the server
+    // answers who this is, then starts again as Robin, and his pre-alert goes, once.
+    await server.db('sessions').delete();
+    await server.db('identity_store').where({ model: 'Session' }).delete();
+    const cdp = await context.newCDPSession(page);
+    await cdp.send('Network.enable');
+    await cdp.send('Network.emulateNetworkConditions', { offline: false, latency: 400, downloadThroughput: 50_000, uploadThroughput: 50_000 });
+    await signInThroughPage(page, server.url, 'paramedic@plumbline.test', '/auth/login?returnTo=%2Fpre-alert');
+    await expect.poll(async () => {
+      await page.getByRole('button', { name: 'Menu' }).click({ timeout: 2_000 }).catch(() => undefined);
+      return page.locator('.person-name').textContent({ timeout: 2_000 }).catch(() => null);
+    }, { timeout: 15_000 }).toBe('Robin Vasquez-Hale');
+    await expect.poll(() => countByClientId(clientId), { timeout: 15_000 }).toBe(1);
+    await expect.poll(() => outboxIds(page)).toEqual([]);
+    await context.close();
+  }, 180_000);
+
   it('the crew screen and the board say the link is gone within 10 s when it dies without a word', async () => {
     const crew = await newSignedInPage(browser, server.url, 'paramedic@plumbline.test', { path: '/pre-alert', device: PHONE });
     const board = await newSignedInPage(browser, server.url, 'nurse@plumbline.test', { path: '/board', device: DESK });
