@@ -67,6 +67,26 @@ describeInBrowser('the crew app installed on a phone, with and without signal', 
         }),
     );
 
+  /** With the sockets cut (pages and sign-out still get through), a pre-alert is made and left waiting; its id. */
+  async function leaveOneWaiting(page: Page): Promise<string> {
+    signal = false;
+    const engine = server.io.engine as unknown as { clients: Record<string, { close(): void }> };
+    for (const client of Object.values(engine.clients)) client.close();
+    await fillOfflineCase(page);
+    await page.getByRole('button', { name: 'Send pre-alert' }).click();
+    await expect.poll(() => outboxIds(page)).toHaveLength(1);
+    return (await outboxIds(page))[0];
+  }
+
+  /** A second paramedic of the demo crew's agency (the demo has one), with the demo password. */
+  async function addCrewMember(email: string, name: string): Promise<void> {
+    const robin = await server.db('users').where({ email: 'paramedic@plumbline.test' }).first('id', 'password_hash');
+    const [added] = await server.db('users').insert({ email, name, password_hash: robin.password_hash, active: true, created_at: Date.now() }).returning('id');
+    await server.db('user_roles').insert({ user_id: added.id, role: 'paramedic' });
+    const memberships = await server.db('memberships').where({ user_id: robin.id }).select('hospital_id', 'agency_id');
+    await server.db('memberships').insert(memberships.map((m) => ({ ...m, user_id: added.id })));
+  }
+
   beforeAll(async () => {
     server = await startTestServer();
     browser = await launchBrowser();
@@ -185,15 +205,8 @@ describeInBrowser('the crew app installed on a phone, with and without signal', 
     await page.getByRole('tab', { name: /^Open cases/ }).click();
     await page.locator('article[data-case-number]').first().waitFor();
 
-    // One pre-alert waits to be sent (the sockets are cut; pages and sign-out still get through),
-    // and a second patient is half typed when the phone closes the app.
-    signal = false;
-    const engine = server.io.engine as unknown as { clients: Record<string, { close(): void }> };
-    for (const client of Object.values(engine.clients)) client.close();
-    await fillOfflineCase(page);
-    await page.getByRole('button', { name: 'Send pre-alert' }).click();
-    await expect.poll(() => outboxIds(page)).toHaveLength(1);
-    const [clientId] = await outboxIds(page);
+    // One pre-alert waits to be sent, and a second patient is half typed when the phone closes the app.
+    const clientId = await leaveOneWaiting(page);
     await page.getByLabel('Age (years)', { exact: true }).fill('45');
     await page.getByLabel('Fall height (ft)', { exact: true }).fill('12');
     await page.close();
@@ -235,11 +248,7 @@ describeInBrowser('the crew app installed on a phone, with and without signal', 
     // The next crew member on the phone (same agency) starts on a blank form with no unit chosen
     // for them, and the deleted pre-alert never goes.
     signal = true;
-    const first = await server.db('users').where({ email: 'paramedic@plumbline.test' }).first('id', 'password_hash');
-    const [next] = await server.db('users').insert({ email: 'next.crew@plumbline.test', name: 'Next Crew', password_hash: first.password_hash, active: true, created_at: Date.now() }).returning('id');
-    await server.db('user_roles').insert({ user_id: next.id, role: 'paramedic' });
-    const memberships = await server.db('memberships').where({ user_id: first.id }).select('hospital_id', 'agency_id');
-    await server.db('memberships').insert(memberships.map((m) => ({ ...m, user_id: next.id })));
+    await addCrewMember('next.crew@plumbline.test', 'Next Crew');
     await signInThroughPage(reopened, server.url, 'next.crew@plumbline.test', '/pre-alert');
     await expect.poll(() => reopened.getByTestId('connection').textContent()).toBe('Connected');
     expect(await reopened.getByLabel('Age (years)', { exact: true }).inputValue()).toBe('');
@@ -253,14 +262,8 @@ describeInBrowser('the crew app installed on a phone, with and without signal', 
     const { context, page } = await newSignedInPage(browser, server.url, 'paramedic@plumbline.test', { path: '/pre-alert', device: PHONE });
     await expect.poll(() => page.getByTestId('connection').textContent()).toBe('Connected');
     await installed(page);
-    // Robin leaves a pre-alert waiting (the sockets are cut) and a half-typed patient.
-    signal = false;
-    const engine = server.io.engine as unknown as { clients: Record<string, { close(): void }> };
-    for (const client of Object.values(engine.clients)) client.close();
-    await fillOfflineCase(page);
-    await page.getByRole('button', { name: 'Send pre-alert' }).click();
-    await expect.poll(() => outboxIds(page)).toHaveLength(1);
-    const [clientId] = await outboxIds(page);
+    // Robin leaves a pre-alert waiting and a half-typed patient.
+    const clientId = await leaveOneWaiting(page);
     await page.getByLabel('Age (years)', { exact: true }).fill('45');
 
     // The session ends on the server and at the identity provider (the phone was left for hours).
@@ -269,11 +272,7 @@ describeInBrowser('the crew app installed on a phone, with and without signal', 
     signal = true;
     await expect.poll(() => page.getByTestId('connection').locator('span').textContent(), { timeout: 15_000 }).toMatch(/^Signed out on the server/);
 
-    const robin = await server.db('users').where({ email: 'paramedic@plumbline.test' }).first('id', 'password_hash');
-    const [kim] = await server.db('users').insert({ email: 'kim.crew@plumbline.test', name: 'Kim Orrell', password_hash: robin.password_hash, active: true, created_at: Date.now() }).returning('id');
-    await server.db('user_roles').insert({ user_id: kim.id, role: 'paramedic' });
-    const memberships = await server.db('memberships').where({ user_id: robin.id }).select('hospital_id', 'agency_id');
-    await server.db('memberships').insert(memberships.map((m) => ({ ...m, user_id: kim.id })));
+    await addCrewMember('kim.crew@plumbline.test', 'Kim Orrell');
 
     await page.getByRole('link', { name: 'Sign in again' }).click();
     await page.getByLabel('Email').fill('kim.crew@plumbline.test');
