@@ -1,8 +1,7 @@
 // What the crew's screens keep on the device so that they open with no signal: who is signed in,
 // the destinations and their policies, the crew's own open cases as last seen, and the half-typed
-// form (src/stores/pre-alert.ts). IndexedDB,
-// like the outbox, and wiped with it at sign-out (wipeDevice). The service worker keeps only
-// code, styles, fonts and icons, never an API answer.
+// form (src/stores/pre-alert.ts). IndexedDB, like the outbox, and wiped with it at sign-out
+// (wipeDevice). The service worker keeps only code, styles, fonts and icons, never an API answer.
 import { openDB, type DBSchema, type IDBPDatabase } from 'idb';
 import { wipeOutbox } from './outbox-db';
 
