@@ -102,13 +102,21 @@ export const useBoardStore = defineStore('board', () => {
     say(text);
   }
 
+  /**
+   * The ED asked for last (the address, the switcher) or shown. A reload without one (a fresh
+   * socket, the tab shown again, the timer) asks for this ED, so one that starts before the first
+   * answer has come back cannot turn the board to the person's first ED instead.
+   */
+  let askedFor: number | undefined;
+
   /** Reloads the board; `changes` asks only for what changed since the last snapshot of the same hospital. */
   async function load(hospitalId?: number, opts: { changes?: boolean } = {}): Promise<void> {
     const mine = ++generation;
     touchedDuringLoad = new Set();
     loading.value = true;
+    if (hospitalId !== undefined) askedFor = hospitalId;
     try {
-      const wanted = hospitalId ?? hospital.value?.id;
+      const wanted = askedFor ?? hospital.value?.id;
       const since = opts.changes && cursor && wanted === hospital.value?.id ? cursor : undefined;
       const snapshot = await api.getBoard(wanted, since);
       if (mine !== generation) return;
@@ -125,6 +133,7 @@ export const useBoardStore = defineStore('board', () => {
         for (const c of snapshot.cases) next[c.id] = newerCopy(switched ? undefined : byId.value[c.id], c);
       }
       hospital.value = snapshot.hospital;
+      askedFor = snapshot.hospital.id;
       levels.value = snapshot.levels;
       openTotal.value = snapshot.openTotal ?? snapshot.cases.length;
       clockOffset.value = snapshot.at - Date.now();

@@ -242,6 +242,26 @@ describeInBrowser('the Inbound board in Chromium', () => {
     await expect.poll(() => desk.locator('p.hospital').textContent()).toMatch(/^Fenmoor Community Hospital · /);
     await desk.goto(`${server.url}/board?ed=999999`);
     await expect.poll(() => desk.locator('p.hospital').textContent()).toMatch(/^Alderwick General Hospital · /);
+
+    // On a slow answer the socket connects before the board's first snapshot is back, and its
+    // reload starts then: it asks for the ED in the address too, not the person's first.
+    const handlers = server.http.listeners('request');
+    server.http.removeAllListeners('request');
+    server.http.on('request', (req, res) => {
+      const pass = () => handlers.forEach((handler) => handler.call(server.http, req, res));
+      if (req.url?.startsWith('/api/board')) setTimeout(pass, 1_500);
+      else pass();
+    });
+    try {
+      await desk.goto(`${server.url}/board?ed=${community}`);
+      await expect.poll(() => desk.locator('p.hospital').textContent(), { timeout: 15_000 }).toMatch(/^Fenmoor Community Hospital · /);
+      // Both answers (the first snapshot's and the reload's) have come back by now.
+      await desk.waitForTimeout(3_500);
+      expect(await desk.locator('p.hospital').textContent()).toMatch(/^Fenmoor Community Hospital · /);
+    } finally {
+      server.http.removeAllListeners('request');
+      for (const handler of handlers) server.http.on('request', handler as (...args: unknown[]) => void);
+    }
     await admin.context.close();
   });
 });
