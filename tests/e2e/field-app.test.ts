@@ -87,6 +87,14 @@ describeInBrowser('the crew app installed on a phone, with and without signal', 
     await server.db('memberships').insert(memberships.map((m) => ({ ...m, user_id: added.id })));
   }
 
+  /** The demo paramedic on a phone, connected, with the app installed (served by its service worker). */
+  async function installedCrewApp(): Promise<{ context: BrowserContext; page: Page }> {
+    const opened = await newSignedInPage(browser, server.url, 'paramedic@plumbline.test', { path: '/pre-alert', device: PHONE });
+    await expect.poll(() => opened.page.getByTestId('connection').textContent()).toBe('Connected');
+    await installed(opened.page);
+    return opened;
+  }
+
   beforeAll(async () => {
     server = await startTestServer();
     browser = await launchBrowser();
@@ -199,9 +207,7 @@ describeInBrowser('the crew app installed on a phone, with and without signal', 
   }, 180_000);
 
   it('a half-typed form comes back after the app is closed; sign-out at shift change leaves nothing of the patient on the phone', async () => {
-    const { context, page } = await newSignedInPage(browser, server.url, 'paramedic@plumbline.test', { path: '/pre-alert', device: PHONE });
-    await expect.poll(() => page.getByTestId('connection').textContent()).toBe('Connected');
-    await installed(page);
+    const { context, page } = await installedCrewApp();
     await page.getByRole('tab', { name: /^Open cases/ }).click();
     await page.locator('article[data-case-number]').first().waitFor();
 
@@ -259,9 +265,7 @@ describeInBrowser('the crew app installed on a phone, with and without signal', 
   }, 180_000);
 
   it('a phone left signed in: the next crew member signs in over the ended session and opens as themselves, and the last one\'s pre-alert waits for its maker', async () => {
-    const { context, page } = await newSignedInPage(browser, server.url, 'paramedic@plumbline.test', { path: '/pre-alert', device: PHONE });
-    await expect.poll(() => page.getByTestId('connection').textContent()).toBe('Connected');
-    await installed(page);
+    const { context, page } = await installedCrewApp();
     // Robin leaves a pre-alert waiting and a half-typed patient.
     const clientId = await leaveOneWaiting(page);
     await page.getByLabel('Age (years)', { exact: true }).fill('45');
